@@ -290,7 +290,11 @@ class NodeHeadSolver:
 
     def __init__(self, junction_ids, fixed, links, regulating, demands):
         self.jids = list(junction_ids)
-        self.fixed = dict(fixed)
+        # all heads are handled as offsets from a reference head (the mean fixed head): the
+        # unknowns stay small, so head differences keep their precision (a pipe with a tiny head
+        # difference can have a large conductance dQ/ddh)
+        self.ref = float(np.mean(list(fixed.values())))
+        self.fixed = {k: v - self.ref for k, v in fixed.items()}
         self.free = [j for j in self.jids if j not in self.fixed]
         self.col = {j: k for k, j in enumerate(self.free)}
         self.row = {j: k for k, j in enumerate(self.jids)}
@@ -302,14 +306,18 @@ class NodeHeadSolver:
         for l in links:
             assert l.i in known and l.j in known, (l.id, l.i, l.j)
 
-    def heads(self, x):
+    def _offsets(self, x):
         h = dict(self.fixed)
         for j, k in self.col.items():
             h[j] = x[k]
         return h
 
+    def heads(self, x):
+        """Absolute heads (m) of all nodes."""
+        return {k: v + self.ref for k, v in self._offsets(x).items()}
+
     def eval(self, x):
-        h = self.heads(x)
+        h = self._offsets(x)
         F = np.zeros(len(self.jids))
         J = np.zeros((len(self.jids), self.n_unknown))
         for j in self.jids:
@@ -334,7 +342,7 @@ class NodeHeadSolver:
         return F, J
 
     def flows(self, x):
-        h = self.heads(x)
+        h = self._offsets(x)
         out = {l.id: l.flow(h[l.i], h[l.j])[0] for l in self.links}
         for k, (vid, a, b) in enumerate(self.reg):
             out[vid] = x[len(self.free) + k]
@@ -373,20 +381,31 @@ class NodeHeadSolver:
         return np.linalg.solve(A, rhs)
 
     def solve(self, x0=None, tol=1e-12):
+        """Solve continuity; returns (x, largest junction imbalance in m^3/s).
+
+        x holds head offsets from self.ref (use heads(x) for absolute heads) followed by the
+        regulating-valve flows. scipy.optimize.root (MINPACK hybrj, analytic Jacobian) does the
+        solve; if the imbalance is not yet below tol, a few plain Newton steps with the same
+        analytic Jacobian finish it.
+        """
         if x0 is None:
             x0 = self.initial_guess()
-        sol = root(lambda x: self.eval(x), x0, jac=True, method="hybr",
+        sol = root(self.eval, np.asarray(x0, dtype=float), jac=True, method="hybr",
                    options={"xtol": 1e-15, "maxfev": 20000})
         x = sol.x
-        F, _ = self.eval(x)
+        F, J = self.eval(x)
         res = float(np.max(np.abs(F)))
-        if not res < tol:
-            # second pass with Levenberg-Marquardt from where hybr stopped
-            sol = root(lambda x: self.eval(x), x, jac=True, method="lm",
-                       options={"xtol": 1e-15, "ftol": 1e-30, "gtol": 0.0, "maxiter": 20000})
-            x = sol.x
-            F, _ = self.eval(x)
-            res = float(np.max(np.abs(F)))
+        self.newton_steps = 0
+        for _ in range(8):
+            if res < tol:
+                break
+            x_new = x - np.linalg.solve(J, F)
+            F_new, J_new = self.eval(x_new)
+            res_new = float(np.max(np.abs(F_new)))
+            if not res_new < res:
+                break
+            x, F, J, res = x_new, F_new, J_new, res_new
+            self.newton_steps += 1
         if not res < tol:
             raise RuntimeError(f"node-head solve did not reach {tol}: residual {res} ({sol.message})")
         return x, res
