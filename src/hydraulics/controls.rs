@@ -1,0 +1,203 @@
+//! Operating states of check valves, pumps and control valves, and the rules that switch them.
+//!
+//! The rules are the usual complementarity conditions of each device (e.g. a check valve is
+//! open only while its flow is forward, and closed only while the head behind it is not higher
+//! than the head ahead). They are evaluated after the hydraulics have converged for the current
+//! states; every switch is counted, and an element that has switched [`MAX_SWITCHES`] times
+//! keeps its last state, so the outer loop always ends. Such an element is reported as one
+//! whose control could not settle.
+
+use serde::Serialize;
+
+use crate::model::{Link, LinkKind, PipeStatus, ValveKind, ValveStatus};
+
+/// Switches allowed per element and solve before its state is frozen.
+pub const MAX_SWITCHES: u8 = 8;
+
+/// Head margin for the switching rules, m: a state changes only when a rule is violated by
+/// more than this (1 mm), so that round-off cannot flip it back and forth.
+pub const SWITCH_HEAD_TOL_M: f64 = 1.0e-3;
+
+/// Flow margin for the switching rules, m³/s (about 0.0016 gpm).
+pub const SWITCH_FLOW_TOL_M3S: f64 = 1.0e-7;
+
+/// The operating state of a link.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum LinkState {
+    /// Pipes and valves: conducting by their head-loss law.
+    Open,
+    /// No flow (closed pipe or valve, check valve or control valve shut against reverse flow).
+    Closed,
+    /// Control valve holding its setting.
+    Regulating,
+    /// Pump on its curve.
+    Running,
+    /// Pump switched off by the user.
+    Off,
+    /// Pump asked for more head than its shutoff head: no flow.
+    NoFlow,
+}
+
+impl LinkState {
+    pub fn name(self) -> &'static str {
+        match self {
+            LinkState::Open => "open",
+            LinkState::Closed => "closed",
+            LinkState::Regulating => "regulating",
+            LinkState::Running => "running",
+            LinkState::Off => "off",
+            LinkState::NoFlow => "no-flow",
+        }
+    }
+
+    /// Whether the link carries flow by its law (a conductance in the matrix).
+    pub fn conducts(self) -> bool {
+        matches!(self, LinkState::Open | LinkState::Running)
+    }
+}
+
+/// The state a link starts a cold solve in.
+pub fn initial_state(link: &Link) -> LinkState {
+    match &link.kind {
+        LinkKind::Pipe(p) => match p.status {
+            PipeStatus::Closed => LinkState::Closed,
+            _ => LinkState::Open,
+        },
+        LinkKind::Pump(p) => {
+            if p.on {
+                LinkState::Running
+            } else {
+                LinkState::Off
+            }
+        }
+        LinkKind::Valve(v) => match (v.status, v.kind) {
+            (ValveStatus::Closed, _) => LinkState::Closed,
+            (ValveStatus::Open, _) | (ValveStatus::Active, ValveKind::Throttle) => LinkState::Open,
+            (ValveStatus::Active, _) => LinkState::Regulating,
+        },
+    }
+}
+
+/// Whether the user fixed the state (no rule ever changes it).
+pub fn is_fixed(link: &Link) -> bool {
+    match &link.kind {
+        LinkKind::Pipe(p) => p.status != PipeStatus::Check,
+        LinkKind::Pump(p) => !p.on,
+        LinkKind::Valve(v) => v.status != ValveStatus::Active || v.kind == ValveKind::Throttle,
+    }
+}
+
+/// What the rules see of a converged link.
+pub struct LinkView {
+    pub state: LinkState,
+    /// Head at the from and to nodes, m.
+    pub head_from: f64,
+    pub head_to: f64,
+    /// Flow from → to, m³/s.
+    pub flow: f64,
+    /// Set head of a PRV/PSV (m) or set flow of an FCV (m³/s).
+    pub setting: f64,
+    /// Loss of the wide-open valve at flow q (m), for valves.
+    pub open_loss: fn(&Link, f64) -> f64,
+    /// Shutoff head of a pump at its speed, m.
+    pub shutoff_m: f64,
+}
+
+/// The state the rules ask for, given a converged solution in `view.state`.
+pub fn next_state(link: &Link, v: &LinkView) -> LinkState {
+    let (ht, hf, q) = (v.head_to, v.head_from, v.flow);
+    match &link.kind {
+        LinkKind::Pipe(_) => match v.state {
+            LinkState::Open if q < -SWITCH_FLOW_TOL_M3S => LinkState::Closed,
+            LinkState::Closed if hf - ht > SWITCH_HEAD_TOL_M => LinkState::Open,
+            s => s,
+        },
+        LinkKind::Pump(_) => match v.state {
+            LinkState::Running if q < -SWITCH_FLOW_TOL_M3S => LinkState::NoFlow,
+            LinkState::NoFlow if ht - hf < v.shutoff_m - SWITCH_HEAD_TOL_M => LinkState::Running,
+            s => s,
+        },
+        LinkKind::Valve(valve) => {
+            let open_loss = |q: f64| (v.open_loss)(link, q);
+            match valve.kind {
+                ValveKind::Prv => match v.state {
+                    LinkState::Regulating => {
+                        if q < -SWITCH_FLOW_TOL_M3S {
+                            LinkState::Closed
+                        } else if hf < v.setting + open_loss(q) - SWITCH_HEAD_TOL_M {
+                            LinkState::Open
+                        } else {
+                            LinkState::Regulating
+                        }
+                    }
+                    LinkState::Open => {
+                        if q < -SWITCH_FLOW_TOL_M3S {
+                            LinkState::Closed
+                        } else if ht > v.setting + SWITCH_HEAD_TOL_M {
+                            LinkState::Regulating
+                        } else {
+                            LinkState::Open
+                        }
+                    }
+                    LinkState::Closed => {
+                        if hf > ht + SWITCH_HEAD_TOL_M && ht < v.setting - SWITCH_HEAD_TOL_M {
+                            if hf > v.setting + SWITCH_HEAD_TOL_M {
+                                LinkState::Regulating
+                            } else {
+                                LinkState::Open
+                            }
+                        } else {
+                            LinkState::Closed
+                        }
+                    }
+                    s => s,
+                },
+                ValveKind::Psv => match v.state {
+                    LinkState::Regulating => {
+                        if q < -SWITCH_FLOW_TOL_M3S {
+                            LinkState::Closed
+                        } else if ht + open_loss(q) > v.setting + SWITCH_HEAD_TOL_M {
+                            LinkState::Open
+                        } else {
+                            LinkState::Regulating
+                        }
+                    }
+                    LinkState::Open => {
+                        if q < -SWITCH_FLOW_TOL_M3S {
+                            LinkState::Closed
+                        } else if hf < v.setting - SWITCH_HEAD_TOL_M {
+                            LinkState::Regulating
+                        } else {
+                            LinkState::Open
+                        }
+                    }
+                    LinkState::Closed => {
+                        if hf > v.setting + SWITCH_HEAD_TOL_M && hf > ht + SWITCH_HEAD_TOL_M {
+                            if ht < v.setting - SWITCH_HEAD_TOL_M {
+                                LinkState::Regulating
+                            } else {
+                                LinkState::Open
+                            }
+                        } else {
+                            LinkState::Closed
+                        }
+                    }
+                    s => s,
+                },
+                ValveKind::Fcv => match v.state {
+                    LinkState::Regulating => {
+                        if hf - ht < open_loss(v.setting) - SWITCH_HEAD_TOL_M {
+                            LinkState::Open
+                        } else {
+                            LinkState::Regulating
+                        }
+                    }
+                    LinkState::Open if q > v.setting + SWITCH_FLOW_TOL_M3S => LinkState::Regulating,
+                    s => s,
+                },
+                ValveKind::Throttle => v.state,
+            }
+        }
+    }
+}

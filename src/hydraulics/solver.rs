@@ -1,0 +1,772 @@
+//! Steady-state solution by the global gradient algorithm (Todini & Pilati, "A gradient
+//! algorithm for the analysis of pipe networks", in *Computer Applications in Water Supply*,
+//! vol. 1, 1988), in correction form.
+//!
+//! Unknowns: junction heads H and link flows Q (positive from → to). Each Newton step solves
+//! the junction system M·δH = r with M = A₂₁·D⁻¹·A₁₂ (D = dφ/dQ of the conducting links; a
+//! weighted graph Laplacian, symmetric positive definite while every junction reaches a fixed
+//! grade), then updates δQ = D⁻¹·(δH_from − δH_to − e) with e = φ(Q) − (H_from − H_to).
+//! Continuity holds exactly after every step. Near convergence the factorization is reused
+//! for a few steps (the chord method) and renewed as soon as the steps stop shrinking fast.
+//!
+//! Control devices: a regulating PRV fixes the head of its downstream junction (a PSV, of its
+//! upstream junction); the valve's flow is then recovered from continuity at that junction and
+//! acts as a known withdrawal at the other end in the next step. A regulating FCV carries its
+//! set flow. Closed elements carry nothing. States switch by the rules of [`super::controls`].
+
+use std::sync::Arc;
+
+use super::controls::{self, LinkState, LinkView, MAX_SWITCHES};
+use super::factor::{FaerCholesky, LowerPattern, SpdFactorization, SymbolicAnalysis};
+use super::laws::LinkLaw;
+use super::SolveError;
+use crate::model::{LinkKind, Network, ValveKind};
+use crate::units::head_m_from_pressure_kpa;
+
+/// Largest head change of the last step for convergence, m (1e-5 m = 0.000014 psi; pressures
+/// are then converged far inside the 0.01 psi that reports show).
+pub const HEAD_TOL_M: f64 = 1.0e-5;
+/// Largest flow change of the last step for convergence, m³/s (0.0016 gpm).
+pub const FLOW_TOL_M3S: f64 = 1.0e-7;
+/// Iterations allowed per solve, all state changes included.
+pub const MAX_ITERATIONS: u32 = 200;
+/// Reuse the factorization only while the head step is below this, m ...
+const CHORD_MAX_STEP_M: f64 = 0.05;
+/// ... and each step shrinks the previous one at least by this factor.
+const CHORD_MAX_RATIO: f64 = 0.2;
+/// Initial flow velocity of a cold start, m/s (a common starting guess, about 1 ft/s).
+const COLD_START_VELOCITY_M_PER_S: f64 = 0.3;
+
+/// How a link enters the solve.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Role {
+    /// A pipe, pump or valve whose state never changes by rule.
+    Plain,
+    /// Check-valve pipe, pump, or control valve: state by rule.
+    Controlled,
+}
+
+/// Everything about a network that the solver needs and never changes: shareable between
+/// threads (`Send + Sync`).
+#[derive(Debug)]
+pub struct Hydraulics<'n> {
+    net: &'n Network,
+    n_junctions: usize,
+    laws: Vec<LinkLaw>,
+    roles: Vec<Role>,
+    /// PRV/PSV set head (m) or FCV set flow (m³/s); 0 for others.
+    settings: Vec<f64>,
+    /// Grade of every node that has one fixed (sources), else 0.
+    source_grade: Vec<f64>,
+    pattern: LowerPattern,
+    /// Off-diagonal slot of each link joining two different junctions.
+    off_slot: Vec<Option<usize>>,
+    /// Links at each node: `adj_links[adj_ptr[n]..adj_ptr[n+1]]`.
+    adj_ptr: Vec<usize>,
+    adj_links: Vec<usize>,
+    analysis: Arc<SymbolicAnalysis>,
+}
+
+/// Per-thread mutable state of the solver: matrix values, factorization and scratch vectors.
+pub struct Workspace {
+    factor: FaerCholesky,
+    values: Vec<f64>,
+    rhs: Vec<f64>,
+    /// Conductances 1/D with which the current factorization was made.
+    g_factored: Vec<f64>,
+    /// Known flow change of each link in the current step.
+    known: Vec<f64>,
+    demand: Vec<f64>,
+    /// Fixed head of a junction in the current state (sources are always fixed).
+    pinned: Vec<Option<f64>>,
+}
+
+/// What to solve: demands and an optional junction held at a head.
+#[derive(Clone, Copy, Debug)]
+pub struct SolveRequest<'a> {
+    /// Multiplier of every junction's average-day demand.
+    pub demand_factor: f64,
+    /// Extra withdrawals at junctions, m³/s.
+    pub extra_demand: &'a [(usize, f64)],
+    /// A junction held at a head (m); the flow it must draw for that is reported.
+    pub fixed_head: Option<(usize, f64)>,
+}
+
+/// A converged steady state.
+#[derive(Clone, Debug)]
+pub struct Solution {
+    /// Hydraulic grade of every node, m.
+    pub heads_m: Vec<f64>,
+    /// Flow of every link from → to, m³/s.
+    pub flows_m3s: Vec<f64>,
+    pub states: Vec<LinkState>,
+    /// Newton and chord steps taken.
+    pub iterations: u32,
+    /// Numeric factorizations made.
+    pub factorizations: u32,
+    /// With a fixed-head junction: the flow it draws beyond its demand, m³/s.
+    pub fixed_head_outflow_m3s: Option<f64>,
+    /// Junctions cut off from every fixed grade by closed elements, with no demand (their heads
+    /// mean nothing).
+    pub isolated: Vec<usize>,
+    /// Links whose control switched too often and was frozen.
+    pub unsettled: Vec<usize>,
+}
+
+impl<'n> Hydraulics<'n> {
+    /// Prepares the solver for `net`: link laws, matrix pattern, and the symbolic
+    /// factorization (once per network).
+    pub fn new(net: &'n Network) -> Result<Self, SolveError> {
+        let nj = net.n_junctions;
+        let nn = net.nodes.len();
+        let laws: Vec<LinkLaw> = net
+            .links
+            .iter()
+            .map(|l| LinkLaw::of(l, net.headloss))
+            .collect();
+        let roles = net
+            .links
+            .iter()
+            .map(|l| {
+                if controls::is_fixed(l) {
+                    Role::Plain
+                } else {
+                    Role::Controlled
+                }
+            })
+            .collect();
+        let settings = net
+            .links
+            .iter()
+            .map(|l| match &l.kind {
+                LinkKind::Valve(v) => match v.kind {
+                    ValveKind::Prv => {
+                        net.nodes[l.to].elevation_m + head_m_from_pressure_kpa(v.setting)
+                    }
+                    ValveKind::Psv => {
+                        net.nodes[l.from].elevation_m + head_m_from_pressure_kpa(v.setting)
+                    }
+                    ValveKind::Fcv => v.setting,
+                    ValveKind::Throttle => 0.0,
+                },
+                _ => 0.0,
+            })
+            .collect();
+        let source_grade = net.nodes.iter().map(|n| n.grade_m.unwrap_or(0.0)).collect();
+
+        // Lower-triangle pattern: diagonal of every junction, one entry per junction pair.
+        let mut columns: Vec<Vec<usize>> = (0..nj).map(|j| vec![j]).collect();
+        for l in &net.links {
+            if l.from != l.to && l.from < nj && l.to < nj {
+                let (lo, hi) = (l.from.min(l.to), l.from.max(l.to));
+                columns[lo].push(hi);
+            }
+        }
+        let mut col_ptr = Vec::with_capacity(nj + 1);
+        let mut row_idx = Vec::new();
+        col_ptr.push(0);
+        for col in &mut columns {
+            col.sort_unstable();
+            col.dedup();
+            row_idx.extend_from_slice(col);
+            col_ptr.push(row_idx.len());
+        }
+        let pattern = LowerPattern {
+            n: nj,
+            col_ptr,
+            row_idx,
+        };
+        let off_slot = net
+            .links
+            .iter()
+            .map(|l| {
+                (l.from != l.to && l.from < nj && l.to < nj)
+                    .then(|| pattern.slot(l.from.max(l.to), l.from.min(l.to)))
+                    .flatten()
+            })
+            .collect();
+        let mut degree = vec![0usize; nn + 1];
+        for l in &net.links {
+            degree[l.from] += 1;
+            degree[l.to] += 1;
+        }
+        let mut adj_ptr = vec![0usize; nn + 1];
+        for n in 0..nn {
+            adj_ptr[n + 1] = adj_ptr[n] + degree[n];
+        }
+        let mut fill = adj_ptr.clone();
+        let mut adj_links = vec![0usize; adj_ptr[nn]];
+        for (i, l) in net.links.iter().enumerate() {
+            adj_links[fill[l.from]] = i;
+            fill[l.from] += 1;
+            adj_links[fill[l.to]] = i;
+            fill[l.to] += 1;
+        }
+        let analysis = if nj > 0 {
+            SymbolicAnalysis::new(&pattern).map_err(SolveError::Internal)?
+        } else {
+            return Err(SolveError::Internal("the network has no junctions".into()));
+        };
+        Ok(Hydraulics {
+            net,
+            n_junctions: nj,
+            laws,
+            roles,
+            settings,
+            source_grade,
+            pattern,
+            off_slot,
+            adj_ptr,
+            adj_links,
+            analysis,
+        })
+    }
+
+    pub fn network(&self) -> &'n Network {
+        self.net
+    }
+
+    /// A fresh per-thread workspace.
+    pub fn workspace(&self) -> Workspace {
+        let nl = self.net.links.len();
+        let nj = self.n_junctions;
+        Workspace {
+            factor: FaerCholesky::new(self.analysis.clone()),
+            values: vec![0.0; self.pattern.nnz()],
+            rhs: vec![0.0; nj],
+            g_factored: vec![0.0; nl],
+            known: vec![0.0; nl],
+            demand: vec![0.0; nj],
+            pinned: vec![None; nj],
+        }
+    }
+
+    /// Number of stored entries of the junction matrix and of its Cholesky factor.
+    pub fn matrix_sizes(&self) -> (usize, usize) {
+        (self.pattern.nnz(), self.analysis.factor_len())
+    }
+
+    /// The link law (for reports of head loss).
+    pub fn law(&self, link: usize) -> &LinkLaw {
+        &self.laws[link]
+    }
+
+    /// Set head (m) of a PRV/PSV or set flow (m³/s) of an FCV.
+    pub fn setting(&self, link: usize) -> f64 {
+        self.settings[link]
+    }
+
+    fn links_at(&self, node: usize) -> &[usize] {
+        &self.adj_links[self.adj_ptr[node]..self.adj_ptr[node + 1]]
+    }
+
+    /// Net inflow minus demand at junction `j` (zero when continuity holds), m³/s.
+    fn imbalance(&self, j: usize, flows: &[f64], demand: &[f64]) -> f64 {
+        let mut sum = -demand[j];
+        for &i in self.links_at(j) {
+            let l = &self.net.links[i];
+            if l.from == l.to {
+                continue;
+            }
+            if l.to == j {
+                sum += flows[i];
+            } else {
+                sum -= flows[i];
+            }
+        }
+        sum
+    }
+
+    /// A cold starting point: flows at 0.3 m/s, pumps at their design flow, initial states.
+    pub fn cold_start(&self) -> Solution {
+        let net = self.net;
+        let top = net
+            .sources()
+            .iter()
+            .filter_map(|s| s.grade_m)
+            .fold(f64::NEG_INFINITY, f64::max);
+        let mut heads_m = self.source_grade.clone();
+        for h in heads_m.iter_mut().take(self.n_junctions) {
+            *h = top;
+        }
+        let flows_m3s = net
+            .links
+            .iter()
+            .map(|l| match &l.kind {
+                LinkKind::Pump(p) => p.design_point.0 * p.speed,
+                _ => {
+                    let d = l.diameter_m().unwrap_or(0.0);
+                    COLD_START_VELOCITY_M_PER_S * std::f64::consts::PI * d * d / 4.0
+                }
+            })
+            .collect();
+        let states = net.links.iter().map(controls::initial_state).collect();
+        Solution {
+            heads_m,
+            flows_m3s,
+            states,
+            iterations: 0,
+            factorizations: 0,
+            fixed_head_outflow_m3s: None,
+            isolated: Vec::new(),
+            unsettled: Vec::new(),
+        }
+    }
+
+    /// Solves `request`, starting from `start` (a previous solution of the same network, or
+    /// [`Hydraulics::cold_start`]).
+    pub fn solve(
+        &self,
+        ws: &mut Workspace,
+        request: &SolveRequest<'_>,
+        start: &Solution,
+    ) -> Result<Solution, SolveError> {
+        let net = self.net;
+        let nj = self.n_junctions;
+        let nl = net.links.len();
+        for (j, d) in ws.demand.iter_mut().enumerate() {
+            *d = net.nodes[j].base_demand_m3s * request.demand_factor;
+        }
+        for &(j, q) in request.extra_demand {
+            ws.demand[j] += q;
+        }
+        let mut heads = start.heads_m.clone();
+        let mut flows = start.flows_m3s.clone();
+        let mut states = start.states.clone();
+        heads[nj..].copy_from_slice(&self.source_grade[nj..]);
+        let mut switches = vec![0u8; nl];
+        let mut unsettled: Vec<usize> = Vec::new();
+        let mut isolated: Vec<usize> = Vec::new();
+        let mut dirty = true;
+        let mut need_factor = true;
+        let mut previous_step = f64::INFINITY;
+        let mut factorizations = 0u32;
+        let mut delta = vec![0.0; nj];
+
+        for iteration in 1..=MAX_ITERATIONS {
+            if dirty {
+                self.pin_junctions(ws, request, &mut states);
+                isolated = self.find_isolated(ws, &states)?;
+                for &j in &isolated {
+                    ws.pinned[j] = Some(heads[j]);
+                }
+                dirty = false;
+                need_factor = true;
+            }
+
+            // Link coefficients: conductance g and the known part of the flow change.
+            for i in 0..nl {
+                let l = &net.links[i];
+                let (g, known) = if l.from == l.to {
+                    (0.0, -flows[i])
+                } else {
+                    match states[i] {
+                        s if s.conducts() => {
+                            let (phi, slope) = self.laws[i].evaluate(flows[i]);
+                            let g = if need_factor {
+                                1.0 / slope
+                            } else {
+                                ws.g_factored[i]
+                            };
+                            let e = phi - (heads[l.from] - heads[l.to]);
+                            (g, -g * e)
+                        }
+                        LinkState::Regulating => match self.valve_kind(i) {
+                            Some(ValveKind::Fcv) => (0.0, self.settings[i] - flows[i]),
+                            _ => (0.0, 0.0),
+                        },
+                        _ => (0.0, -flows[i]),
+                    }
+                };
+                if need_factor {
+                    ws.g_factored[i] = g;
+                }
+                ws.known[i] = known;
+            }
+
+            // Right-hand side: continuity residual plus the known flow changes.
+            for j in 0..nj {
+                ws.rhs[j] = self.imbalance(j, &flows, &ws.demand);
+            }
+            if need_factor {
+                ws.values.iter_mut().for_each(|v| *v = 0.0);
+            }
+            for i in 0..nl {
+                let l = &net.links[i];
+                if l.from == l.to {
+                    continue;
+                }
+                let (a, b) = (l.from, l.to);
+                let g = ws.g_factored[i];
+                let k = ws.known[i];
+                let free_a = a < nj && ws.pinned[a].is_none();
+                let free_b = b < nj && ws.pinned[b].is_none();
+                let step_a = self.fixed_step(a, &ws.pinned, &heads);
+                let step_b = self.fixed_step(b, &ws.pinned, &heads);
+                if free_a {
+                    ws.rhs[a] -= k;
+                    if !free_b {
+                        ws.rhs[a] += g * step_b;
+                    }
+                    if need_factor {
+                        ws.values[self.pattern.diagonal_slot(a)] += g;
+                    }
+                }
+                if free_b {
+                    ws.rhs[b] += k;
+                    if !free_a {
+                        ws.rhs[b] += g * step_a;
+                    }
+                    if need_factor {
+                        ws.values[self.pattern.diagonal_slot(b)] += g;
+                    }
+                }
+                if need_factor && free_a && free_b {
+                    if let Some(s) = self.off_slot[i] {
+                        ws.values[s] -= g;
+                    }
+                }
+            }
+            for j in 0..nj {
+                if let Some(target) = ws.pinned[j] {
+                    ws.rhs[j] = target - heads[j];
+                    if need_factor {
+                        ws.values[self.pattern.diagonal_slot(j)] = 1.0;
+                    }
+                }
+            }
+            if need_factor {
+                ws.factor
+                    .refactor(&ws.values)
+                    .map_err(|_| self.singular_error(ws))?;
+                factorizations += 1;
+            }
+            delta.copy_from_slice(&ws.rhs);
+            ws.factor.solve_in_place(&mut delta);
+            if delta.iter().any(|d| !d.is_finite()) {
+                return Err(SolveError::Internal(
+                    "the linear solve produced a non-finite head".into(),
+                ));
+            }
+
+            // Update heads and flows.
+            let mut step_h = 0.0_f64;
+            for j in 0..nj {
+                heads[j] += delta[j];
+                if ws.pinned[j].is_none() {
+                    step_h = step_h.max(delta[j].abs());
+                }
+            }
+            let mut step_q = 0.0_f64;
+            for i in 0..nl {
+                let l = &net.links[i];
+                let g = ws.g_factored[i];
+                let da = if l.from < nj { delta[l.from] } else { 0.0 };
+                let db = if l.to < nj { delta[l.to] } else { 0.0 };
+                let dq = ws.known[i] + g * (da - db);
+                flows[i] += dq;
+                step_q = step_q.max(dq.abs());
+            }
+            // Regulating PRV/PSV: flow from continuity at the junction they hold.
+            for i in 0..nl {
+                if states[i] != LinkState::Regulating {
+                    continue;
+                }
+                let l = &net.links[i];
+                let held = match self.valve_kind(i) {
+                    Some(ValveKind::Prv) => l.to,
+                    Some(ValveKind::Psv) => l.from,
+                    _ => continue,
+                };
+                let old = flows[i];
+                let residual = self.imbalance(held, &flows, &ws.demand);
+                // At `to` the valve flow enters; at `from` it leaves.
+                flows[i] = if held == l.to {
+                    old - residual
+                } else {
+                    old + residual
+                };
+                step_q = step_q.max((flows[i] - old).abs());
+            }
+
+            let ratio = step_h / previous_step;
+            previous_step = step_h;
+            need_factor = step_h > CHORD_MAX_STEP_M || ratio > CHORD_MAX_RATIO;
+
+            if step_h < HEAD_TOL_M && step_q < FLOW_TOL_M3S {
+                // Converged for these states: apply the switching rules.
+                let mut changed = false;
+                for i in 0..nl {
+                    if self.roles[i] != Role::Controlled || self.is_held_by_request(i, request) {
+                        continue;
+                    }
+                    let l = &net.links[i];
+                    let view = LinkView {
+                        state: states[i],
+                        head_from: heads[l.from],
+                        head_to: heads[l.to],
+                        flow: flows[i],
+                        setting: self.settings[i],
+                        open_loss: open_valve_loss,
+                        shutoff_m: match &l.kind {
+                            LinkKind::Pump(p) => p.shutoff_at_speed_m(),
+                            _ => 0.0,
+                        },
+                    };
+                    let next = controls::next_state(l, &view);
+                    if next != states[i] {
+                        if switches[i] < MAX_SWITCHES {
+                            switches[i] += 1;
+                            states[i] = next;
+                            if !next.conducts() && next != LinkState::Regulating {
+                                flows[i] = 0.0;
+                            }
+                            changed = true;
+                        } else if !unsettled.contains(&i) {
+                            unsettled.push(i);
+                        }
+                    }
+                }
+                if !changed {
+                    let fixed_head_outflow_m3s = request
+                        .fixed_head
+                        .map(|(j, _)| self.imbalance(j, &flows, &ws.demand));
+                    return Ok(Solution {
+                        heads_m: heads,
+                        flows_m3s: flows,
+                        states,
+                        iterations: iteration,
+                        factorizations,
+                        fixed_head_outflow_m3s,
+                        isolated,
+                        unsettled,
+                    });
+                }
+                dirty = true;
+                previous_step = f64::INFINITY;
+            }
+        }
+        Err(self.no_convergence(&heads, &flows, &states, &delta))
+    }
+
+    fn valve_kind(&self, link: usize) -> Option<ValveKind> {
+        match &self.net.links[link].kind {
+            LinkKind::Valve(v) => Some(v.kind),
+            _ => None,
+        }
+    }
+
+    /// Head change of a fixed node in this step: 0 for sources, the pinning step otherwise.
+    fn fixed_step(&self, node: usize, pinned: &[Option<f64>], heads: &[f64]) -> f64 {
+        if node >= self.n_junctions {
+            return 0.0;
+        }
+        match pinned[node] {
+            Some(target) => target - heads[node],
+            None => 0.0,
+        }
+    }
+
+    /// Whether the request's fixed-head junction is the one this valve controls (the valve is
+    /// then held wide open: a junction drawn down to the floor has no use for its setting).
+    fn is_held_by_request(&self, link: usize, request: &SolveRequest<'_>) -> bool {
+        let Some((j, _)) = request.fixed_head else {
+            return false;
+        };
+        let l = &self.net.links[link];
+        match self.valve_kind(link) {
+            Some(ValveKind::Prv) => l.to == j,
+            Some(ValveKind::Psv) => l.from == j,
+            _ => false,
+        }
+    }
+
+    /// Sets the junctions whose head is fixed in the current states.
+    fn pin_junctions(
+        &self,
+        ws: &mut Workspace,
+        request: &SolveRequest<'_>,
+        states: &mut [LinkState],
+    ) {
+        ws.pinned.iter_mut().for_each(|p| *p = None);
+        for (i, l) in self.net.links.iter().enumerate() {
+            if states[i] != LinkState::Regulating {
+                continue;
+            }
+            if self.is_held_by_request(i, request) {
+                states[i] = LinkState::Open;
+                continue;
+            }
+            match self.valve_kind(i) {
+                Some(ValveKind::Prv) => ws.pinned[l.to] = Some(self.settings[i]),
+                Some(ValveKind::Psv) => ws.pinned[l.from] = Some(self.settings[i]),
+                _ => {}
+            }
+        }
+        if let Some((j, head)) = request.fixed_head {
+            ws.pinned[j] = Some(head);
+        }
+    }
+
+    /// Junctions that no conducting path joins to a fixed grade. An error if any of them has a
+    /// demand or a known inflow; otherwise they are returned (and held at their head).
+    fn find_isolated(
+        &self,
+        ws: &Workspace,
+        states: &[LinkState],
+    ) -> Result<Vec<usize>, SolveError> {
+        let nj = self.n_junctions;
+        let mut reached = vec![false; nj];
+        let mut stack: Vec<usize> = Vec::new();
+        for j in 0..nj {
+            if ws.pinned[j].is_some() {
+                reached[j] = true;
+                stack.push(j);
+            }
+        }
+        for s in nj..self.net.nodes.len() {
+            for &i in self.links_at(s) {
+                let l = &self.net.links[i];
+                let other = if l.from == s { l.to } else { l.from };
+                if other < nj && states[i].conducts() && !reached[other] {
+                    reached[other] = true;
+                    stack.push(other);
+                }
+            }
+        }
+        while let Some(n) = stack.pop() {
+            for &i in self.links_at(n) {
+                let l = &self.net.links[i];
+                let other = if l.from == n { l.to } else { l.from };
+                if other < nj && states[i].conducts() && !reached[other] {
+                    reached[other] = true;
+                    stack.push(other);
+                }
+            }
+        }
+        let cut: Vec<usize> = (0..nj).filter(|&j| !reached[j]).collect();
+        if cut.is_empty() {
+            return Ok(cut);
+        }
+        // A cut-off junction with a demand, or at the end of a regulating valve (which
+        // delivers or draws a flow), has no steady state in a demand-driven model.
+        let fed = |j: usize| {
+            ws.demand[j] != 0.0
+                || self
+                    .links_at(j)
+                    .iter()
+                    .any(|&i| states[i] == LinkState::Regulating)
+        };
+        let unsupplied: Vec<String> = cut
+            .iter()
+            .filter(|&&j| fed(j))
+            .map(|&j| self.net.nodes[j].id.clone())
+            .collect();
+        if !unsupplied.is_empty() {
+            let closed: Vec<String> = self
+                .net
+                .links
+                .iter()
+                .enumerate()
+                .filter(|(i, l)| {
+                    !states[*i].conducts()
+                        && (cut.binary_search(&l.from).is_ok() || cut.binary_search(&l.to).is_ok())
+                })
+                .map(|(_, l)| l.id.clone())
+                .take(10)
+                .collect();
+            return Err(SolveError::Unsupplied {
+                junctions: unsupplied,
+                closed_links: closed,
+            });
+        }
+        Ok(cut)
+    }
+
+    fn singular_error(&self, ws: &Workspace) -> SolveError {
+        // Name the junctions with the weakest connection to the rest.
+        let mut weakest: Vec<(f64, usize)> = (0..self.n_junctions)
+            .filter(|&j| ws.pinned[j].is_none())
+            .map(|j| (ws.values[self.pattern.diagonal_slot(j)], j))
+            .collect();
+        weakest.sort_by(|a, b| a.0.total_cmp(&b.0));
+        SolveError::Singular {
+            junctions: weakest
+                .iter()
+                .take(5)
+                .map(|&(_, j)| self.net.nodes[j].id.clone())
+                .collect(),
+        }
+    }
+
+    fn no_convergence(
+        &self,
+        heads: &[f64],
+        flows: &[f64],
+        states: &[LinkState],
+        delta: &[f64],
+    ) -> SolveError {
+        let mut by_step: Vec<(f64, usize)> = delta
+            .iter()
+            .enumerate()
+            .map(|(j, d)| (d.abs(), j))
+            .collect();
+        by_step.sort_by(|a, b| b.0.total_cmp(&a.0));
+        let mut by_residual: Vec<(f64, usize)> = self
+            .net
+            .links
+            .iter()
+            .enumerate()
+            .filter(|(i, _)| states[*i].conducts())
+            .map(|(i, l)| {
+                let e = self.laws[i].evaluate(flows[i]).0 - (heads[l.from] - heads[l.to]);
+                (e.abs(), i)
+            })
+            .collect();
+        by_residual.sort_by(|a, b| b.0.total_cmp(&a.0));
+        SolveError::NoConvergence {
+            iterations: MAX_ITERATIONS,
+            junctions: by_step
+                .iter()
+                .take(5)
+                .map(|&(d, j)| (self.net.nodes[j].id.clone(), d))
+                .collect(),
+            links: by_residual
+                .iter()
+                .take(5)
+                .map(|&(e, i)| (self.net.links[i].id.clone(), e))
+                .collect(),
+        }
+    }
+}
+
+/// Loss of a valve held wide open at flow q, m.
+fn open_valve_loss(link: &crate::model::Link, q: f64) -> f64 {
+    match &link.kind {
+        LinkKind::Valve(v) => {
+            super::headloss::minor_loss_coefficient(v.minor_loss, v.diameter_m) * q * q.abs()
+        }
+        _ => 0.0,
+    }
+}
+
+impl Solution {
+    /// Pressure at a node, kPa (0 at sources).
+    pub fn pressure_kpa(&self, net: &Network, node: usize) -> f64 {
+        crate::units::pressure_kpa_from_head_m(self.heads_m[node] - net.nodes[node].elevation_m)
+    }
+
+    /// Mean velocity in a pipe or valve, m/s (0 for pumps).
+    pub fn velocity_m_per_s(&self, net: &Network, link: usize) -> f64 {
+        match net.links[link].diameter_m() {
+            Some(d) => self.flows_m3s[link] / (std::f64::consts::PI * d * d / 4.0),
+            None => 0.0,
+        }
+    }
+
+    /// Head loss from → to (negative across a running pump: its head gain), m.
+    pub fn headloss_m(&self, net: &Network, link: usize) -> f64 {
+        let l = &net.links[link];
+        self.heads_m[l.from] - self.heads_m[l.to]
+    }
+}

@@ -1,0 +1,195 @@
+//! Input diagnostics: what is wrong, where (file, line, column), and how to fix it.
+//!
+//! Readers and validators never stop at the first problem: they push every finding into a
+//! [`Diagnostics`] list, errors apart from warnings, and the caller decides what to do.
+
+use std::fmt;
+
+use serde::Serialize;
+
+/// How bad a finding is.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Severity {
+    /// The input cannot be analysed until this is fixed.
+    Error,
+    /// Plausibility: the input can be analysed, but this looks wrong (common practice, no source).
+    Warning,
+    /// For information only (e.g. extra columns that were ignored).
+    Note,
+}
+
+impl fmt::Display for Severity {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            Severity::Error => "error",
+            Severity::Warning => "warning",
+            Severity::Note => "note",
+        })
+    }
+}
+
+/// Where a finding is: a file, and where known a line and a column (1-based; the column is the
+/// field number in a CSV row, or the character column in a TOML file).
+#[derive(Clone, Debug, PartialEq, Eq, Serialize)]
+pub struct Location {
+    pub file: String,
+    pub line: Option<u64>,
+    pub column: Option<u64>,
+}
+
+impl Location {
+    /// The whole file.
+    pub fn file(file: impl Into<String>) -> Self {
+        Location {
+            file: file.into(),
+            line: None,
+            column: None,
+        }
+    }
+
+    /// A line of a file.
+    pub fn line(file: impl Into<String>, line: u64) -> Self {
+        Location {
+            file: file.into(),
+            line: Some(line),
+            column: None,
+        }
+    }
+
+    /// A cell of a file.
+    pub fn cell(file: impl Into<String>, line: u64, column: u64) -> Self {
+        Location {
+            file: file.into(),
+            line: Some(line),
+            column: Some(column),
+        }
+    }
+}
+
+impl fmt::Display for Location {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}", self.file)?;
+        if let Some(line) = self.line {
+            write!(f, ":{line}")?;
+            if let Some(column) = self.column {
+                write!(f, ":{column}")?;
+            }
+        }
+        Ok(())
+    }
+}
+
+/// One finding about the input.
+#[derive(Clone, Debug, PartialEq, Eq, Serialize)]
+pub struct Diagnostic {
+    pub severity: Severity,
+    pub location: Location,
+    /// What is wrong, with the offending value and its unit where there is one.
+    pub message: String,
+    /// How to fix it, where that is not obvious from the message.
+    pub fix: Option<String>,
+}
+
+impl fmt::Display for Diagnostic {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}: {}: {}", self.location, self.severity, self.message)?;
+        if let Some(fix) = &self.fix {
+            write!(f, "; fix: {fix}")?;
+        }
+        Ok(())
+    }
+}
+
+/// Every finding of a load or a validation, in the order found.
+#[derive(Clone, Debug, Default, PartialEq, Eq, Serialize)]
+pub struct Diagnostics {
+    items: Vec<Diagnostic>,
+}
+
+impl Diagnostics {
+    pub fn new() -> Self {
+        Self::default()
+    }
+
+    pub fn push(
+        &mut self,
+        severity: Severity,
+        location: Location,
+        message: impl Into<String>,
+        fix: Option<String>,
+    ) {
+        self.items.push(Diagnostic {
+            severity,
+            location,
+            message: message.into(),
+            fix,
+        });
+    }
+
+    /// Records an error with a fix.
+    pub fn error(
+        &mut self,
+        location: Location,
+        message: impl Into<String>,
+        fix: impl Into<String>,
+    ) {
+        self.push(Severity::Error, location, message, Some(fix.into()));
+    }
+
+    /// Records a plausibility warning with a suggestion.
+    pub fn warning(
+        &mut self,
+        location: Location,
+        message: impl Into<String>,
+        fix: impl Into<String>,
+    ) {
+        self.push(Severity::Warning, location, message, Some(fix.into()));
+    }
+
+    /// Records a note.
+    pub fn note(&mut self, location: Location, message: impl Into<String>) {
+        self.push(Severity::Note, location, message, None);
+    }
+
+    pub fn extend(&mut self, other: Diagnostics) {
+        self.items.extend(other.items);
+    }
+
+    pub fn iter(&self) -> impl Iterator<Item = &Diagnostic> {
+        self.items.iter()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.items.is_empty()
+    }
+
+    pub fn len(&self) -> usize {
+        self.items.len()
+    }
+
+    pub fn count(&self, severity: Severity) -> usize {
+        self.items.iter().filter(|d| d.severity == severity).count()
+    }
+
+    pub fn has_errors(&self) -> bool {
+        self.items.iter().any(|d| d.severity == Severity::Error)
+    }
+
+    /// The findings sorted for display: errors first, then warnings, then notes, each in the
+    /// order found (which follows file and line order).
+    pub fn sorted(&self) -> Vec<&Diagnostic> {
+        let mut out: Vec<&Diagnostic> = self.items.iter().collect();
+        out.sort_by_key(|d| d.severity);
+        out
+    }
+}
+
+impl fmt::Display for Diagnostics {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        for d in self.sorted() {
+            writeln!(f, "{d}")?;
+        }
+        Ok(())
+    }
+}

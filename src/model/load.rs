@@ -1,0 +1,991 @@
+//! Reading a network folder: `model.toml` and the CSV files, converted to SI once, here.
+//!
+//! Every problem is collected with its file, line and column; the network is built only when
+//! there is no error. See docs/network-format.md for the format.
+
+use std::collections::{BTreeSet, HashMap};
+use std::path::Path;
+
+use serde::Deserialize;
+
+use super::diagnostic::{Diagnostics, Location};
+use super::network::{
+    DemandFactors, HeadlossFormula, Hydrant, Link, LinkKind, Network, Node, NodeKind, Pipe,
+    PipeStatus, Pump, Valve, ValveKind, ValveStatus,
+};
+use super::table::{read_table, Cell, Row, Table, TableSpec};
+use super::toml_input::read_toml;
+use crate::units::{Quantity, UnitSystem};
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct ModelFile {
+    name: String,
+    units: UnitSystem,
+    headloss: HeadlossName,
+    demand: DemandTable,
+}
+
+#[derive(Deserialize, Clone, Copy)]
+#[serde(rename_all = "kebab-case")]
+enum HeadlossName {
+    HazenWilliams,
+    DarcyWeisbach,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct DemandTable {
+    max_day_factor: f64,
+    peak_hour_factor: f64,
+    min_hour_factor: Option<f64>,
+}
+
+const JUNCTIONS: TableSpec<'static> = TableSpec {
+    known: &["id", "elevation", "demand", "zone", "x", "y"],
+    required: &["id", "elevation"],
+};
+const SOURCES: TableSpec<'static> = TableSpec {
+    known: &["id", "kind", "grade", "x", "y"],
+    required: &["id", "kind", "grade"],
+};
+const PIPES: TableSpec<'static> = TableSpec {
+    known: &[
+        "id",
+        "from",
+        "to",
+        "length",
+        "diameter",
+        "roughness",
+        "minor_loss",
+        "status",
+        "material",
+    ],
+    required: &["id", "from", "to", "length", "diameter", "roughness"],
+};
+const HYDRANTS: TableSpec<'static> = TableSpec {
+    known: &["id", "junction", "required_flow", "class", "x", "y"],
+    required: &["id", "junction"],
+};
+const PUMPS: TableSpec<'static> = TableSpec {
+    known: &[
+        "id",
+        "from",
+        "to",
+        "shutoff_head",
+        "design_flow",
+        "design_head",
+        "runout_flow",
+        "runout_head",
+        "speed",
+        "status",
+    ],
+    required: &[
+        "id",
+        "from",
+        "to",
+        "shutoff_head",
+        "design_flow",
+        "design_head",
+        "runout_flow",
+        "runout_head",
+    ],
+};
+const VALVES: TableSpec<'static> = TableSpec {
+    known: &[
+        "id",
+        "from",
+        "to",
+        "kind",
+        "diameter",
+        "setting",
+        "minor_loss",
+        "status",
+    ],
+    required: &["id", "from", "to", "kind", "diameter"],
+};
+
+/// A network read without errors, with its warnings and notes.
+#[derive(Debug)]
+pub struct Loaded {
+    pub network: Network,
+    pub diagnostics: Diagnostics,
+}
+
+/// Reads the network folder `dir`. On error, every finding (errors, warnings, notes) is returned.
+pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
+    let mut diags = Diagnostics::new();
+    if !dir.is_dir() {
+        diags.error(
+            Location::file(dir.display().to_string()),
+            "is not a folder",
+            "give the path of a network folder holding model.toml, junctions.csv, sources.csv and pipes.csv",
+        );
+        return Err(diags);
+    }
+    let model: Option<ModelFile> = read_toml(
+        &dir.join("model.toml"),
+        "model.toml",
+        "see docs/network-format.md for the keys of model.toml",
+        &mut diags,
+    );
+    let Some(model) = model else {
+        return Err(diags);
+    };
+    let mut reader = Reader {
+        units: model.units,
+        headloss: match model.headloss {
+            HeadlossName::HazenWilliams => HeadlossFormula::HazenWilliams,
+            HeadlossName::DarcyWeisbach => HeadlossFormula::DarcyWeisbach,
+        },
+        diags,
+        nodes: Vec::new(),
+        node_lines: HashMap::new(),
+        zones: BTreeSet::new(),
+        links: Vec::new(),
+        link_lines: HashMap::new(),
+    };
+    let demand_factors = reader.demand_factors(&model.demand);
+
+    let table = |name: &str, spec: &TableSpec<'_>, reader: &mut Reader| {
+        read_table(&dir.join(name), name, spec, &mut reader.diags)
+    };
+    let junctions = table("junctions.csv", &JUNCTIONS, &mut reader);
+    let sources = table("sources.csv", &SOURCES, &mut reader);
+    if let Some(t) = &junctions {
+        reader.junctions(t);
+    }
+    let n_junctions = reader.nodes.len();
+    if let Some(t) = &sources {
+        reader.sources(t);
+    }
+    if let Some(t) = table("pipes.csv", &PIPES, &mut reader) {
+        reader.pipes(&t);
+    }
+    if dir.join("pumps.csv").exists() {
+        if let Some(t) = table("pumps.csv", &PUMPS, &mut reader) {
+            reader.pumps(&t);
+        }
+    }
+    if dir.join("valves.csv").exists() {
+        if let Some(t) = table("valves.csv", &VALVES, &mut reader) {
+            reader.valves(&t, n_junctions);
+        }
+    }
+    let hydrants = if dir.join("hydrants.csv").exists() {
+        match table("hydrants.csv", &HYDRANTS, &mut reader) {
+            Some(t) => reader.hydrants(&t, n_junctions),
+            None => Vec::new(),
+        }
+    } else {
+        Vec::new()
+    };
+
+    let Reader {
+        mut diags,
+        nodes,
+        zones,
+        links,
+        ..
+    } = reader;
+    if diags.has_errors() {
+        return Err(diags);
+    }
+    let zones: Vec<String> = zones.into_iter().collect();
+    let network = Network::new(
+        model.name,
+        model.units,
+        match model.headloss {
+            HeadlossName::HazenWilliams => HeadlossFormula::HazenWilliams,
+            HeadlossName::DarcyWeisbach => HeadlossFormula::DarcyWeisbach,
+        },
+        demand_factors,
+        assign_zones(nodes, &zones),
+        n_junctions,
+        links,
+        hydrants,
+        zones,
+    );
+    super::validate::check_network(&network, &mut diags);
+    if diags.has_errors() {
+        return Err(diags);
+    }
+    Ok(Loaded {
+        network,
+        diagnostics: diags,
+    })
+}
+
+/// Nodes are read with their zone name in a side table; here the names become indices.
+fn assign_zones(nodes: Vec<(Node, Option<String>)>, zones: &[String]) -> Vec<Node> {
+    nodes
+        .into_iter()
+        .map(|(mut node, zone)| {
+            node.zone = zone.and_then(|z| zones.binary_search(&z).ok());
+            node
+        })
+        .collect()
+}
+
+struct Reader {
+    units: UnitSystem,
+    headloss: HeadlossFormula,
+    diags: Diagnostics,
+    nodes: Vec<(Node, Option<String>)>,
+    node_lines: HashMap<String, (String, u64, usize)>,
+    zones: BTreeSet<String>,
+    links: Vec<Link>,
+    link_lines: HashMap<String, (String, u64)>,
+}
+
+impl Reader {
+    fn demand_factors(&mut self, d: &DemandTable) -> DemandFactors {
+        let loc = Location::file("model.toml");
+        let check = |name: &str, v: f64, diags: &mut Diagnostics| {
+            if !(v.is_finite() && v > 0.0) {
+                diags.error(
+                    loc.clone(),
+                    format!("[demand] {name} must be a positive number, got {v}"),
+                    "give the ratio of the condition's demand to average-day demand (e.g. 1.5)",
+                );
+            }
+        };
+        check("max_day_factor", d.max_day_factor, &mut self.diags);
+        check("peak_hour_factor", d.peak_hour_factor, &mut self.diags);
+        if let Some(m) = d.min_hour_factor {
+            check("min_hour_factor", m, &mut self.diags);
+        }
+        if d.max_day_factor < 1.0 || d.peak_hour_factor < d.max_day_factor {
+            self.diags.warning(
+                loc,
+                format!(
+                    "unusual demand factors: max-day {} and peak-hour {} (usually 1 <= max-day <= peak-hour)",
+                    d.max_day_factor, d.peak_hour_factor
+                ),
+                "check [demand] in model.toml; typical values are max-day 1.5-2.0 and peak-hour 2.0-4.0 \
+                 (common practice, no source)",
+            );
+        }
+        DemandFactors {
+            max_day: d.max_day_factor,
+            peak_hour: d.peak_hour_factor,
+            min_hour: d.min_hour_factor,
+        }
+    }
+
+    fn cells<'t>(&mut self, table: &'t Table, row: &'t Row) -> Cells<'t, '_> {
+        Cells {
+            table,
+            row,
+            units: self.units,
+            diags: &mut self.diags,
+        }
+    }
+
+    /// Registers a node id; an error when it is already used.
+    fn claim_node_id(&mut self, id: &Cell<'_>, file: &str, index: usize) -> bool {
+        if let Some((other_file, other_line, _)) = self.node_lines.get(id.text) {
+            self.diags.error(
+                id.location(file),
+                format!(
+                    "node id `{}` is used twice (also at {other_file}:{other_line})",
+                    id.text
+                ),
+                "give every junction and source its own id",
+            );
+            return false;
+        }
+        self.node_lines
+            .insert(id.text.to_string(), (file.to_string(), id.line, index));
+        true
+    }
+
+    fn claim_link_id(&mut self, id: &Cell<'_>, file: &str) -> bool {
+        if let Some((other_file, other_line)) = self.link_lines.get(id.text) {
+            self.diags.error(
+                id.location(file),
+                format!(
+                    "link id `{}` is used twice (also at {other_file}:{other_line})",
+                    id.text
+                ),
+                "give every pipe, pump and valve its own id",
+            );
+            return false;
+        }
+        self.link_lines
+            .insert(id.text.to_string(), (file.to_string(), id.line));
+        true
+    }
+
+    fn node_ref(&mut self, cell: &Cell<'_>, file: &str, what: &str) -> Option<usize> {
+        match self.node_lines.get(cell.text) {
+            Some(&(_, _, index)) => Some(index),
+            None => {
+                self.diags.error(
+                    cell.location(file),
+                    format!("{what} `{}` is not a junction or source id", cell.text),
+                    "use the id of a node in junctions.csv or sources.csv (ids are compared exactly)",
+                );
+                None
+            }
+        }
+    }
+
+    fn junctions(&mut self, t: &Table) {
+        let file = t.file.as_str();
+        if t.rows().is_empty() {
+            self.diags.error(
+                Location::file(file),
+                "there are no junctions",
+                "list the network's junctions, one per row",
+            );
+        }
+        for row in t.rows() {
+            let mut c = self.cells(t, row);
+            let id = c.id("id");
+            let elevation = c.required_number("elevation", Quantity::Length);
+            let demand = c.number("demand", Quantity::Flow).unwrap_or(0.0);
+            let zone = c.text("zone").map(str::to_string);
+            let position = c.position();
+            let (Some(id), Some(elevation)) = (id, elevation) else {
+                continue;
+            };
+            let index = self.nodes.len();
+            if !self.claim_node_id(&id, file, index) {
+                continue;
+            }
+            if let Some(z) = &zone {
+                self.zones.insert(z.clone());
+            }
+            self.nodes.push((
+                Node {
+                    id: id.text.to_string(),
+                    kind: NodeKind::Junction,
+                    elevation_m: elevation,
+                    base_demand_m3s: demand,
+                    grade_m: None,
+                    zone: None,
+                    position,
+                    line: row.line,
+                },
+                zone,
+            ));
+        }
+    }
+
+    fn sources(&mut self, t: &Table) {
+        let file = t.file.as_str();
+        if t.rows().is_empty() {
+            self.diags.error(
+                Location::file(file),
+                "there is no source: the network needs at least one reservoir or tank",
+                "add a row with id, kind (reservoir or tank) and grade",
+            );
+        }
+        for row in t.rows() {
+            let mut c = self.cells(t, row);
+            let id = c.id("id");
+            let kind = c.choice(
+                "kind",
+                &[("reservoir", NodeKind::Reservoir), ("tank", NodeKind::Tank)],
+                None,
+            );
+            let grade = c.required_number("grade", Quantity::Length);
+            let position = c.position();
+            let (Some(id), Some(kind), Some(grade)) = (id, kind, grade) else {
+                continue;
+            };
+            let index = self.nodes.len();
+            if !self.claim_node_id(&id, file, index) {
+                continue;
+            }
+            self.nodes.push((
+                Node {
+                    id: id.text.to_string(),
+                    kind,
+                    elevation_m: grade,
+                    base_demand_m3s: 0.0,
+                    grade_m: Some(grade),
+                    zone: None,
+                    position,
+                    line: row.line,
+                },
+                None,
+            ));
+        }
+    }
+
+    /// Reads `from` and `to`; `None` if either is unknown.
+    fn ends(&mut self, t: &Table, row: &Row) -> Option<(usize, usize)> {
+        let file = t.file.as_str();
+        let from_cell = t.cell(row, "from");
+        let to_cell = t.cell(row, "to");
+        let mut ok = true;
+        for cell in [&from_cell, &to_cell] {
+            if cell.is_empty() {
+                self.diags.error(
+                    cell.location(file),
+                    format!("`{}` is empty", cell.column_name),
+                    "name the node at this end of the element",
+                );
+                ok = false;
+            }
+        }
+        if !ok {
+            return None;
+        }
+        let from = self.node_ref(&from_cell, file, "from node");
+        let to = self.node_ref(&to_cell, file, "to node");
+        Some((from?, to?))
+    }
+
+    fn pipes(&mut self, t: &Table) {
+        let file = t.file.as_str();
+        if t.rows().is_empty() {
+            self.diags.error(
+                Location::file(file),
+                "there are no pipes",
+                "list the network's pipes, one per row",
+            );
+        }
+        let headloss = self.headloss;
+        for row in t.rows() {
+            let ends = self.ends(t, row);
+            let mut c = self.cells(t, row);
+            let id = c.id("id");
+            let length = c.required_number("length", Quantity::Length);
+            let diameter = c.required_number("diameter", Quantity::Diameter);
+            let roughness = match headloss {
+                HeadlossFormula::HazenWilliams => c.required_plain("roughness"),
+                HeadlossFormula::DarcyWeisbach => {
+                    c.required_number("roughness", Quantity::Diameter)
+                }
+            };
+            let minor_loss = c.plain("minor_loss").unwrap_or(0.0);
+            let status = c.choice(
+                "status",
+                &[
+                    ("open", PipeStatus::Open),
+                    ("closed", PipeStatus::Closed),
+                    ("check", PipeStatus::Check),
+                ],
+                Some(PipeStatus::Open),
+            );
+            let material = c.text("material").map(str::to_string);
+            let length = c.non_negative(length, "length", "give the pipe's length along its route");
+            let diameter = c.positive(diameter, "diameter", "give the inside diameter");
+            let roughness = c.positive(
+                roughness,
+                "roughness",
+                match headloss {
+                    HeadlossFormula::HazenWilliams => {
+                        "give the Hazen-Williams C factor (e.g. 130 for new ductile iron)"
+                    }
+                    HeadlossFormula::DarcyWeisbach => {
+                        "give the absolute roughness in the diameter unit (e.g. 0.0015 mm for plastic)"
+                    }
+                },
+            );
+            let minor_loss = c.non_negative(
+                Some(minor_loss),
+                "minor_loss",
+                "give the summed loss coefficient K (0 or more)",
+            );
+            let (Some(id), Some((from, to)), Some(length), Some(diameter), Some(roughness)) =
+                (id, ends, length, diameter, roughness)
+            else {
+                continue;
+            };
+            let (Some(minor_loss), Some(status)) = (minor_loss, status) else {
+                continue;
+            };
+            if !self.claim_link_id(&id, file) {
+                continue;
+            }
+            self.links.push(Link {
+                id: id.text.to_string(),
+                from,
+                to,
+                kind: LinkKind::Pipe(Pipe {
+                    length_m: length,
+                    diameter_m: diameter,
+                    roughness,
+                    minor_loss,
+                    status,
+                    material,
+                }),
+                line: row.line,
+            });
+        }
+    }
+
+    fn pumps(&mut self, t: &Table) {
+        let file = t.file.as_str();
+        for row in t.rows() {
+            let ends = self.ends(t, row);
+            let mut c = self.cells(t, row);
+            let id = c.id("id");
+            let shutoff = c.required_number("shutoff_head", Quantity::Length);
+            let design_q = c.required_number("design_flow", Quantity::Flow);
+            let design_h = c.required_number("design_head", Quantity::Length);
+            let runout_q = c.required_number("runout_flow", Quantity::Flow);
+            let runout_h = c.required_number("runout_head", Quantity::Length);
+            let speed = c.plain("speed").unwrap_or(1.0);
+            let speed = c.positive(
+                Some(speed),
+                "speed",
+                "give the relative speed (1.0 = rated)",
+            );
+            let on = c.choice("status", &[("on", true), ("off", false)], Some(true));
+            let (Some(id), Some((from, to)), Some(a), Some(q1), Some(h1), Some(q2), Some(h2)) =
+                (id, ends, shutoff, design_q, design_h, runout_q, runout_h)
+            else {
+                continue;
+            };
+            let (Some(speed), Some(on)) = (speed, on) else {
+                continue;
+            };
+            let loc = Location::line(file, row.line);
+            if from == to {
+                self.diags.error(
+                    loc.clone(),
+                    format!("pump `{}` has the same node at both ends", id.text),
+                    "connect the pump's suction (from) and discharge (to) to different nodes",
+                );
+                continue;
+            }
+            let Some((b, c_exp)) = pump_curve(a, q1, h1, q2, h2) else {
+                let u = self.units;
+                self.diags.error(
+                    loc,
+                    format!(
+                        "pump `{}`: the curve points are not usable: shutoff {:.2} {l}, design ({:.2} {f}, {:.2} {l}), runout ({:.2} {f}, {:.2} {l})",
+                        id.text,
+                        u.from_si(Quantity::Length, a),
+                        u.from_si(Quantity::Flow, q1),
+                        u.from_si(Quantity::Length, h1),
+                        u.from_si(Quantity::Flow, q2),
+                        u.from_si(Quantity::Length, h2),
+                        l = u.symbol(Quantity::Length),
+                        f = u.symbol(Quantity::Flow),
+                    ),
+                    "give 0 < design_flow < runout_flow and shutoff_head > design_head > runout_head >= 0",
+                );
+                continue;
+            };
+            if !self.claim_link_id(&id, file) {
+                continue;
+            }
+            self.links.push(Link {
+                id: id.text.to_string(),
+                from,
+                to,
+                kind: LinkKind::Pump(Pump {
+                    shutoff_head_m: a,
+                    coefficient_b: b,
+                    exponent_c: c_exp,
+                    speed,
+                    on,
+                    design_point: (q1, h1),
+                    runout_point: (q2, h2),
+                }),
+                line: row.line,
+            });
+        }
+    }
+
+    fn valves(&mut self, t: &Table, n_junctions: usize) {
+        let file = t.file.as_str();
+        let mut controlled: HashMap<usize, String> = HashMap::new();
+        for row in t.rows() {
+            let ends = self.ends(t, row);
+            let mut c = self.cells(t, row);
+            let id = c.id("id");
+            let kind = c.choice(
+                "kind",
+                &[
+                    ("prv", ValveKind::Prv),
+                    ("psv", ValveKind::Psv),
+                    ("fcv", ValveKind::Fcv),
+                    ("throttle", ValveKind::Throttle),
+                ],
+                None,
+            );
+            let status = c.choice(
+                "status",
+                &[
+                    ("active", ValveStatus::Active),
+                    ("open", ValveStatus::Open),
+                    ("closed", ValveStatus::Closed),
+                ],
+                Some(ValveStatus::Active),
+            );
+            let diameter = c.required_number("diameter", Quantity::Diameter);
+            let diameter = c.positive(diameter, "diameter", "give the valve's inside diameter");
+            let minor_loss = c.plain("minor_loss").unwrap_or(0.0);
+            let minor_loss = c.non_negative(
+                Some(minor_loss),
+                "minor_loss",
+                "give the loss coefficient K of the wide-open valve (0 or more)",
+            );
+            let (Some(id), Some(kind), Some(status), Some((from, to)), Some(diameter)) =
+                (id, kind, status, ends, diameter)
+            else {
+                continue;
+            };
+            let Some(minor_loss) = minor_loss else {
+                continue;
+            };
+            let setting_quantity = match kind {
+                ValveKind::Prv | ValveKind::Psv => Some(Quantity::Pressure),
+                ValveKind::Fcv => Some(Quantity::Flow),
+                ValveKind::Throttle => None,
+            };
+            let setting = match (setting_quantity, status) {
+                (_, ValveStatus::Active) => match setting_quantity {
+                    Some(q) => c.required_number("setting", q),
+                    None => c.required_plain("setting"),
+                },
+                (Some(q), _) => c.number("setting", q),
+                (None, _) => c.plain("setting"),
+            };
+            let setting = c.non_negative(
+                setting.or(Some(0.0)),
+                "setting",
+                "give a setting of 0 or more",
+            );
+            let Some(setting) = setting else {
+                continue;
+            };
+            let loc = Location::line(file, row.line);
+            if from == to {
+                self.diags.error(
+                    loc,
+                    format!("valve `{}` has the same node at both ends", id.text),
+                    "connect the valve's from and to ends to different nodes",
+                );
+                continue;
+            }
+            if status == ValveStatus::Active {
+                let side = match kind {
+                    ValveKind::Prv => Some((to, "downstream (to)")),
+                    ValveKind::Psv => Some((from, "upstream (from)")),
+                    _ => None,
+                };
+                if let Some((node, side_name)) = side {
+                    if node >= n_junctions {
+                        self.diags.error(
+                            loc.clone(),
+                            format!(
+                                "{} `{}`: its controlled {side_name} side is a fixed-grade source, so the setting decides nothing",
+                                kind.name(),
+                                id.text
+                            ),
+                            "connect the valve to a junction on its controlled side, or make it a throttle or an open valve",
+                        );
+                        continue;
+                    }
+                    if let Some(other) = controlled.get(&node) {
+                        self.diags.error(
+                            loc.clone(),
+                            format!(
+                                "{} `{}` and valve `{other}` both control the pressure at the same junction; their split of the flow is undefined",
+                                kind.name(),
+                                id.text
+                            ),
+                            "keep one regulating valve per controlled junction (e.g. model parallel PRVs as one valve, or set one to closed)",
+                        );
+                        continue;
+                    }
+                    controlled.insert(node, id.text.to_string());
+                }
+            }
+            if !self.claim_link_id(&id, file) {
+                continue;
+            }
+            self.links.push(Link {
+                id: id.text.to_string(),
+                from,
+                to,
+                kind: LinkKind::Valve(Valve {
+                    kind,
+                    diameter_m: diameter,
+                    setting,
+                    minor_loss,
+                    status,
+                }),
+                line: row.line,
+            });
+        }
+    }
+
+    fn hydrants(&mut self, t: &Table, n_junctions: usize) -> Vec<Hydrant> {
+        let file = t.file.as_str();
+        let mut seen: HashMap<String, u64> = HashMap::new();
+        let mut out = Vec::new();
+        for row in t.rows() {
+            let junction_cell = t.cell(row, "junction");
+            let mut c = self.cells(t, row);
+            let id = c.id("id");
+            let required = c.number("required_flow", Quantity::Flow);
+            let required = match required {
+                Some(q) => c.positive(
+                    Some(q),
+                    "required_flow",
+                    "give the required fire flow, or leave the cell empty to use the criteria",
+                ),
+                None => None,
+            };
+            let class = c.text("class").map(str::to_string);
+            let position = c.position();
+            let junction = if junction_cell.is_empty() {
+                self.diags.error(
+                    junction_cell.location(file),
+                    "`junction` is empty",
+                    "name the junction the hydrant connects to",
+                );
+                None
+            } else {
+                match self.node_lines.get(junction_cell.text) {
+                    Some(&(_, _, index)) if index < n_junctions => Some(index),
+                    Some(_) => {
+                        self.diags.error(
+                            junction_cell.location(file),
+                            format!(
+                                "hydrant junction `{}` is a source, not a junction",
+                                junction_cell.text
+                            ),
+                            "connect the hydrant to the junction of its lateral",
+                        );
+                        None
+                    }
+                    None => {
+                        self.diags.error(
+                            junction_cell.location(file),
+                            format!(
+                                "hydrant junction `{}` is not a junction id",
+                                junction_cell.text
+                            ),
+                            "use the id of a junction in junctions.csv (ids are compared exactly)",
+                        );
+                        None
+                    }
+                }
+            };
+            let Some(id) = id else { continue };
+            if let Some(other) = seen.get(id.text) {
+                self.diags.error(
+                    id.location(file),
+                    format!(
+                        "hydrant id `{}` is used twice (also at line {other})",
+                        id.text
+                    ),
+                    "give every hydrant its own id",
+                );
+                continue;
+            }
+            seen.insert(id.text.to_string(), row.line);
+            let Some(junction) = junction else { continue };
+            if t.has_column("required_flow")
+                && !t.cell(row, "required_flow").is_empty()
+                && required.is_none()
+            {
+                continue;
+            }
+            out.push(Hydrant {
+                id: id.text.to_string(),
+                junction,
+                required_flow_m3s: required,
+                class,
+                position,
+                line: row.line,
+            });
+        }
+        out
+    }
+}
+
+/// Fits head = a − b·q^c through the shutoff head `a` and two points (q1, h1), (q2, h2).
+/// Returns (b, c), or `None` unless 0 < q1 < q2 and a > h1 > h2 >= 0.
+pub fn pump_curve(a: f64, q1: f64, h1: f64, q2: f64, h2: f64) -> Option<(f64, f64)> {
+    if !(q1 > 0.0 && q2 > q1 && a > h1 && h1 > h2 && h2 >= 0.0) {
+        return None;
+    }
+    let c = ((a - h2) / (a - h1)).ln() / (q2 / q1).ln();
+    let b = (a - h1) / q1.powf(c);
+    (c.is_finite() && c > 0.0 && b.is_finite() && b > 0.0).then_some((b, c))
+}
+
+/// The cells of one row, with unit conversion and diagnostics.
+struct Cells<'a, 'd> {
+    table: &'a Table,
+    row: &'a Row,
+    units: UnitSystem,
+    diags: &'d mut Diagnostics,
+}
+
+impl<'a> Cells<'a, '_> {
+    fn file(&self) -> &str {
+        &self.table.file
+    }
+
+    fn cell(&self, name: &'a str) -> Cell<'a> {
+        self.table.cell(self.row, name)
+    }
+
+    fn text(&self, name: &'a str) -> Option<&'a str> {
+        let cell = self.cell(name);
+        (!cell.is_empty()).then_some(cell.text)
+    }
+
+    fn id(&mut self, name: &'a str) -> Option<Cell<'a>> {
+        let cell = self.cell(name);
+        if cell.is_empty() {
+            let loc = cell.location(self.file());
+            self.diags
+                .error(loc, "the id is empty", "give every element an id");
+            return None;
+        }
+        Some(cell)
+    }
+
+    /// A number without unit conversion; `None` when empty or not a number (an error then).
+    fn plain(&mut self, name: &'a str) -> Option<f64> {
+        let cell = self.cell(name);
+        if cell.is_empty() {
+            return None;
+        }
+        match cell.text.parse::<f64>() {
+            Ok(v) if v.is_finite() => Some(v),
+            _ => {
+                let loc = cell.location(self.file());
+                self.diags.error(
+                    loc,
+                    format!("`{}` is not a finite number (column `{name}`)", cell.text),
+                    "write a plain decimal number such as 12.5 or 1.25e1",
+                );
+                None
+            }
+        }
+    }
+
+    fn required_plain(&mut self, name: &'a str) -> Option<f64> {
+        let cell = self.cell(name);
+        if cell.is_empty() {
+            let loc = cell.location(self.file());
+            self.diags.error(
+                loc,
+                format!("`{name}` is empty"),
+                format!("give a value for `{name}`"),
+            );
+            return None;
+        }
+        self.plain(name)
+    }
+
+    /// A number in the file's unit of `q`, converted to SI.
+    fn number(&mut self, name: &'a str, q: Quantity) -> Option<f64> {
+        self.plain(name).map(|v| self.units.to_si(q, v))
+    }
+
+    fn required_number(&mut self, name: &'a str, q: Quantity) -> Option<f64> {
+        self.required_plain(name).map(|v| self.units.to_si(q, v))
+    }
+
+    fn check(
+        &mut self,
+        value: Option<f64>,
+        name: &'a str,
+        fix: &str,
+        ok: fn(f64) -> bool,
+        rule: &str,
+    ) -> Option<f64> {
+        let v = value?;
+        if ok(v) {
+            return Some(v);
+        }
+        let cell = self.cell(name);
+        let loc = cell.location(self.file());
+        self.diags.error(
+            loc,
+            format!("`{name}` must be {rule}, got {}", cell.text),
+            fix,
+        );
+        None
+    }
+
+    fn positive(&mut self, value: Option<f64>, name: &'a str, fix: &str) -> Option<f64> {
+        self.check(value, name, fix, |v| v > 0.0, "positive")
+    }
+
+    fn non_negative(&mut self, value: Option<f64>, name: &'a str, fix: &str) -> Option<f64> {
+        self.check(value, name, fix, |v| v >= 0.0, "zero or more")
+    }
+
+    /// One of a fixed set of words, compared without case; `default` when empty.
+    fn choice<T: Copy>(
+        &mut self,
+        name: &'a str,
+        options: &[(&str, T)],
+        default: Option<T>,
+    ) -> Option<T> {
+        let cell = self.cell(name);
+        if cell.is_empty() {
+            if default.is_none() {
+                let loc = cell.location(self.file());
+                let words: Vec<&str> = options.iter().map(|(w, _)| *w).collect();
+                self.diags.error(
+                    loc,
+                    format!("`{name}` is empty"),
+                    format!("write one of: {}", words.join(", ")),
+                );
+            }
+            return default;
+        }
+        let lower = cell.text.to_ascii_lowercase();
+        if let Some((_, v)) = options.iter().find(|(w, _)| *w == lower) {
+            return Some(*v);
+        }
+        let loc = cell.location(self.file());
+        let words: Vec<&str> = options.iter().map(|(w, _)| *w).collect();
+        self.diags.error(
+            loc,
+            format!("unknown {name} `{}`", cell.text),
+            format!("write one of: {}", words.join(", ")),
+        );
+        None
+    }
+
+    /// Optional map coordinates; both or neither.
+    fn position(&mut self) -> Option<[f64; 2]> {
+        let x = self.plain("x");
+        let y = self.plain("y");
+        match (x, y) {
+            (Some(x), Some(y)) => Some([x, y]),
+            (None, None) => None,
+            _ => {
+                let loc = Location::line(self.file(), self.row.line);
+                self.diags.warning(
+                    loc,
+                    "only one of the coordinates x, y is given; the position is ignored",
+                    "give both x and y, or neither",
+                );
+                None
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn pump_curve_through_three_points() {
+        // a = 100, points (1, 75) and (2, 0): c = ln(100/25)/ln 2 = 2, b = 25.
+        let (b, c) = pump_curve(100.0, 1.0, 75.0, 2.0, 0.0).expect("curve");
+        assert!((c - 2.0).abs() < 1e-12 && (b - 25.0).abs() < 1e-12);
+        assert!(pump_curve(100.0, 2.0, 75.0, 1.0, 50.0).is_none());
+        assert!(pump_curve(100.0, 1.0, 75.0, 2.0, 80.0).is_none());
+    }
+}

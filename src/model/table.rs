@@ -1,0 +1,367 @@
+//! Reading one CSV file of a network into text cells that remember their line and column.
+//!
+//! The rules (ours, see docs/network-format.md): a header row is required; columns come in any
+//! order and their names are compared without regard to case or surrounding spaces; lines that
+//! start with `#` are comments; an empty cell means "use the default"; unknown columns are
+//! ignored and listed once in a note; UTF-8 with or without a byte-order mark; CRLF or LF;
+//! quoted fields.
+
+use std::collections::HashMap;
+use std::path::Path;
+
+use super::diagnostic::{Diagnostics, Location};
+
+/// Largest input file firemain reads. A 300,000-junction network's pipes file is about 30 MB;
+/// anything past this is almost certainly the wrong file, and reading it would exhaust memory.
+pub const MAX_INPUT_BYTES: u64 = 1 << 30;
+
+/// What a reader expects of a file's columns.
+pub struct TableSpec<'a> {
+    /// Every column the reader uses.
+    pub known: &'a [&'a str],
+    /// The columns that must be present.
+    pub required: &'a [&'a str],
+}
+
+/// A CSV file read into text cells.
+#[derive(Debug)]
+pub struct Table {
+    /// The file name as shown in diagnostics (e.g. `pipes.csv`).
+    pub file: String,
+    columns: HashMap<String, usize>,
+    rows: Vec<Row>,
+}
+
+/// One data row: its line in the file and its trimmed fields.
+#[derive(Debug)]
+pub struct Row {
+    pub line: u64,
+    fields: Vec<String>,
+}
+
+/// One cell, with its location for diagnostics.
+#[derive(Debug, Clone, Copy)]
+pub struct Cell<'a> {
+    pub text: &'a str,
+    pub line: u64,
+    /// 1-based field number; 0 when the column is absent from the file.
+    pub column: u64,
+    pub column_name: &'a str,
+}
+
+impl Cell<'_> {
+    pub fn location(&self, file: &str) -> Location {
+        if self.column == 0 {
+            Location::line(file, self.line)
+        } else {
+            Location::cell(file, self.line, self.column)
+        }
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.text.is_empty()
+    }
+}
+
+impl Table {
+    pub fn rows(&self) -> &[Row] {
+        &self.rows
+    }
+
+    pub fn has_column(&self, name: &str) -> bool {
+        self.columns.contains_key(name)
+    }
+
+    /// The cell of `row` in column `name`; an absent column reads as an empty cell.
+    pub fn cell<'a>(&'a self, row: &'a Row, name: &'a str) -> Cell<'a> {
+        match self.columns.get(name) {
+            Some(&i) => Cell {
+                text: row.fields.get(i).map(String::as_str).unwrap_or(""),
+                line: row.line,
+                column: i as u64 + 1,
+                column_name: name,
+            },
+            None => Cell {
+                text: "",
+                line: row.line,
+                column: 0,
+                column_name: name,
+            },
+        }
+    }
+}
+
+/// Reads `path` (shown as `file` in diagnostics). Problems go to `diags`; `None` when the file
+/// could not be read as a table at all.
+pub fn read_table(
+    path: &Path,
+    file: &str,
+    spec: &TableSpec<'_>,
+    diags: &mut Diagnostics,
+) -> Option<Table> {
+    let bytes = match read_bounded(path) {
+        Ok(bytes) => bytes,
+        Err(message) => {
+            diags.error(
+                Location::file(file),
+                message,
+                "check the path and that the file is a readable CSV file",
+            );
+            return None;
+        }
+    };
+    parse_table(&bytes, file, spec, diags)
+}
+
+fn read_bounded(path: &Path) -> Result<Vec<u8>, String> {
+    let meta = std::fs::metadata(path).map_err(|e| format!("cannot read the file: {e}"))?;
+    if !meta.is_file() {
+        return Err("is not a regular file".into());
+    }
+    if meta.len() > MAX_INPUT_BYTES {
+        return Err(format!(
+            "the file is {} bytes, more than the {} bytes firemain reads",
+            meta.len(),
+            MAX_INPUT_BYTES
+        ));
+    }
+    std::fs::read(path).map_err(|e| format!("cannot read the file: {e}"))
+}
+
+/// Parses CSV bytes; separate from [`read_table`] so that tests can feed bytes directly.
+pub fn parse_table(
+    bytes: &[u8],
+    file: &str,
+    spec: &TableSpec<'_>,
+    diags: &mut Diagnostics,
+) -> Option<Table> {
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .comment(Some(b'#'))
+        .flexible(true)
+        .trim(csv::Trim::All)
+        .from_reader(bytes);
+
+    let lines = LineIndex::new(bytes);
+    let mut header: Option<(u64, Vec<String>)> = None;
+    let mut rows = Vec::new();
+    let mut record = csv::ByteRecord::new();
+    loop {
+        match reader.read_byte_record(&mut record) {
+            Ok(false) => break,
+            Ok(true) => {}
+            Err(e) => {
+                let line = e.position().map(|p| lines.line_of(p.byte())).unwrap_or(0);
+                diags.error(
+                    Location::line(file, line),
+                    format!("not readable as CSV: {}", csv_error_text(&e)),
+                    "check quotes on this line: a quoted field must end with a closing quote",
+                );
+                return None;
+            }
+        }
+        let line = record
+            .position()
+            .map(|p| lines.line_of(p.byte()))
+            .unwrap_or(0);
+        let mut fields = Vec::with_capacity(record.len());
+        let mut utf8_ok = true;
+        for (i, raw) in record.iter().enumerate() {
+            match std::str::from_utf8(raw) {
+                Ok(text) => fields.push(text.to_string()),
+                Err(_) => {
+                    diags.error(
+                        Location::cell(file, line, i as u64 + 1),
+                        "the text is not valid UTF-8",
+                        "save the file with UTF-8 encoding",
+                    );
+                    utf8_ok = false;
+                    fields.push(String::new());
+                }
+            }
+        }
+        if fields.iter().all(String::is_empty) {
+            continue; // blank line
+        }
+        match &header {
+            None => header = Some((line, fields)),
+            Some((_, names)) => {
+                let extra_filled = fields.iter().skip(names.len()).any(|f| !f.is_empty());
+                if fields.len() < names.len() || extra_filled {
+                    diags.error(
+                        Location::line(file, line),
+                        format!(
+                            "this row has {} fields but the header has {}",
+                            fields.len(),
+                            names.len()
+                        ),
+                        "give every row one field per header column (an empty field means the default); \
+                         quote fields that contain commas",
+                    );
+                    continue;
+                }
+                if utf8_ok {
+                    rows.push(Row { line, fields });
+                }
+            }
+        }
+    }
+
+    let Some((header_line, names)) = header else {
+        diags.error(
+            Location::file(file),
+            "the file is empty",
+            format!(
+                "start the file with a header row naming its columns, at least: {}",
+                spec.required.join(", ")
+            ),
+        );
+        return None;
+    };
+
+    let mut columns = HashMap::new();
+    let mut unknown = Vec::new();
+    let mut ok = true;
+    for (i, raw) in names.iter().enumerate() {
+        let name = raw.trim().to_ascii_lowercase();
+        if columns.contains_key(&name) {
+            diags.error(
+                Location::cell(file, header_line, i as u64 + 1),
+                format!("column `{name}` appears twice in the header"),
+                "remove or rename one of the two columns",
+            );
+            ok = false;
+            continue;
+        }
+        if !spec.known.contains(&name.as_str()) {
+            unknown.push(raw.clone());
+        }
+        columns.insert(name, i);
+    }
+    for required in spec.required {
+        if !columns.contains_key(*required) {
+            diags.error(
+                Location::line(file, header_line),
+                format!("required column `{required}` is missing"),
+                format!(
+                    "add a `{required}` column to the header (columns: {})",
+                    spec.known.join(", ")
+                ),
+            );
+            ok = false;
+        }
+    }
+    if !unknown.is_empty() {
+        diags.note(
+            Location::line(file, header_line),
+            format!("ignored columns: {}", unknown.join(", ")),
+        );
+    }
+    if !ok {
+        return None;
+    }
+    Some(Table {
+        file: file.to_string(),
+        columns,
+        rows,
+    })
+}
+
+/// Line numbers from byte offsets. The csv reader's position of a record is where it started
+/// reading, which is before any comment or blank lines that precede the record, so firemain
+/// skips those itself and counts lines from the byte offset.
+struct LineIndex<'a> {
+    bytes: &'a [u8],
+    newlines: Vec<u64>,
+}
+
+impl<'a> LineIndex<'a> {
+    fn new(bytes: &'a [u8]) -> Self {
+        let newlines = bytes
+            .iter()
+            .enumerate()
+            .filter(|(_, &b)| b == b'\n')
+            .map(|(i, _)| i as u64)
+            .collect();
+        LineIndex { bytes, newlines }
+    }
+
+    /// 1-based line of the first record that starts at or after byte `offset`.
+    fn line_of(&self, offset: u64) -> u64 {
+        let mut line = self.newlines.partition_point(|&n| n < offset);
+        let mut start = offset as usize;
+        loop {
+            let rest = &self.bytes[start.min(self.bytes.len())..];
+            let skip = matches!(rest.first(), Some(b'#') | Some(b'\r') | Some(b'\n'));
+            if !skip || line >= self.newlines.len() {
+                break;
+            }
+            start = self.newlines[line] as usize + 1;
+            line += 1;
+        }
+        line as u64 + 1
+    }
+}
+
+fn csv_error_text(e: &csv::Error) -> String {
+    match e.kind() {
+        csv::ErrorKind::Io(io) => io.to_string(),
+        _ => e.to_string(),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const SPEC: TableSpec<'static> = TableSpec {
+        known: &["id", "elevation", "demand"],
+        required: &["id", "elevation"],
+    };
+
+    fn parse(text: &[u8]) -> (Option<Table>, Diagnostics) {
+        let mut d = Diagnostics::new();
+        let t = parse_table(text, "junctions.csv", &SPEC, &mut d);
+        (t, d)
+    }
+
+    #[test]
+    fn reads_bom_crlf_comments_quotes_any_order_and_notes_extra_columns() {
+        let text = b"\xEF\xBB\xBF# exported\r\nElevation, ID ,demand,Owner\r\n# c\r\n10,\"J, 1\",,x\r\n\r\n12.5e0,J2,3,y\r\n";
+        let (t, d) = parse(text);
+        let t = t.expect("table");
+        assert_eq!(t.rows().len(), 2);
+        let r = &t.rows()[0];
+        assert_eq!(t.cell(r, "id").text, "J, 1");
+        assert_eq!(t.cell(r, "demand").text, "");
+        assert_eq!(t.cell(r, "id").line, 4);
+        assert_eq!(t.cell(r, "id").column, 2);
+        assert_eq!(t.cell(&t.rows()[1], "elevation").text, "12.5e0");
+        assert!(!d.has_errors());
+        assert_eq!(d.len(), 1, "one note for the extra column: {d}");
+    }
+
+    #[test]
+    fn empty_and_header_only() {
+        let (t, d) = parse(b"");
+        assert!(t.is_none());
+        assert!(d.to_string().contains("empty"), "{d}");
+        let (t, d) = parse(b"id,elevation\n");
+        assert_eq!(t.expect("table").rows().len(), 0);
+        assert!(!d.has_errors());
+    }
+
+    #[test]
+    fn missing_required_column_and_ragged_row_and_bad_utf8() {
+        let (t, d) = parse(b"id,demand\nJ1,2\n");
+        assert!(t.is_none());
+        assert!(d.to_string().contains("`elevation` is missing"), "{d}");
+        let (_, d) = parse(b"id,elevation\nJ1,2,3\n");
+        assert!(d.to_string().contains("junctions.csv:2"), "{d}");
+        let (_, d) = parse(b"id,elevation\nJ\xff1,2\n");
+        assert!(d.to_string().contains("junctions.csv:2:1"), "{d}");
+        let (_, d) = parse(b"id,elevation\n\"J1,2\n");
+        assert!(d.has_errors(), "{d}");
+    }
+}

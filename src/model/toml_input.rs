@@ -1,0 +1,99 @@
+//! Reading a small TOML file (network `model.toml`, criteria files) with diagnostics that name
+//! the file, line and column of the problem.
+
+use std::path::Path;
+
+use serde::de::DeserializeOwned;
+
+use super::diagnostic::{Diagnostics, Location};
+
+/// Largest TOML file read; these files are a few lines long.
+const MAX_TOML_BYTES: u64 = 1 << 20;
+
+/// Reads and deserializes `path` (shown as `file`); problems go to `diags`.
+pub fn read_toml<T: DeserializeOwned>(
+    path: &Path,
+    file: &str,
+    fix: &str,
+    diags: &mut Diagnostics,
+) -> Option<T> {
+    let text = match read_text(path) {
+        Ok(text) => text,
+        Err(message) => {
+            diags.error(Location::file(file), message, fix);
+            return None;
+        }
+    };
+    parse_toml(&text, file, fix, diags)
+}
+
+fn read_text(path: &Path) -> Result<String, String> {
+    let meta = std::fs::metadata(path).map_err(|e| format!("cannot read the file: {e}"))?;
+    if meta.len() > MAX_TOML_BYTES {
+        return Err(format!(
+            "the file is {} bytes; a settings file this large is not what firemain expects",
+            meta.len()
+        ));
+    }
+    let bytes = std::fs::read(path).map_err(|e| format!("cannot read the file: {e}"))?;
+    let bytes = bytes
+        .strip_prefix(b"\xEF\xBB\xBF")
+        .unwrap_or(&bytes)
+        .to_vec();
+    String::from_utf8(bytes).map_err(|_| "the text is not valid UTF-8".to_string())
+}
+
+/// Deserializes TOML text; separate from [`read_toml`] so tests can feed text directly.
+pub fn parse_toml<T: DeserializeOwned>(
+    text: &str,
+    file: &str,
+    fix: &str,
+    diags: &mut Diagnostics,
+) -> Option<T> {
+    match toml::from_str::<T>(text) {
+        Ok(value) => Some(value),
+        Err(e) => {
+            let location = match e.span() {
+                Some(span) => {
+                    let (line, column) = line_and_column(text, span.start);
+                    Location::cell(file, line, column)
+                }
+                None => Location::file(file),
+            };
+            diags.error(location, e.message().trim().to_string(), fix);
+            None
+        }
+    }
+}
+
+/// 1-based line and character column of byte offset `offset` in `text`.
+pub fn line_and_column(text: &str, offset: usize) -> (u64, u64) {
+    let offset = offset.min(text.len());
+    let before = &text[..floor_char_boundary(text, offset)];
+    let line = before.matches('\n').count() as u64 + 1;
+    let column = before
+        .rsplit('\n')
+        .next()
+        .map(|l| l.chars().count())
+        .unwrap_or(0) as u64
+        + 1;
+    (line, column)
+}
+
+fn floor_char_boundary(text: &str, mut offset: usize) -> usize {
+    while offset > 0 && !text.is_char_boundary(offset) {
+        offset -= 1;
+    }
+    offset
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn line_and_column_are_one_based() {
+        assert_eq!(line_and_column("ab\ncd", 0), (1, 1));
+        assert_eq!(line_and_column("ab\ncd", 4), (2, 2));
+    }
+}

@@ -1,0 +1,173 @@
+//! Physical constants and unit conversions: the one place where firemain's numbers are named.
+//!
+//! Everything inside firemain is SI (m, m³/s, kPa, m/s). Input files are converted once when they
+//! are read (`model`), and results once when they are written (`report`), with the functions here.
+//! Anyone can reproduce a firemain result from the formulas in `hydraulics` and these constants.
+
+use serde::{Deserialize, Serialize};
+
+/// Standard gravity, m/s² (CGPM 1901; exact by definition).
+pub const GRAVITY_M_PER_S2: f64 = 9.80665;
+
+/// Unit weight of water in kPa per metre of head: ρ g with ρ = 1000 kg/m³ and standard gravity.
+/// Gives 0.43353 psi/ft, the trade's "2.31 ft per psi".
+pub const KPA_PER_M_OF_HEAD: f64 = 9.80665;
+
+/// Kinematic viscosity of water at about 20 °C, m²/s (International Critical Tables give 1.004e-6
+/// at 20 °C; 1.0e-6 is the usual rounded design value).
+pub const WATER_KINEMATIC_VISCOSITY_M2_PER_S: f64 = 1.0e-6;
+
+/// 1 ft = 0.3048 m (exact, international foot).
+pub const M_PER_FT: f64 = 0.3048;
+/// 1 in = 25.4 mm (exact).
+pub const MM_PER_IN: f64 = 25.4;
+/// 1 US gallon = 3.785411784 L (exact, 231 in³).
+pub const L_PER_US_GAL: f64 = 3.785411784;
+/// 1 psi = 6.894757 kPa (NFPA 24 Annex D conversion; 6.894757293 to more digits).
+pub const KPA_PER_PSI: f64 = 6.894757;
+
+/// m³/s per US gallon per minute.
+pub const M3S_PER_GPM: f64 = L_PER_US_GAL / 1000.0 / 60.0;
+
+/// The unit system of a network or criteria file: every number in its files uses it.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum UnitSystem {
+    /// ft, in, gpm, psi, ft/s.
+    Us,
+    /// m, mm, L/s, kPa, m/s.
+    Si,
+}
+
+/// A kind of physical quantity that crosses the edge of the program.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Quantity {
+    /// Lengths, elevations, grades and heads: ft | m.
+    Length,
+    /// Pipe and valve diameters, and Darcy-Weisbach roughness: in | mm.
+    Diameter,
+    /// Flows and demands: gpm | L/s.
+    Flow,
+    /// Pressures: psi | kPa.
+    Pressure,
+    /// Velocities: ft/s | m/s.
+    Velocity,
+}
+
+impl UnitSystem {
+    /// Factor that turns a value in this system's unit of `q` into SI (m, m, m³/s, kPa, m/s).
+    fn si_factor(self, q: Quantity) -> f64 {
+        match (self, q) {
+            (UnitSystem::Us, Quantity::Length) => M_PER_FT,
+            (UnitSystem::Us, Quantity::Diameter) => MM_PER_IN / 1000.0,
+            (UnitSystem::Us, Quantity::Flow) => M3S_PER_GPM,
+            (UnitSystem::Us, Quantity::Pressure) => KPA_PER_PSI,
+            (UnitSystem::Us, Quantity::Velocity) => M_PER_FT,
+            (UnitSystem::Si, Quantity::Length) => 1.0,
+            (UnitSystem::Si, Quantity::Diameter) => 1.0e-3,
+            (UnitSystem::Si, Quantity::Flow) => 1.0e-3,
+            (UnitSystem::Si, Quantity::Pressure) => 1.0,
+            (UnitSystem::Si, Quantity::Velocity) => 1.0,
+        }
+    }
+
+    /// Converts a value given in this system's unit of `q` to SI.
+    pub fn to_si(self, q: Quantity, value: f64) -> f64 {
+        value * self.si_factor(q)
+    }
+
+    /// Converts an SI value to this system's unit of `q`.
+    pub fn from_si(self, q: Quantity, value_si: f64) -> f64 {
+        value_si / self.si_factor(q)
+    }
+
+    /// The unit as people write it: `ft`, `in`, `gpm`, `psi`, `ft/s` | `m`, `mm`, `L/s`, `kPa`, `m/s`.
+    pub fn symbol(self, q: Quantity) -> &'static str {
+        match (self, q) {
+            (UnitSystem::Us, Quantity::Length) => "ft",
+            (UnitSystem::Us, Quantity::Diameter) => "in",
+            (UnitSystem::Us, Quantity::Flow) => "gpm",
+            (UnitSystem::Us, Quantity::Pressure) => "psi",
+            (UnitSystem::Us, Quantity::Velocity) => "ft/s",
+            (UnitSystem::Si, Quantity::Length) => "m",
+            (UnitSystem::Si, Quantity::Diameter) => "mm",
+            (UnitSystem::Si, Quantity::Flow) => "L/s",
+            (UnitSystem::Si, Quantity::Pressure) => "kPa",
+            (UnitSystem::Si, Quantity::Velocity) => "m/s",
+        }
+    }
+
+    /// The unit as a column-name suffix: `ft`, `in`, `gpm`, `psi`, `fps` | `m`, `mm`, `lps`, `kpa`, `mps`.
+    pub fn suffix(self, q: Quantity) -> &'static str {
+        match (self, q) {
+            (UnitSystem::Us, Quantity::Velocity) => "fps",
+            (UnitSystem::Si, Quantity::Flow) => "lps",
+            (UnitSystem::Si, Quantity::Pressure) => "kpa",
+            (UnitSystem::Si, Quantity::Velocity) => "mps",
+            _ => self.symbol(q),
+        }
+    }
+
+    /// `"us"` or `"si"`, as written in the files.
+    pub fn name(self) -> &'static str {
+        match self {
+            UnitSystem::Us => "us",
+            UnitSystem::Si => "si",
+        }
+    }
+}
+
+/// Pressure in kPa from a head above the point, in metres of water.
+pub fn pressure_kpa_from_head_m(head_m: f64) -> f64 {
+    head_m * KPA_PER_M_OF_HEAD
+}
+
+/// Head in metres of water from a pressure in kPa.
+pub fn head_m_from_pressure_kpa(pressure_kpa: f64) -> f64 {
+    pressure_kpa / KPA_PER_M_OF_HEAD
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn trade_rule_of_2_31_ft_per_psi() {
+        // 2.31 ft of water per psi; 0.433 psi per ft (fire-flow trade rule of thumb, common practice,
+        // no source; the exact value at 1000 kg/m³ and standard gravity is 2.3067 ft/psi).
+        let ft_per_psi = head_m_from_pressure_kpa(KPA_PER_PSI) / M_PER_FT;
+        assert_relative_eq!(ft_per_psi, 2.3067, max_relative = 1e-4);
+        let psi_per_ft = pressure_kpa_from_head_m(M_PER_FT) / KPA_PER_PSI;
+        assert_relative_eq!(psi_per_ft, 0.43353, max_relative = 1e-4);
+    }
+
+    #[test]
+    fn flow_conversions_match_published_factors() {
+        // 1 L/s = 15.8503 gpm; 1 cfs = 448.831 gpm (NIST SP 811, Appendix B, from the exact
+        // definitions of the US gallon and the foot).
+        let gpm_per_lps = 1.0e-3 / M3S_PER_GPM;
+        assert_relative_eq!(gpm_per_lps, 15.8503, max_relative = 1e-5);
+        let gpm_per_cfs = M_PER_FT.powi(3) / M3S_PER_GPM;
+        assert_relative_eq!(gpm_per_cfs, 448.831, max_relative = 1e-5);
+    }
+
+    #[test]
+    fn round_trip_every_quantity() {
+        let all = [
+            Quantity::Length,
+            Quantity::Diameter,
+            Quantity::Flow,
+            Quantity::Pressure,
+            Quantity::Velocity,
+        ];
+        for units in [UnitSystem::Us, UnitSystem::Si] {
+            for q in all {
+                let v = 123.456;
+                assert_relative_eq!(units.from_si(q, units.to_si(q, v)), v, max_relative = 1e-14);
+            }
+        }
+        assert_eq!(UnitSystem::Si.suffix(Quantity::Flow), "lps");
+        assert_eq!(UnitSystem::Us.suffix(Quantity::Velocity), "fps");
+    }
+}

@@ -1,0 +1,58 @@
+//! Helpers shared by the integration tests: loading test networks and reading fixtures.
+#![allow(dead_code)]
+
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+
+use firemain::model::{load_network, Network};
+
+/// Path of a file or folder under `tests/`.
+pub fn test_path(relative: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests")
+        .join(relative)
+}
+
+/// Loads a network under `tests/data/`, panicking with the diagnostics on error.
+pub fn load(name: &str) -> Network {
+    match load_network(&test_path(&format!("data/{name}"))) {
+        Ok(loaded) => loaded.network,
+        Err(d) => panic!("{name} did not load:\n{d}"),
+    }
+}
+
+/// Reads a `kind,id,value` fixture (lines starting with `#` skipped) into a map.
+pub fn read_kind_id_value(relative: &str) -> HashMap<(String, String), String> {
+    let text = std::fs::read_to_string(test_path(relative)).expect("fixture");
+    let mut out = HashMap::new();
+    for line in text.lines().filter(|l| !l.starts_with('#')).skip(1) {
+        let mut parts = line.splitn(3, ',');
+        let (Some(k), Some(id), Some(v)) = (parts.next(), parts.next(), parts.next()) else {
+            continue;
+        };
+        out.insert((k.to_string(), id.to_string()), v.to_string());
+    }
+    out
+}
+
+/// Reads a CSV fixture with a header (lines starting with `#` skipped) into rows of named cells.
+pub fn read_rows(relative: &str) -> Vec<HashMap<String, String>> {
+    let text = std::fs::read_to_string(test_path(relative)).expect("fixture");
+    let mut lines = text.lines().filter(|l| !l.starts_with('#'));
+    let header: Vec<String> = lines
+        .next()
+        .expect("header")
+        .split(',')
+        .map(str::to_string)
+        .collect();
+    lines
+        .filter(|l| !l.is_empty())
+        .map(|l| {
+            header
+                .iter()
+                .cloned()
+                .zip(l.split(',').map(str::to_string))
+                .collect()
+        })
+        .collect()
+}

@@ -1,0 +1,70 @@
+//! The steady-state solver against independent solutions computed outside firemain.
+
+mod common;
+
+use common::{load, read_kind_id_value};
+use firemain::hydraulics::{Hydraulics, SolveRequest};
+
+fn compare_loop_grid(network: &str, fixture: &str) {
+    // Reference: tests/reference/loop_grid/solve_loop_grid.py — the node-head formulation
+    // solved with scipy.optimize.root (scipy 1.17.1; Darcy friction from fluids 1.3.1
+    // Colebrook), a different formulation from firemain's gradient algorithm.
+    let net = load(network);
+    let expected = read_kind_id_value(fixture);
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let mut ws = hydraulics.workspace();
+    let request = SolveRequest {
+        demand_factor: 1.0,
+        extra_demand: &[],
+        fixed_head: None,
+    };
+    let sol = hydraulics
+        .solve(&mut ws, &request, &hydraulics.cold_start())
+        .expect("solve");
+    let mut checked = 0;
+    for (j, node) in net.junctions().iter().enumerate() {
+        let head: f64 = expected[&("head_m".to_string(), node.id.clone())]
+            .parse()
+            .unwrap();
+        assert!(
+            (sol.heads_m[j] - head).abs() < 1e-6,
+            "{}: head {} vs {}",
+            node.id,
+            sol.heads_m[j],
+            head
+        );
+        let p: f64 = expected[&("pressure_kpa".to_string(), node.id.clone())]
+            .parse()
+            .unwrap();
+        assert!((sol.pressure_kpa(&net, j) - p).abs() < 1e-5);
+        checked += 2;
+    }
+    for (i, link) in net.links.iter().enumerate() {
+        let q: f64 = expected[&("flow_m3s".to_string(), link.id.clone())]
+            .parse()
+            .unwrap();
+        assert!(
+            (sol.flows_m3s[i] - q).abs() < 1e-8,
+            "{}: flow {} vs {}",
+            link.id,
+            sol.flows_m3s[i],
+            q
+        );
+        checked += 1;
+    }
+    assert!(checked > 100);
+    eprintln!(
+        "{network}: {} iterations, {} factorizations",
+        sol.iterations, sol.factorizations
+    );
+}
+
+#[test]
+fn loop_grid_hazen_williams_matches_node_head_reference() {
+    compare_loop_grid("loop_grid", "reference/loop_grid/expected_hw.csv");
+}
+
+#[test]
+fn loop_grid_darcy_weisbach_matches_node_head_reference() {
+    compare_loop_grid("loop_grid_dw", "reference/loop_grid/expected_dw.csv");
+}
