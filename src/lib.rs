@@ -6,4 +6,19 @@
 
 pub mod hydraulics;
 pub mod model;
+pub mod report;
+pub mod steady;
 pub mod units;
+
+/// The process exit status of every command, documented in `--help` and the README.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum ExitStatus {
+    /// The command ran and found nothing to report (every hydrant passes; the network is valid).
+    Success = 0,
+    /// The command ran and has findings (some hydrant or junction fails its criteria).
+    Findings = 1,
+    /// The input (command line, network or criteria files) has errors; nothing was analysed.
+    InputError = 2,
+    /// The analysis itself failed (no hydraulic solution, or an output file could not be written).
+    AnalysisError = 3,
+}

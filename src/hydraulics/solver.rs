@@ -14,6 +14,9 @@
 //! acts as a known withdrawal at the other end in the next step. A regulating FCV carries its
 //! set flow. Closed elements carry nothing. States switch by the rules of [`super::controls`].
 
+// Index loops over several parallel arrays read more clearly than zipped iterators here.
+#![allow(clippy::needless_range_loop)]
+
 use std::sync::Arc;
 
 use super::controls::{self, LinkState, LinkView, MAX_SWITCHES};

@@ -1,0 +1,216 @@
+//! Reports: pure renderers (data in, bytes out) and the one place that writes files.
+//!
+//! Values arrive in SI and leave in the network's units, always with the unit in the column
+//! name or header. Files are written whole or not at all: each is written to a temporary file
+//! in the output folder and renamed over its final name.
+
+pub mod solve;
+pub mod validate;
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use thiserror::Error;
+
+use crate::units::{Quantity, UnitSystem};
+
+#[derive(Debug, Error)]
+pub enum ReportError {
+    #[error("cannot create output folder {path}: {source}")]
+    CreateDir {
+        path: PathBuf,
+        source: std::io::Error,
+    },
+    #[error("cannot write {path}: {source}")]
+    Write {
+        path: PathBuf,
+        source: std::io::Error,
+    },
+    #[error("the output folder {0} is the network folder; choose another folder so that no input file can be overwritten")]
+    OutputIsInput(PathBuf),
+    #[error("cannot render {what}: {message}")]
+    Render { what: String, message: String },
+}
+
+/// A rendered output file.
+pub struct OutputFile {
+    pub name: String,
+    pub bytes: Vec<u8>,
+}
+
+/// Writes every file into `dir` (created if missing), each atomically.
+pub fn write_outputs(
+    dir: &Path,
+    input_dir: &Path,
+    files: &[OutputFile],
+) -> Result<Vec<PathBuf>, ReportError> {
+    std::fs::create_dir_all(dir).map_err(|source| ReportError::CreateDir {
+        path: dir.to_path_buf(),
+        source,
+    })?;
+    if let (Ok(a), Ok(b)) = (dir.canonicalize(), input_dir.canonicalize()) {
+        if a == b {
+            return Err(ReportError::OutputIsInput(dir.to_path_buf()));
+        }
+    }
+    let mut written = Vec::new();
+    for f in files {
+        let path = dir.join(&f.name);
+        write_atomically(&path, &f.bytes)?;
+        written.push(path);
+    }
+    Ok(written)
+}
+
+/// Writes `bytes` to a temporary file beside `path`, syncs it, and renames it into place.
+pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), ReportError> {
+    let err = |source| ReportError::Write {
+        path: path.to_path_buf(),
+        source,
+    };
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let tmp = path.with_file_name(format!(".{name}.{}.tmp", std::process::id()));
+    let result = (|| {
+        let mut f = std::fs::File::create(&tmp)?;
+        f.write_all(bytes)?;
+        f.sync_all()?;
+        std::fs::rename(&tmp, path)
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_file(&tmp);
+    }
+    result.map_err(err)
+}
+
+/// A number with fixed decimals; empty for a non-finite value (which the analyses never
+/// produce, but no report may ever print NaN).
+pub fn num(value: f64, decimals: usize) -> String {
+    if value.is_finite() {
+        let s = format!("{value:.decimals$}");
+        // Avoid "-0.00".
+        if s.trim_start_matches('-')
+            .chars()
+            .all(|c| c == '0' || c == '.')
+        {
+            s.trim_start_matches('-').to_string()
+        } else {
+            s
+        }
+    } else {
+        String::new()
+    }
+}
+
+/// Conversions and labels for output in a network's units.
+#[derive(Clone, Copy, Debug)]
+pub struct Out {
+    pub units: UnitSystem,
+}
+
+impl Out {
+    pub fn new(units: UnitSystem) -> Self {
+        Out { units }
+    }
+
+    pub fn length(&self, m: f64) -> f64 {
+        self.units.from_si(Quantity::Length, m)
+    }
+    pub fn diameter(&self, m: f64) -> f64 {
+        self.units.from_si(Quantity::Diameter, m)
+    }
+    pub fn flow(&self, m3s: f64) -> f64 {
+        self.units.from_si(Quantity::Flow, m3s)
+    }
+    pub fn pressure(&self, kpa: f64) -> f64 {
+        self.units.from_si(Quantity::Pressure, kpa)
+    }
+    pub fn velocity(&self, mps: f64) -> f64 {
+        self.units.from_si(Quantity::Velocity, mps)
+    }
+
+    /// Column-name suffix of a quantity: `gpm`, `psi`, `ft` ...
+    pub fn sfx(&self, q: Quantity) -> &'static str {
+        self.units.suffix(q)
+    }
+    /// Unit symbol of a quantity: `gpm`, `psi`, `L/s` ...
+    pub fn sym(&self, q: Quantity) -> &'static str {
+        self.units.symbol(q)
+    }
+
+    /// Decimals that suit a quantity in these units.
+    pub fn decimals(&self, q: Quantity) -> usize {
+        match (self.units, q) {
+            (_, Quantity::Length) => 2,
+            (UnitSystem::Us, Quantity::Diameter) => 2,
+            (UnitSystem::Si, Quantity::Diameter) => 1,
+            (UnitSystem::Us, Quantity::Flow) => 1,
+            (UnitSystem::Si, Quantity::Flow) => 2,
+            (UnitSystem::Us, Quantity::Pressure) => 1,
+            (UnitSystem::Si, Quantity::Pressure) => 0,
+            (_, Quantity::Velocity) => 2,
+        }
+    }
+
+    /// An SI value formatted in these units.
+    pub fn fmt(&self, q: Quantity, si: f64) -> String {
+        num(self.units.from_si(q, si), self.decimals(q))
+    }
+
+    /// An SI value formatted in these units with extra precision (CSV files).
+    pub fn fmt_precise(&self, q: Quantity, si: f64) -> String {
+        num(self.units.from_si(q, si), self.decimals(q) + 2)
+    }
+}
+
+/// Renders rows as CSV bytes.
+pub fn csv_bytes(header: &[String], rows: &[Vec<String>]) -> Result<Vec<u8>, ReportError> {
+    let render = || -> Result<Vec<u8>, csv::Error> {
+        let mut w = csv::Writer::from_writer(Vec::new());
+        w.write_record(header)?;
+        for r in rows {
+            w.write_record(r)?;
+        }
+        w.into_inner().map_err(|e| e.into_error().into())
+    };
+    render().map_err(|e| ReportError::Render {
+        what: "CSV".into(),
+        message: e.to_string(),
+    })
+}
+
+/// The plain-words cautions every report carries.
+pub const CAUTIONS: &[&str] = &[
+    "These results are screening estimates from a steady-state, demand-driven model. They are only as good as the model's data and calibration (pipe sizes, roughness, valve positions, elevations, source levels, demands).",
+    "Confirm them with field hydrant flow tests before relying on them.",
+    "Drawing fire flow lowers pressures elsewhere in the system and risks backflow and contamination where pressures fall low.",
+    "The local fire code official and a licensed professional engineer decide what is required and whether it is met; this report is a screening aid, not an approval.",
+];
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_never_print_nan_or_negative_zero() {
+        assert_eq!(num(f64::NAN, 2), "");
+        assert_eq!(num(f64::INFINITY, 2), "");
+        assert_eq!(num(-0.0001, 2), "0.00");
+        assert_eq!(num(-1.234, 1), "-1.2");
+    }
+
+    #[test]
+    fn atomic_write_leaves_no_temporary_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("x.csv");
+        write_atomically(&path, b"a,b\n").unwrap();
+        let names: Vec<_> = std::fs::read_dir(dir.path())
+            .unwrap()
+            .map(|e| e.unwrap().file_name())
+            .collect();
+        assert_eq!(names.len(), 1);
+        assert_eq!(std::fs::read(&path).unwrap(), b"a,b\n");
+    }
+}

@@ -1,0 +1,218 @@
+//! Reports of one steady state (`firemain solve`): a terminal summary and result CSV files.
+
+use tabled::builder::Builder;
+use tabled::settings::Style;
+
+use super::{csv_bytes, num, Out, OutputFile, ReportError};
+use crate::steady::SteadyReport;
+use crate::units::{Quantity, UnitSystem};
+
+/// The terminal summary: totals, extreme pressures and velocities.
+pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
+    let o = Out::new(units);
+    let mut s = String::new();
+    let f = o.sym(Quantity::Flow);
+    s.push_str(&format!("Network:    {}\n", report.network));
+    s.push_str(&format!(
+        "Condition:  {} demand (x{} average day)\n",
+        report.condition.name(),
+        report.demand_factor
+    ));
+    s.push_str(&format!(
+        "Solved in:  {} iterations ({} factorizations)\n",
+        report.iterations, report.factorizations
+    ));
+    s.push_str(&format!(
+        "Demand:     {} {f} total junction demand; {} {f} net source outflow\n",
+        o.fmt(Quantity::Flow, report.total_demand_m3s),
+        o.fmt(Quantity::Flow, report.source_outflow_m3s)
+    ));
+    for note in &report.notes {
+        s.push_str(&format!("Note:       {note}\n"));
+    }
+
+    let mut junctions: Vec<_> = report
+        .nodes
+        .iter()
+        .filter(|n| n.kind == "junction")
+        .filter_map(|n| n.pressure_kpa.map(|p| (p, n)))
+        .collect();
+    junctions.sort_by(|a, b| a.0.total_cmp(&b.0).then_with(|| a.1.id.cmp(&b.1.id)));
+    let p = o.sym(Quantity::Pressure);
+    let l = o.sym(Quantity::Length);
+    let pressure_table = |title: &str, rows: Vec<&(f64, &crate::steady::NodeResult)>| {
+        let mut b = Builder::default();
+        b.push_record([
+            "junction".to_string(),
+            "zone".to_string(),
+            format!("elevation ({l})"),
+            format!("grade ({l})"),
+            format!("pressure ({p})"),
+        ]);
+        for (pk, n) in rows {
+            b.push_record([
+                n.id.clone(),
+                n.zone.clone().unwrap_or_default(),
+                o.fmt(Quantity::Length, n.elevation_m),
+                o.fmt(Quantity::Length, n.grade_m),
+                o.fmt(Quantity::Pressure, *pk),
+            ]);
+        }
+        format!("\n{title}\n{}\n", b.build().with(Style::sharp()))
+    };
+    s.push_str(&pressure_table(
+        "Lowest pressures",
+        junctions.iter().take(5).collect(),
+    ));
+    s.push_str(&pressure_table(
+        "Highest pressures",
+        junctions.iter().rev().take(5).collect(),
+    ));
+
+    let mut fast: Vec<_> = report
+        .links
+        .iter()
+        .filter(|r| r.kind == "pipe")
+        .filter_map(|r| r.velocity_m_per_s.map(|v| (v.abs(), r)))
+        .collect();
+    fast.sort_by(|a, b| b.0.total_cmp(&a.0).then_with(|| a.1.id.cmp(&b.1.id)));
+    let mut b = Builder::default();
+    b.push_record([
+        "pipe".to_string(),
+        "from".to_string(),
+        "to".to_string(),
+        format!("flow ({f})"),
+        format!("velocity ({})", o.sym(Quantity::Velocity)),
+        format!("headloss ({l} per 1000 {l})"),
+    ]);
+    for (v, r) in fast.iter().take(5) {
+        b.push_record([
+            r.id.clone(),
+            r.from.clone(),
+            r.to.clone(),
+            o.fmt(Quantity::Flow, r.flow_m3s),
+            o.fmt(Quantity::Velocity, *v),
+            r.headloss_per_1000.map(|h| num(h, 2)).unwrap_or_default(),
+        ]);
+    }
+    s.push_str(&format!(
+        "\nHighest pipe velocities\n{}\n",
+        b.build().with(Style::sharp())
+    ));
+    s
+}
+
+/// `node_results.csv`, `pipe_results.csv`, and where present `pump_results.csv` and
+/// `valve_results.csv`.
+pub fn files(report: &SteadyReport, units: UnitSystem) -> Result<Vec<OutputFile>, ReportError> {
+    let o = Out::new(units);
+    let (l, f, p, v) = (
+        o.sfx(Quantity::Length),
+        o.sfx(Quantity::Flow),
+        o.sfx(Quantity::Pressure),
+        o.sfx(Quantity::Velocity),
+    );
+    let mut out = Vec::new();
+    let header = vec![
+        "id".to_string(),
+        "kind".to_string(),
+        "zone".to_string(),
+        format!("elevation_{l}"),
+        format!("demand_{f}"),
+        format!("grade_{l}"),
+        format!("pressure_{p}"),
+    ];
+    let rows: Vec<Vec<String>> = report
+        .nodes
+        .iter()
+        .map(|n| {
+            vec![
+                n.id.clone(),
+                n.kind.to_string(),
+                n.zone.clone().unwrap_or_default(),
+                o.fmt_precise(Quantity::Length, n.elevation_m),
+                o.fmt_precise(Quantity::Flow, n.demand_m3s),
+                o.fmt_precise(Quantity::Length, n.grade_m),
+                n.pressure_kpa
+                    .map(|k| o.fmt_precise(Quantity::Pressure, k))
+                    .unwrap_or_default(),
+            ]
+        })
+        .collect();
+    out.push(OutputFile {
+        name: "node_results.csv".into(),
+        bytes: csv_bytes(&header, &rows)?,
+    });
+
+    let header = vec![
+        "id".to_string(),
+        "from".to_string(),
+        "to".to_string(),
+        format!("flow_{f}"),
+        format!("velocity_{v}"),
+        format!("headloss_{l}"),
+        format!("headloss_per_1000_{l}"),
+        "status".to_string(),
+    ];
+    let rows: Vec<Vec<String>> = report
+        .links
+        .iter()
+        .filter(|r| r.kind == "pipe")
+        .map(|r| {
+            vec![
+                r.id.clone(),
+                r.from.clone(),
+                r.to.clone(),
+                o.fmt_precise(Quantity::Flow, r.flow_m3s),
+                r.velocity_m_per_s
+                    .map(|x| o.fmt_precise(Quantity::Velocity, x))
+                    .unwrap_or_default(),
+                o.fmt_precise(Quantity::Length, r.headloss_m),
+                r.headloss_per_1000.map(|h| num(h, 4)).unwrap_or_default(),
+                r.state.name().to_string(),
+            ]
+        })
+        .collect();
+    out.push(OutputFile {
+        name: "pipe_results.csv".into(),
+        bytes: csv_bytes(&header, &rows)?,
+    });
+
+    for (kind, name, head_col) in [
+        ("pump", "pump_results.csv", format!("head_{l}")),
+        ("valve", "valve_results.csv", format!("headloss_{l}")),
+    ] {
+        let rows: Vec<Vec<String>> = report
+            .links
+            .iter()
+            .filter(|r| r.kind == kind)
+            .map(|r| {
+                let head = if kind == "pump" {
+                    -r.headloss_m
+                } else {
+                    r.headloss_m
+                };
+                vec![
+                    r.id.clone(),
+                    o.fmt_precise(Quantity::Flow, r.flow_m3s),
+                    o.fmt_precise(Quantity::Length, head),
+                    r.state.name().to_string(),
+                ]
+            })
+            .collect();
+        if rows.is_empty() {
+            continue;
+        }
+        let header = vec![
+            "id".to_string(),
+            format!("flow_{f}"),
+            head_col,
+            "state".to_string(),
+        ];
+        out.push(OutputFile {
+            name: name.into(),
+            bytes: csv_bytes(&header, &rows)?,
+        });
+    }
+    Ok(out)
+}

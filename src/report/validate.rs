@@ -1,0 +1,117 @@
+//! Report of `firemain validate`: the findings, then a summary of the network.
+
+use tabled::builder::Builder;
+use tabled::settings::Style;
+
+use super::{num, Out};
+use crate::model::validate::NetworkSummary;
+use crate::model::{Diagnostics, Network, Severity};
+use crate::units::{Quantity, UnitSystem};
+
+/// Findings shown per severity before the rest are only counted; a broken export can produce
+/// one error per row.
+const SHOWN_PER_SEVERITY: usize = 200;
+
+/// The findings, errors first, with counts.
+pub fn diagnostics(diags: &Diagnostics) -> String {
+    let mut s = String::new();
+    for severity in [Severity::Error, Severity::Warning, Severity::Note] {
+        let items: Vec<_> = diags.iter().filter(|d| d.severity == severity).collect();
+        for d in items.iter().take(SHOWN_PER_SEVERITY) {
+            s.push_str(&format!("{d}\n"));
+        }
+        if items.len() > SHOWN_PER_SEVERITY {
+            s.push_str(&format!(
+                "... and {} more {}s\n",
+                items.len() - SHOWN_PER_SEVERITY,
+                severity
+            ));
+        }
+    }
+    s.push_str(&format!(
+        "{} error(s), {} warning(s), {} note(s). Plausibility warnings are common practice, not a published standard.\n",
+        diags.count(Severity::Error),
+        diags.count(Severity::Warning),
+        diags.count(Severity::Note)
+    ));
+    s
+}
+
+/// The network summary: counts, zones and feeds, demand, length of main by diameter.
+pub fn summary(net: &Network, sum: &NetworkSummary) -> String {
+    let o = Out::new(net.units);
+    let units: UnitSystem = net.units;
+    let mut s = String::new();
+    s.push_str(&format!("Network:   {}\n", net.name));
+    s.push_str(&format!(
+        "Units:     {} ({}); head loss: {}\n",
+        units.name(),
+        [
+            Quantity::Length,
+            Quantity::Diameter,
+            Quantity::Flow,
+            Quantity::Pressure
+        ]
+        .iter()
+        .map(|q| units.symbol(*q))
+        .collect::<Vec<_>>()
+        .join(", "),
+        net.headloss.name()
+    ));
+    s.push_str(&format!(
+        "Elements:  {} junctions, {} reservoirs, {} tanks, {} pipes, {} pumps, {} valves, {} hydrants, {} zones\n",
+        sum.junctions, sum.reservoirs, sum.tanks, sum.pipes, sum.pumps, sum.valves, sum.hydrants, sum.zones.len()
+    ));
+    let f = o.sym(Quantity::Flow);
+    s.push_str(&format!(
+        "Demand:    {} {f} average day; x{} max day = {} {f}; x{} peak hour = {} {f}\n",
+        o.fmt(Quantity::Flow, sum.total_demand_m3s),
+        net.demand_factors.max_day,
+        o.fmt(
+            Quantity::Flow,
+            sum.total_demand_m3s * net.demand_factors.max_day
+        ),
+        net.demand_factors.peak_hour,
+        o.fmt(
+            Quantity::Flow,
+            sum.total_demand_m3s * net.demand_factors.peak_hour
+        ),
+    ));
+    if !sum.zones.is_empty() {
+        let mut b = Builder::default();
+        b.push_record(["zone", "junctions", "fed by"]);
+        for z in &sum.zones {
+            b.push_record([
+                z.name.clone(),
+                z.junctions.to_string(),
+                if z.feeds.is_empty() {
+                    "(none)".to_string()
+                } else {
+                    z.feeds.join(", ")
+                },
+            ]);
+        }
+        s.push_str(&format!("\nZones\n{}\n", b.build().with(Style::sharp())));
+    }
+    let mut b = Builder::default();
+    let l = o.sym(Quantity::Length);
+    b.push_record([
+        format!("diameter ({})", o.sym(Quantity::Diameter)),
+        format!("length ({l})"),
+        "share".to_string(),
+    ]);
+    let total: f64 = sum.length_by_diameter_m.iter().map(|(_, len)| len).sum();
+    for (d, len) in &sum.length_by_diameter_m {
+        b.push_record([
+            num(o.diameter(*d), 1),
+            num(o.length(*len), 0),
+            format!("{}%", num(100.0 * len / total.max(f64::MIN_POSITIVE), 1)),
+        ]);
+    }
+    b.push_record(["total".to_string(), num(o.length(total), 0), "100%".into()]);
+    s.push_str(&format!(
+        "\nLength of pipe by diameter\n{}\n",
+        b.build().with(Style::sharp())
+    ));
+    s
+}
