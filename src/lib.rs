@@ -4,9 +4,12 @@
 //! Data flows one way: [`model`] (read, validate, convert to SI) -> [`hydraulics`] (steady-state
 //! solve) -> analyses -> report. The library never prints and never exits.
 
+pub mod criteria;
+pub mod fireflow;
 pub mod hydraulics;
 pub mod model;
 pub mod report;
+pub mod service;
 pub mod steady;
 pub mod units;
 

@@ -68,3 +68,79 @@ fn loop_grid_hazen_williams_matches_node_head_reference() {
 fn loop_grid_darcy_weisbach_matches_node_head_reference() {
     compare_loop_grid("loop_grid_dw", "reference/loop_grid/expected_dw.csv");
 }
+
+fn compare_two_zone(fixture: &str, low_zone_factor: f64, expect_state: &str) {
+    // Reference: tests/reference/two_zone/solve_two_zone.py — node-head formulation with the
+    // pump curve inverted for flow and each PRV state tried in turn (scipy 1.17.1).
+    let mut net = load("two_zone");
+    if low_zone_factor != 1.0 {
+        let low = net.zones.iter().position(|z| z == "low").expect("low zone");
+        for node in net.nodes.iter_mut() {
+            if node.zone == Some(low) {
+                node.base_demand_m3s *= low_zone_factor;
+            }
+        }
+    }
+    let expected = read_kind_id_value(fixture);
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let mut ws = hydraulics.workspace();
+    let request = SolveRequest {
+        demand_factor: 1.0,
+        extra_demand: &[],
+        fixed_head: None,
+    };
+    let sol = hydraulics
+        .solve(&mut ws, &request, &hydraulics.cold_start())
+        .expect("solve");
+    let ft = firemain::units::M_PER_FT;
+    let gpm = firemain::units::M3S_PER_GPM;
+    for (j, node) in net.junctions().iter().enumerate() {
+        let head: f64 = expected[&("head_ft".to_string(), node.id.clone())]
+            .parse()
+            .unwrap();
+        assert!(
+            (sol.heads_m[j] / ft - head).abs() < 1e-5,
+            "{}: head {} vs {} ft",
+            node.id,
+            sol.heads_m[j] / ft,
+            head
+        );
+    }
+    for (i, link) in net.links.iter().enumerate() {
+        let q: f64 = expected[&("flow_gpm".to_string(), link.id.clone())]
+            .parse()
+            .unwrap();
+        assert!(
+            (sol.flows_m3s[i] / gpm - q).abs() < 1e-4,
+            "{}: flow {} vs {} gpm",
+            link.id,
+            sol.flows_m3s[i] / gpm,
+            q
+        );
+    }
+    let valve = net.link_by_id("V1").unwrap();
+    assert_eq!(sol.states[valve].name(), expect_state);
+    assert_eq!(
+        expected[&("valve_state".to_string(), "V1".to_string())],
+        expect_state
+    );
+    let pump = net.link_by_id("PU1").unwrap();
+    let head: f64 = expected[&("pump_head_ft".to_string(), "PU1".to_string())]
+        .parse()
+        .unwrap();
+    assert!((-sol.headloss_m(&net, pump) / ft - head).abs() < 1e-5);
+    eprintln!(
+        "two_zone x{low_zone_factor}: {} iterations, {} factorizations",
+        sol.iterations, sol.factorizations
+    );
+}
+
+#[test]
+fn two_zone_pump_and_regulating_prv_match_reference() {
+    compare_two_zone("reference/two_zone/expected.csv", 1.0, "regulating");
+}
+
+#[test]
+fn two_zone_prv_goes_wide_open_under_high_low_zone_demand() {
+    compare_two_zone("reference/two_zone/expected_high_demand.csv", 3.0, "open");
+}

@@ -125,6 +125,18 @@ impl FaerCholesky {
     }
 }
 
+impl FaerCholesky {
+    /// The numeric values of L (to copy a factorization between workspaces).
+    pub fn values(&self) -> &[f64] {
+        &self.l_values
+    }
+
+    /// Replaces the numeric values of L by a copy of another factorization of the same pattern.
+    pub fn set_values(&mut self, values: &[f64]) {
+        self.l_values.copy_from_slice(values);
+    }
+}
+
 impl SpdFactorization for FaerCholesky {
     fn refactor(&mut self, values: &[f64]) -> Result<(), NotPositiveDefinite> {
         let a = SparseColMatRef::new(self.analysis.pattern.as_ref(), values);

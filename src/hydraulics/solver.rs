@@ -37,6 +37,10 @@ pub const MAX_ITERATIONS: u32 = 200;
 const CHORD_MAX_STEP_M: f64 = 0.05;
 /// ... and each step shrinks the previous one at least by this factor.
 const CHORD_MAX_RATIO: f64 = 0.2;
+/// Head steps above this (m) are checked by a line search on the content merit function.
+const LINE_SEARCH_MIN_STEP_M: f64 = 0.1;
+/// Halvings of the step the line search tries.
+const LINE_SEARCH_HALVINGS: u32 = 6;
 /// Initial flow velocity of a cold start, m/s (a common starting guess, about 1 ft/s).
 const COLD_START_VELOCITY_M_PER_S: f64 = 0.3;
 
@@ -79,9 +83,50 @@ pub struct Workspace {
     g_factored: Vec<f64>,
     /// Known flow change of each link in the current step.
     known: Vec<f64>,
+    /// Flow change of each link in the current step.
+    flow_step: Vec<f64>,
     demand: Vec<f64>,
     /// Fixed head of a junction in the current state (sources are always fixed).
     pinned: Vec<Option<f64>>,
+    /// The fixed-head junction and link states the current factorization was made for; a
+    /// later solve with the same ones may start with chord steps on it.
+    factor_key: Option<(Option<usize>, Vec<LinkState>)>,
+}
+
+/// A copy of a workspace's factorization, to start other workspaces from (the fire-flow sweep
+/// starts every hydrant from the max-day factorization: its first step is then the linear
+/// response of the max-day state to the fire flow, at no factorization cost).
+#[derive(Clone, Debug)]
+pub struct FactorSnapshot {
+    l_values: Vec<f64>,
+    g_factored: Vec<f64>,
+    key: (Option<usize>, Vec<LinkState>),
+}
+
+impl Workspace {
+    /// A copy of the current factorization, if there is one.
+    pub fn snapshot(&self) -> Option<FactorSnapshot> {
+        self.factor_key.as_ref().map(|key| FactorSnapshot {
+            l_values: self.factor.values().to_vec(),
+            g_factored: self.g_factored.clone(),
+            key: key.clone(),
+        })
+    }
+
+    /// Makes `snapshot` the current factorization.
+    pub fn restore(&mut self, snapshot: &FactorSnapshot) {
+        self.factor.set_values(&snapshot.l_values);
+        self.g_factored.copy_from_slice(&snapshot.g_factored);
+        self.factor_key = Some(snapshot.key.clone());
+    }
+
+    /// Forgets the current factorization, so that the next solve starts with a fresh one.
+    /// (The fire-flow sweep calls this between hydrants so that every hydrant's result is
+    /// independent of which hydrants the thread analysed before: output is identical for any
+    /// number of threads.)
+    pub fn forget_factor(&mut self) {
+        self.factor_key = None;
+    }
 }
 
 /// What to solve: demands and an optional junction held at a head.
@@ -239,8 +284,10 @@ impl<'n> Hydraulics<'n> {
             rhs: vec![0.0; nj],
             g_factored: vec![0.0; nl],
             known: vec![0.0; nl],
+            flow_step: vec![0.0; nl],
             demand: vec![0.0; nj],
             pinned: vec![None; nj],
+            factor_key: None,
         }
     }
 
@@ -345,6 +392,9 @@ impl<'n> Hydraulics<'n> {
         let mut previous_step = f64::INFINITY;
         let mut factorizations = 0u32;
         let mut delta = vec![0.0; nj];
+        // Whether the flows may violate continuity (at the start, and after a state change):
+        // the line search needs a start that satisfies it.
+        let mut continuity_pending = true;
 
         for iteration in 1..=MAX_ITERATIONS {
             if dirty {
@@ -354,7 +404,9 @@ impl<'n> Hydraulics<'n> {
                     ws.pinned[j] = Some(heads[j]);
                 }
                 dirty = false;
-                need_factor = true;
+                let fixed = request.fixed_head.map(|(j, _)| j);
+                need_factor =
+                    !matches!(&ws.factor_key, Some((f, st)) if *f == fixed && st == &states);
             }
 
             // Link coefficients: conductance g and the known part of the flow change.
@@ -439,9 +491,11 @@ impl<'n> Hydraulics<'n> {
                 }
             }
             if need_factor {
+                ws.factor_key = None;
                 ws.factor
                     .refactor(&ws.values)
                     .map_err(|_| self.singular_error(ws))?;
+                ws.factor_key = Some((request.fixed_head.map(|(j, _)| j), states.clone()));
                 factorizations += 1;
             }
             delta.copy_from_slice(&ws.rhs);
@@ -452,21 +506,40 @@ impl<'n> Hydraulics<'n> {
                 ));
             }
 
-            // Update heads and flows.
-            let mut step_h = 0.0_f64;
+            // Update heads and flows, with a line search on large steps once continuity holds
+            // (a Newton step from far away can overshoot, e.g. when a fire flow is added to a
+            // state with near-zero flows in the pipes around the hydrant).
+            let mut full_step_h = 0.0_f64;
             for j in 0..nj {
-                heads[j] += delta[j];
                 if ws.pinned[j].is_none() {
-                    step_h = step_h.max(delta[j].abs());
+                    full_step_h = full_step_h.max(delta[j].abs());
                 }
             }
-            let mut step_q = 0.0_f64;
             for i in 0..nl {
                 let l = &net.links[i];
                 let g = ws.g_factored[i];
                 let da = if l.from < nj { delta[l.from] } else { 0.0 };
                 let db = if l.to < nj { delta[l.to] } else { 0.0 };
-                let dq = ws.known[i] + g * (da - db);
+                ws.flow_step[i] = ws.known[i] + g * (da - db);
+            }
+            let alpha = if !continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M {
+                self.line_search(ws, &flows, &states)
+            } else {
+                1.0
+            };
+            continuity_pending = false;
+            let mut step_h = 0.0_f64;
+            for j in 0..nj {
+                if ws.pinned[j].is_none() {
+                    heads[j] += alpha * delta[j];
+                    step_h = step_h.max((alpha * delta[j]).abs());
+                } else {
+                    heads[j] += delta[j];
+                }
+            }
+            let mut step_q = 0.0_f64;
+            for i in 0..nl {
+                let dq = alpha * ws.flow_step[i];
                 flows[i] += dq;
                 step_q = step_q.max(dq.abs());
             }
@@ -491,7 +564,6 @@ impl<'n> Hydraulics<'n> {
                 };
                 step_q = step_q.max((flows[i] - old).abs());
             }
-
             let ratio = step_h / previous_step;
             previous_step = step_h;
             need_factor = step_h > CHORD_MAX_STEP_M || ratio > CHORD_MAX_RATIO;
@@ -546,10 +618,51 @@ impl<'n> Hydraulics<'n> {
                     });
                 }
                 dirty = true;
+                continuity_pending = true;
                 previous_step = f64::INFINITY;
             }
         }
         Err(self.no_convergence(&heads, &flows, &states, &delta))
+    }
+
+    /// Step length in (0, 1] along `ws.flow_step` that does not increase the content merit
+    /// function (Σ link contents − Σ fixed grade × outflow), by halving.
+    fn line_search(&self, ws: &Workspace, flows: &[f64], states: &[LinkState]) -> f64 {
+        let merit = |alpha: f64| -> f64 {
+            let mut total = 0.0;
+            for (i, l) in self.net.links.iter().enumerate() {
+                if !states[i].conducts() || l.from == l.to {
+                    continue;
+                }
+                let q = flows[i] + alpha * ws.flow_step[i];
+                total += self.laws[i].content(q);
+                if let Some(h) = self.fixed_head(l.from, ws) {
+                    total -= h * q;
+                }
+                if let Some(h) = self.fixed_head(l.to, ws) {
+                    total += h * q;
+                }
+            }
+            total
+        };
+        let start = merit(0.0);
+        let mut alpha = 1.0;
+        for _ in 0..LINE_SEARCH_HALVINGS {
+            if merit(alpha) <= start {
+                return alpha;
+            }
+            alpha *= 0.5;
+        }
+        alpha
+    }
+
+    /// The head of a node that is fixed in the current state (source or pinned junction).
+    fn fixed_head(&self, node: usize, ws: &Workspace) -> Option<f64> {
+        if node >= self.n_junctions {
+            Some(self.source_grade[node])
+        } else {
+            ws.pinned[node]
+        }
     }
 
     fn valve_kind(&self, link: usize) -> Option<ValveKind> {

@@ -4,6 +4,7 @@
 //! name or header. Files are written whole or not at all: each is written to a temporary file
 //! in the output folder and renamed over its final name.
 
+pub mod check;
 pub mod solve;
 pub mod validate;
 

@@ -1,0 +1,655 @@
+//! The search for one hydrant's available fire flow.
+//!
+//! 1. Static state: the shared max-day solution (no solve).
+//! 2. One solve at the required flow: residual pressure, and a first bracket point.
+//! 3. One solve with the hydrant's junction held at the floor pressure: the flow it draws is
+//!    the hydrant-limited flow, exactly. If no other constraint fails there, that is the
+//!    answer.
+//! 4. Otherwise a safeguarded secant search between the largest flow known to pass and the
+//!    smallest known to fail, on the binding constraint's margin modelled as A − K·Q^1.852 (the
+//!    Hazen-Williams shape of a supply curve, which makes the secant nearly exact): each step
+//!    probes just below and just above the estimate, so that two probes usually close the
+//!    bracket to the required accuracy. Every answer is a flow verified by a full solve.
+//! 5. With check valves, pumps or regulating valves whose state changed between static and
+//!    fire conditions, flows below the answer are sampled to find an earlier crossing, and the
+//!    flow at which each element changed state is located.
+
+use super::{
+    ConstraintCheck, FireFlowSetup, HydrantNote, HydrantResult, LimitedBy, Outcome,
+    FLOOR_TOLERANCE_KPA,
+};
+use crate::hydraulics::{Solution, SolveError, SolveRequest, Workspace};
+use crate::units::{UnitSystem, M3S_PER_GPM};
+
+/// Exponent of the supply-curve model used by the secant step (Hazen-Williams, 1/0.54).
+const SUPPLY_CURVE_EXPONENT: f64 = 1.852;
+/// Relative accuracy of the available flow (0.5 %).
+const RELATIVE_ACCURACY: f64 = 0.005;
+/// Offset of a probe from the estimated root, as a fraction of the accuracy: two probes at
+/// ± this offset close the bracket to half the accuracy when the estimate is good.
+const PROBE_OFFSET: f64 = 0.25;
+/// Probes allowed in the bracket search before it stops with the verified lower end.
+const MAX_PROBES: u32 = 40;
+/// Samples below the answer when controls changed state (first-crossing check).
+const FIRST_CROSSING_SAMPLES: u32 = 8;
+/// Bisection steps locating the flow at which an element changed state (1/32 of the range).
+const STATE_CHANGE_STEPS: u32 = 5;
+/// Elements whose state-change flow is located per hydrant.
+const STATE_CHANGES_LOCATED: usize = 3;
+
+/// A flow with its verified solution.
+struct Point {
+    q: f64,
+    sol: Solution,
+    check: ConstraintCheck,
+}
+
+struct Search<'s, 'a> {
+    setup: &'s FireFlowSetup<'a>,
+    ws: &'s mut Workspace,
+    at: usize,
+    solves: u32,
+    factorizations: u32,
+}
+
+impl Search<'_, '_> {
+    fn evaluate(&mut self, q: f64, start: &Solution) -> Result<Point, SolveError> {
+        let extra = [(self.at, q)];
+        let request = SolveRequest {
+            demand_factor: self.setup.demand_factor,
+            extra_demand: &extra,
+            fixed_head: None,
+        };
+        self.solves += 1;
+        let sol = self.setup.hydraulics.solve(self.ws, &request, start);
+        if let Ok(s) = &sol {
+            self.factorizations += s.factorizations;
+        }
+        let sol = sol?;
+        let check = self.setup.constraints(&sol, self.at);
+        Ok(Point { q, sol, check })
+    }
+
+    /// Solves with the hydrant's junction held at the floor; returns the flow it draws.
+    fn hydrant_limited(&mut self, start: &Solution) -> Result<Point, SolveError> {
+        let request = SolveRequest {
+            demand_factor: self.setup.demand_factor,
+            extra_demand: &[],
+            fixed_head: Some((self.at, self.setup.floor_head_m(self.at))),
+        };
+        self.solves += 1;
+        let sol = self.setup.hydraulics.solve(self.ws, &request, start)?;
+        self.factorizations += sol.factorizations;
+        let q = sol.fixed_head_outflow_m3s.unwrap_or(0.0);
+        let check = self.setup.constraints(&sol, self.at);
+        Ok(Point { q, sol, check })
+    }
+}
+
+/// Smallest flow difference the search resolves: 1 gpm or 0.1 L/s.
+fn absolute_accuracy_m3s(units: UnitSystem) -> f64 {
+    match units {
+        UnitSystem::Us => M3S_PER_GPM,
+        UnitSystem::Si => 1.0e-4,
+    }
+}
+
+/// Which constraint a failing point violates: a junction's pressure or a pipe's velocity.
+#[derive(Clone, Copy, PartialEq)]
+enum Binding {
+    Pressure(usize),
+    Velocity(usize),
+}
+
+fn binding_of(check: &ConstraintCheck) -> Binding {
+    if check.pressure_margin_kpa < -FLOOR_TOLERANCE_KPA {
+        Binding::Pressure(check.pressure_junction)
+    } else {
+        match check.velocity {
+            Some((_, link)) => Binding::Velocity(link),
+            None => Binding::Pressure(check.pressure_junction),
+        }
+    }
+}
+
+fn margin(setup: &FireFlowSetup<'_>, sol: &Solution, binding: Binding) -> f64 {
+    let net = setup.network();
+    match binding {
+        Binding::Pressure(j) => sol.pressure_kpa(net, j) - setup.criteria.residual_floor_kpa,
+        Binding::Velocity(i) => {
+            setup.criteria.max_velocity_m_per_s.unwrap_or(f64::INFINITY)
+                - sol.velocity_m_per_s(net, i).abs()
+        }
+    }
+}
+
+/// Estimate of the flow where the binding margin reaches zero, interpolating the margin in
+/// u = Q^n (n = 1.852 for pressures: the Hazen-Williams shape of a supply curve, in which the
+/// margin is nearly linear; n = 1 for velocities): quadratic through three points when a third
+/// is known, else linear; the bisection point when neither lands inside the bracket.
+fn estimate_root(
+    setup: &FireFlowSetup<'_>,
+    lo: &Point,
+    hi: &Point,
+    third: Option<&Point>,
+    binding: Binding,
+) -> f64 {
+    let n = match binding {
+        Binding::Pressure(_) => SUPPLY_CURVE_EXPONENT,
+        Binding::Velocity(_) => 1.0,
+    };
+    let inside = |q: f64| q.is_finite() && q > lo.q && q < hi.q;
+    let (u0, m0) = (lo.q.powf(n), margin(setup, &lo.sol, binding));
+    let (u1, m1) = (hi.q.powf(n), margin(setup, &hi.sol, binding));
+    let linear = {
+        let u = u0 + m0 * (u1 - u0) / (m0 - m1);
+        if m0 > m1 && u > 0.0 {
+            u.powf(1.0 / n)
+        } else {
+            f64::NAN
+        }
+    };
+    if let Some(t) = third {
+        let (u2, m2) = (t.q.powf(n), margin(setup, &t.sol, binding));
+        if let Some(u) = quadratic_root(u0, m0, u1, m1, u2, m2) {
+            let q = u.max(0.0).powf(1.0 / n);
+            if inside(q) {
+                return q;
+            }
+        }
+    }
+    if inside(linear) {
+        linear
+    } else {
+        0.5 * (lo.q + hi.q)
+    }
+}
+
+/// The root between u0 and u1 of the parabola through three points (m0 ≥ 0 > m1).
+fn quadratic_root(u0: f64, m0: f64, u1: f64, m1: f64, u2: f64, m2: f64) -> Option<f64> {
+    // Newton's divided differences: m(u) = m0 + d01 (u − u0) + d012 (u − u0)(u − u1).
+    let d01 = (m1 - m0) / (u1 - u0);
+    let d12 = (m2 - m1) / (u2 - u1);
+    let d012 = (d12 - d01) / (u2 - u0);
+    if !(d01.is_finite() && d012.is_finite()) {
+        return None;
+    }
+    // m(u) = a u² + b u + c
+    let a = d012;
+    let b = d01 - d012 * (u0 + u1);
+    let c = m0 - d01 * u0 + d012 * u0 * u1;
+    let (lo, hi) = (u0.min(u1), u0.max(u1));
+    if a.abs() < 1e-300 {
+        let u = -c / b;
+        return (u > lo && u < hi).then_some(u);
+    }
+    let disc = b * b - 4.0 * a * c;
+    if disc < 0.0 {
+        return None;
+    }
+    let sq = disc.sqrt();
+    // Numerically stable pair of roots.
+    let qv = -0.5 * (b + b.signum() * sq);
+    [qv / a, c / qv]
+        .into_iter()
+        .find(|u| u.is_finite() && *u > lo && *u < hi)
+}
+
+/// A starting point for a solve at flow q, interpolated (or extrapolated) from two solved
+/// points: flows linearly in Q (superposition holds for flows near the hydrant), heads
+/// linearly in Q^1.852 (the head-loss law).
+fn predict(a: &Point, b: &Point, q: f64) -> Solution {
+    let mut sol = if (q - a.q).abs() <= (q - b.q).abs() {
+        a.sol.clone()
+    } else {
+        b.sol.clone()
+    };
+    if (b.q - a.q).abs() < 1e-12 {
+        return sol;
+    }
+    let n = SUPPLY_CURVE_EXPONENT;
+    let t = ((q - a.q) / (b.q - a.q)).clamp(-1.0, 3.0);
+    let tu = ((q.powf(n) - a.q.powf(n)) / (b.q.powf(n) - a.q.powf(n))).clamp(-1.0, 3.0);
+    for (h, (ha, hb)) in sol
+        .heads_m
+        .iter_mut()
+        .zip(a.sol.heads_m.iter().zip(&b.sol.heads_m))
+    {
+        *h = ha + tu * (hb - ha);
+    }
+    for (f, (fa, fb)) in sol
+        .flows_m3s
+        .iter_mut()
+        .zip(a.sol.flows_m3s.iter().zip(&b.sol.flows_m3s))
+    {
+        *f = fa + t * (fb - fa);
+    }
+    sol
+}
+
+/// Analyses hydrant `index` of the network. Never fails: a failed analysis is an `error` row.
+pub fn analyse_hydrant(
+    setup: &FireFlowSetup<'_>,
+    ws: &mut Workspace,
+    index: usize,
+) -> HydrantResult {
+    // Each hydrant starts from a clean factorization state, so that its result does not depend
+    // on the hydrants the same thread analysed before.
+    ws.forget_factor();
+    if let Some(snapshot) = &setup.base_factor {
+        ws.restore(snapshot);
+    }
+    let net = setup.network();
+    let hydrant = &net.hydrants[index];
+    let at = hydrant.junction;
+    let mut result = HydrantResult {
+        hydrant: index,
+        junction: at,
+        required_m3s: 0.0,
+        required_source: crate::criteria::RequiredSource::Default,
+        available_m3s: None,
+        static_kpa: Some(setup.base.pressure_kpa(net, at)),
+        residual_kpa: None,
+        min_pressure_kpa: None,
+        min_pressure_junction: None,
+        critical_junction: None,
+        critical_link: None,
+        limited_by: None,
+        outcome: Outcome::Error,
+        notes: Vec::new(),
+        solves: 0,
+        factorizations: 0,
+    };
+    let Some((required, source)) = setup.criteria.required_flow(hydrant) else {
+        result.notes.push(HydrantNote::Error {
+            reason: "no required flow: the hydrant has none, its class is not in the criteria, and the criteria give no default".into(),
+        });
+        return result;
+    };
+    result.required_m3s = required;
+    result.required_source = source;
+    let mut search = Search {
+        setup,
+        ws,
+        at,
+        solves: 0,
+        factorizations: 0,
+    };
+    run(&mut search, required, &mut result);
+    result.solves = search.solves;
+    result.factorizations = search.factorizations;
+    result
+}
+
+fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
+    let setup = s.setup;
+    let net = setup.network();
+    let at = s.at;
+    let cap = setup.criteria.search_cap_m3s;
+    let floor = setup.criteria.residual_floor_kpa;
+    let base = Point {
+        q: 0.0,
+        sol: setup.base.clone(),
+        check: setup.constraints(&setup.base, at),
+    };
+
+    // Residual pressure at the required flow.
+    let at_required = match s.evaluate(required, &base.sol) {
+        Ok(p) => {
+            result.residual_kpa = Some(p.sol.pressure_kpa(net, at));
+            result.min_pressure_kpa = Some(p.check.pressure_margin_kpa + floor);
+            result.min_pressure_junction = Some(p.check.pressure_junction);
+            Some(p)
+        }
+        Err(e) => {
+            result.notes.push(HydrantNote::ResidualUnavailable {
+                reason: e.to_string(),
+            });
+            None
+        }
+    };
+
+    // Constraints already violated without fire flow.
+    if !base.check.feasible() {
+        result.available_m3s = Some(0.0);
+        result.outcome = Outcome::Fail;
+        match binding_of(&base.check) {
+            Binding::Pressure(j) => {
+                result.limited_by = Some(if j == at {
+                    LimitedBy::HydrantPressure
+                } else {
+                    LimitedBy::SystemPressure
+                });
+                result.critical_junction = Some(j);
+                result
+                    .notes
+                    .push(HydrantNote::FloorViolatedWithoutFireFlow {
+                        junction: j,
+                        pressure_kpa: base.sol.pressure_kpa(net, j),
+                    });
+            }
+            Binding::Velocity(i) => {
+                result.limited_by = Some(LimitedBy::Velocity);
+                result.critical_link = Some(i);
+                result
+                    .notes
+                    .push(HydrantNote::VelocityExceededWithoutFireFlow {
+                        link: i,
+                        velocity_m_per_s: base.sol.velocity_m_per_s(net, i).abs(),
+                    });
+            }
+        }
+        return;
+    }
+
+    let base_copy = Point {
+        q: 0.0,
+        sol: base.sol.clone(),
+        check: base.check,
+    };
+    let at_required_copy = at_required.as_ref().map(|p| Point {
+        q: p.q,
+        sol: p.sol.clone(),
+        check: p.check,
+    });
+    let mut lo = base;
+    let mut hi: Option<Point> = None;
+    let mut failed_above: Option<(f64, String)> = None;
+    if let Some(p) = at_required {
+        if p.check.feasible() && p.q <= cap {
+            lo = p;
+        } else if !p.check.feasible() {
+            hi = Some(p);
+        }
+    }
+
+    // The hydrant-limited flow, from one solve with the hydrant held at the floor.
+    let mut answer: Option<LimitedBy> = None;
+    // Start near the hydrant-limited flow, estimated from the static and residual pressures as
+    // a field flow test would be (NFPA 291 §4.13: Q = Q_t·((S − floor)/(S − R))^0.54).
+    let start = match (&at_required_copy, result.residual_kpa, result.static_kpa) {
+        (Some(p), Some(r), Some(st)) if st - r > 1e-6 && st > floor => {
+            let q_est = p.q * ((st - floor) / (st - r)).powf(1.0 / SUPPLY_CURVE_EXPONENT);
+            predict(&base_copy, p, q_est.min(4.0 * p.q))
+        }
+        _ => nearest(&lo, hi.as_ref(), lo.q).clone(),
+    };
+    match s.hydrant_limited(&start) {
+        Ok(p) if p.q <= lo.q => {
+            // Already past the hydrant's floor at a passing flow: only round-off; keep lo.
+            answer = Some(LimitedBy::HydrantPressure);
+        }
+        Ok(p) if p.q >= cap => {
+            if hi.as_ref().is_none_or(|h| h.q > cap) {
+                match s.evaluate(cap, &p.sol) {
+                    Ok(c) if c.check.feasible() => {
+                        lo = c;
+                        answer = Some(LimitedBy::Cap);
+                    }
+                    Ok(c) => hi = Some(c),
+                    Err(e) => failed_above = Some((cap, e.to_string())),
+                }
+            }
+        }
+        Ok(p) => {
+            if p.check.feasible() {
+                lo = p;
+                answer = Some(LimitedBy::HydrantPressure);
+            } else if hi.as_ref().is_none_or(|h| p.q < h.q) {
+                hi = Some(p);
+            }
+        }
+        Err(e) => failed_above = Some((lo.q, e.to_string())),
+    }
+    if answer.is_none() && hi.is_none() {
+        // No failing point known: try the cap, then bisect towards it if it cannot be solved.
+        let mut upper = cap;
+        for _ in 0..MAX_PROBES {
+            if upper - lo.q <= tolerance(lo.q, net.units) {
+                break;
+            }
+            match s.evaluate(upper, &lo.sol) {
+                Ok(p) if p.check.feasible() => {
+                    let is_cap = p.q >= cap;
+                    lo = p;
+                    if is_cap {
+                        answer = Some(LimitedBy::Cap);
+                    }
+                    break;
+                }
+                Ok(p) => {
+                    hi = Some(p);
+                    break;
+                }
+                Err(e) => {
+                    failed_above = Some((upper, e.to_string()));
+                    upper = 0.5 * (lo.q + upper);
+                }
+            }
+        }
+    }
+
+    if answer.is_none() {
+        // The static point or the required-flow point is a useful third point for the first
+        // estimate, whichever is not already an end of the bracket.
+        let third = [Some(&base_copy), at_required_copy.as_ref()]
+            .into_iter()
+            .flatten()
+            .find(|p| p.q != lo.q && hi.as_ref().is_none_or(|h| h.q != p.q))
+            .map(|p| Point {
+                q: p.q,
+                sol: p.sol.clone(),
+                check: p.check,
+            });
+        bracket_search(s, &mut lo, &mut hi, third, &mut failed_above);
+    }
+
+    // First crossing: with controls that changed state, look for an earlier failure.
+    if setup.has_controls && lo.q > 0.0 && states_differ(&setup.base, &lo, hi.as_ref()) {
+        let samples = FIRST_CROSSING_SAMPLES;
+        let top = lo.q;
+        let mut previous = Point {
+            q: 0.0,
+            sol: setup.base.clone(),
+            check: setup.constraints(&setup.base, at),
+        };
+        for k in 1..samples {
+            let q = top * f64::from(k) / f64::from(samples);
+            match s.evaluate(q, &previous.sol) {
+                Ok(p) if p.check.feasible() => previous = p,
+                Ok(p) => {
+                    result.notes.push(HydrantNote::NonMonotone {
+                        passes_again_at_m3s: top,
+                    });
+                    let mut new_lo = previous;
+                    let mut new_hi = Some(p);
+                    bracket_search(s, &mut new_lo, &mut new_hi, None, &mut failed_above);
+                    lo = new_lo;
+                    hi = new_hi;
+                    answer = None;
+                    break;
+                }
+                Err(e) => {
+                    failed_above = Some((q, e.to_string()));
+                    lo = previous;
+                    hi = None;
+                    answer = None;
+                    break;
+                }
+            }
+        }
+    }
+
+    // What binds, and where.
+    let limited_by = match answer {
+        Some(LimitedBy::Cap) => LimitedBy::Cap,
+        Some(LimitedBy::HydrantPressure) => {
+            result.critical_junction = Some(at);
+            LimitedBy::HydrantPressure
+        }
+        _ => match hi.as_ref().map(|h| binding_of(&h.check)) {
+            Some(Binding::Velocity(i)) => {
+                result.critical_link = Some(i);
+                result.notes.push(HydrantNote::VelocityLimit { link: i });
+                LimitedBy::Velocity
+            }
+            Some(Binding::Pressure(j)) => {
+                result.critical_junction = Some(j);
+                if j == at {
+                    LimitedBy::HydrantPressure
+                } else {
+                    LimitedBy::SystemPressure
+                }
+            }
+            None => {
+                // Only a solver failure above the answer is known.
+                result.critical_junction = Some(lo.check.pressure_junction);
+                if lo.check.pressure_junction == at {
+                    LimitedBy::HydrantPressure
+                } else {
+                    LimitedBy::SystemPressure
+                }
+            }
+        },
+    };
+    if let Some((q, reason)) = failed_above {
+        if q > lo.q && hi.as_ref().is_none_or(|h| h.q > q) {
+            result.notes.push(HydrantNote::SolveFailedAbove {
+                flow_m3s: q,
+                reason,
+            });
+        }
+    }
+    locate_state_changes(s, &lo, result);
+    result.available_m3s = Some(lo.q);
+    result.limited_by = Some(limited_by);
+    result.outcome = if lo.q >= required - 1e-12 {
+        Outcome::Pass
+    } else {
+        Outcome::Fail
+    };
+}
+
+/// The relative-or-absolute accuracy at flow q.
+fn tolerance(q: f64, units: UnitSystem) -> f64 {
+    (RELATIVE_ACCURACY * q).max(absolute_accuracy_m3s(units))
+}
+
+fn nearest<'p>(lo: &'p Point, hi: Option<&'p Point>, q: f64) -> &'p Solution {
+    match hi {
+        Some(h) if (h.q - q).abs() < (q - lo.q).abs() => &h.sol,
+        _ => &lo.sol,
+    }
+}
+
+fn states_differ(base: &Solution, lo: &Point, hi: Option<&Point>) -> bool {
+    base.states != lo.sol.states || hi.is_some_and(|h| h.sol.states != base.states)
+}
+
+/// Narrows [lo, hi] until its width is within the accuracy; `lo` stays a verified passing
+/// flow and `hi` a verified failing one. Each estimate is probed just below (to raise `lo`)
+/// or just above (to lower `hi`), so that an accurate estimate closes the bracket in two
+/// probes; the bisection point is probed when the estimates stop shrinking the bracket.
+fn bracket_search(
+    s: &mut Search<'_, '_>,
+    lo: &mut Point,
+    hi: &mut Option<Point>,
+    mut third: Option<Point>,
+    failed_above: &mut Option<(f64, String)>,
+) {
+    let units = s.setup.network().units;
+    // Consecutive probes whose outcome contradicted the estimate; two in a row mean the
+    // estimates are not to be trusted here, and the next probe bisects.
+    let mut surprises = 0;
+    for _ in 0..MAX_PROBES {
+        let Some(h) = hi.as_ref() else { return };
+        let width = h.q - lo.q;
+        if width <= tolerance(lo.q, units) {
+            return;
+        }
+        let binding = binding_of(&h.check);
+        let estimate = estimate_root(s.setup, lo, h, third.as_ref(), binding);
+        let step = PROBE_OFFSET * tolerance(estimate, units);
+        let guard = 0.1 * step;
+        let below = estimate - step;
+        let above = estimate + step;
+        let (q, expect_pass) = if surprises >= 2 {
+            surprises = 0;
+            (0.5 * (lo.q + h.q), None)
+        } else if below > lo.q + guard {
+            (below, Some(true))
+        } else if above < h.q - guard {
+            (above, Some(false))
+        } else {
+            (0.5 * (lo.q + h.q), None)
+        };
+        let start = predict(lo, h, q);
+        let passed = match s.evaluate(q, &start) {
+            Ok(p) if p.check.feasible() => {
+                third = Some(std::mem::replace(lo, p));
+                true
+            }
+            Ok(p) => {
+                third = hi.replace(p);
+                false
+            }
+            Err(e) => {
+                // An unsolvable flow counts as failing; the answer stays a verified one.
+                *failed_above = Some((q, e.to_string()));
+                let moved = Point {
+                    q,
+                    sol: h.sol.clone(),
+                    check: h.check,
+                };
+                third = hi.replace(moved);
+                false
+            }
+        };
+        match expect_pass {
+            Some(expected) if expected != passed => surprises += 1,
+            _ => surprises = 0,
+        }
+    }
+}
+
+/// Finds, by bisection, the flow at which elements changed state between the static solution
+/// and the solution at the available flow.
+fn locate_state_changes(s: &mut Search<'_, '_>, at_answer: &Point, result: &mut HydrantResult) {
+    let setup = s.setup;
+    let base = &setup.base;
+    let changed: Vec<usize> = (0..base.states.len())
+        .filter(|&i| base.states[i] != at_answer.sol.states[i])
+        .filter(|&i| !crate::hydraulics::controls::is_fixed(&setup.network().links[i]))
+        .filter(|&i| {
+            !matches!(
+                setup.network().links[i].kind,
+                crate::model::LinkKind::Pipe(_)
+            )
+        })
+        .take(STATE_CHANGES_LOCATED)
+        .collect();
+    for i in changed {
+        let (mut a, mut b) = (0.0, at_answer.q);
+        let mut start = base.clone();
+        for _ in 0..STATE_CHANGE_STEPS {
+            let mid = 0.5 * (a + b);
+            match s.evaluate(mid, &start) {
+                Ok(p) => {
+                    if p.sol.states[i] == base.states[i] {
+                        a = mid;
+                    } else {
+                        b = mid;
+                    }
+                    start = p.sol;
+                }
+                Err(_) => break,
+            }
+        }
+        result.notes.push(HydrantNote::StateChanged {
+            link: i,
+            from: base.states[i],
+            to: at_answer.sol.states[i],
+            at_flow_m3s: 0.5 * (a + b),
+        });
+    }
+}

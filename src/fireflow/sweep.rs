@@ -1,0 +1,66 @@
+//! The sweep over hydrants, in parallel: one workspace per worker, the network, its symbolic
+//! factorization and the max-day solution shared. Results are in hydrant order and do not
+//! depend on the number of threads.
+
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::time::{Duration, Instant};
+
+use rayon::prelude::*;
+use serde::Serialize;
+
+use super::{analyse_hydrant, FireFlowSetup, HydrantResult};
+
+/// Work done by a sweep, for `--stats`.
+#[derive(Clone, Debug, Serialize)]
+pub struct SweepStats {
+    pub hydrants: usize,
+    pub solves: u64,
+    pub factorizations: u64,
+    pub factorizations_per_hydrant_mean: f64,
+    pub factorizations_per_hydrant_max: u32,
+    pub wall_time: Duration,
+    pub threads: usize,
+}
+
+/// Analyses the hydrants `indices` with `threads` workers (`None`: all cores). `progress` is
+/// called with the number of hydrants done so far, from any thread.
+pub fn sweep(
+    setup: &FireFlowSetup<'_>,
+    indices: &[usize],
+    threads: Option<usize>,
+    progress: &(dyn Fn(usize) + Sync),
+) -> Result<(Vec<HydrantResult>, SweepStats), rayon::ThreadPoolBuildError> {
+    let started = Instant::now();
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads.unwrap_or(0))
+        .build()?;
+    let done = AtomicUsize::new(0);
+    let results: Vec<HydrantResult> = pool.install(|| {
+        indices
+            .par_iter()
+            .map_init(
+                || setup.hydraulics.workspace(),
+                |ws, &h| {
+                    let r = analyse_hydrant(setup, ws, h);
+                    progress(done.fetch_add(1, Ordering::Relaxed) + 1);
+                    r
+                },
+            )
+            .collect()
+    });
+    let factorizations: u64 = results.iter().map(|r| u64::from(r.factorizations)).sum();
+    let stats = SweepStats {
+        hydrants: results.len(),
+        solves: results.iter().map(|r| u64::from(r.solves)).sum(),
+        factorizations,
+        factorizations_per_hydrant_mean: if results.is_empty() {
+            0.0
+        } else {
+            factorizations as f64 / results.len() as f64
+        },
+        factorizations_per_hydrant_max: results.iter().map(|r| r.factorizations).max().unwrap_or(0),
+        wall_time: started.elapsed(),
+        threads: pool.current_num_threads(),
+    };
+    Ok((results, stats))
+}

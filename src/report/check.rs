@@ -1,0 +1,796 @@
+//! Reports of the fire-flow and service-pressure check (`firemain check`): terminal summary and
+//! compliance table, `fireflow.csv`, `service.csv`, `report.md` and `report.json`.
+
+use std::collections::BTreeMap;
+
+use serde::Serialize;
+use tabled::builder::Builder;
+use tabled::settings::Style;
+
+use super::{csv_bytes, num, Out, OutputFile, ReportError, CAUTIONS};
+use crate::criteria::{Criteria, Scope};
+use crate::fireflow::{HydrantNote, HydrantResult, Outcome, SweepStats};
+use crate::hydraulics::LinkState;
+use crate::model::{LinkKind, Network};
+use crate::service::{ServiceReport, ServiceResult};
+use crate::units::Quantity;
+
+/// Version of the layout of `report.json`; raised on any incompatible change.
+pub const JSON_SCHEMA_VERSION: u32 = 1;
+
+/// Everything a check report shows.
+pub struct CheckReport<'a> {
+    pub network: &'a Network,
+    pub criteria: &'a Criteria,
+    pub results: &'a [HydrantResult],
+    pub service: &'a ServiceReport,
+    /// Date and time of the analysis, as shown on the report.
+    pub generated: String,
+    pub version: &'a str,
+    /// Whether only some hydrants were analysed (`--hydrant`).
+    pub partial: bool,
+}
+
+impl CheckReport<'_> {
+    fn out(&self) -> Out {
+        Out::new(self.network.units)
+    }
+
+    fn count(&self, outcome: Outcome) -> usize {
+        self.results.iter().filter(|r| r.outcome == outcome).count()
+    }
+
+    /// Results sorted by margin (available − required), errors first, then by hydrant id.
+    fn by_margin(&self) -> Vec<&HydrantResult> {
+        let mut v: Vec<&HydrantResult> = self.results.iter().collect();
+        v.sort_by(|a, b| {
+            let key = |r: &HydrantResult| r.margin_m3s().unwrap_or(f64::NEG_INFINITY);
+            key(a)
+                .total_cmp(&key(b))
+                .then_with(|| self.hydrant_id(a).cmp(self.hydrant_id(b)))
+        });
+        v
+    }
+
+    fn hydrant_id(&self, r: &HydrantResult) -> &str {
+        &self.network.hydrants[r.hydrant].id
+    }
+
+    fn node_id(&self, j: Option<usize>) -> String {
+        j.map(|j| self.network.nodes[j].id.clone())
+            .unwrap_or_default()
+    }
+
+    fn zone(&self, r: &HydrantResult) -> String {
+        self.network
+            .zone_name(r.junction)
+            .unwrap_or_default()
+            .to_string()
+    }
+
+    fn condition_line(&self) -> String {
+        let net = self.network;
+        let o = self.out();
+        format!(
+            "max-day demand (x{} average day) plus the fire flow at one hydrant at a time; residual floor {} {} at {}; search cap {} {}{}",
+            net.demand_factors.max_day,
+            num(o.pressure(self.criteria.residual_floor_kpa), 1),
+            o.sym(Quantity::Pressure),
+            match self.criteria.scope {
+                Scope::System => "every junction",
+                Scope::Zone => "every junction of the hydrant's zone",
+            },
+            num(o.flow(self.criteria.search_cap_m3s), 0),
+            o.sym(Quantity::Flow),
+            match self.criteria.max_velocity_m_per_s {
+                Some(v) => format!(
+                    "; pipe velocity limit {} {}",
+                    num(o.velocity(v), 1),
+                    o.sym(Quantity::Velocity)
+                ),
+                None => String::new(),
+            }
+        )
+    }
+
+    /// A note in plain words, in the network's units.
+    pub fn note_text(&self, note: &HydrantNote) -> String {
+        let net = self.network;
+        let o = self.out();
+        let f = o.sym(Quantity::Flow);
+        let flow = |q: f64| format!("{} {f}", num(o.flow(q), 0));
+        let link = |i: usize| {
+            let l = &net.links[i];
+            match &l.kind {
+                LinkKind::Valve(v) => format!("{} {}", v.kind.name().to_uppercase(), l.id),
+                _ => format!("{} {}", l.kind_name(), l.id),
+            }
+        };
+        match note {
+            HydrantNote::FloorViolatedWithoutFireFlow {
+                junction,
+                pressure_kpa,
+            } => format!(
+                "the floor is already violated without fire flow at junction {} ({} {})",
+                net.nodes[*junction].id,
+                num(o.pressure(*pressure_kpa), 1),
+                o.sym(Quantity::Pressure)
+            ),
+            HydrantNote::VelocityExceededWithoutFireFlow {
+                link: i,
+                velocity_m_per_s,
+            } => format!(
+                "the velocity limit is already exceeded without fire flow in {} ({} {})",
+                link(*i),
+                num(o.velocity(*velocity_m_per_s), 1),
+                o.sym(Quantity::Velocity)
+            ),
+            HydrantNote::VelocityLimit { link: i } => {
+                format!("the velocity limit is reached in {}", link(*i))
+            }
+            HydrantNote::StateChanged {
+                link: i,
+                from,
+                to,
+                at_flow_m3s,
+            } => {
+                let what = match (from, to) {
+                    (LinkState::Regulating, LinkState::Open) => "went wide open".to_string(),
+                    (_, LinkState::Closed) => "closed".to_string(),
+                    (LinkState::Running, LinkState::NoFlow) => {
+                        "stopped delivering (head asked above its shutoff head)".to_string()
+                    }
+                    (LinkState::NoFlow, LinkState::Running) => "started delivering".to_string(),
+                    (LinkState::Closed, _) => "opened".to_string(),
+                    (a, b) => format!("changed from {} to {}", a.name(), b.name()),
+                };
+                format!("{} {what} at about {}", link(*i), flow(*at_flow_m3s))
+            }
+            HydrantNote::SolveFailedAbove { flow_m3s, reason } => format!(
+                "no hydraulic solution at {} ({reason}); the largest verified flow is reported",
+                flow(*flow_m3s)
+            ),
+            HydrantNote::ResidualUnavailable { reason } => {
+                format!("no hydraulic solution at the required flow: {reason}")
+            }
+            HydrantNote::NonMonotone {
+                passes_again_at_m3s,
+            } => format!(
+                "the constraints fail at a flow below {} where they are met again; the first crossing is reported",
+                flow(*passes_again_at_m3s)
+            ),
+            HydrantNote::Error { reason } => reason.clone(),
+        }
+    }
+
+    fn notes_text(&self, r: &HydrantResult) -> String {
+        r.notes
+            .iter()
+            .map(|n| self.note_text(n))
+            .collect::<Vec<_>>()
+            .join("; ")
+    }
+
+    fn required_label(&self, r: &HydrantResult) -> String {
+        let h = &self.network.hydrants[r.hydrant];
+        match (&h.class, r.required_source) {
+            (_, crate::criteria::RequiredSource::Hydrant) => "hydrant".into(),
+            (Some(c), crate::criteria::RequiredSource::Class) => c.clone(),
+            _ => "default".into(),
+        }
+    }
+
+    /// The summary block printed first on the terminal.
+    pub fn summary(&self) -> String {
+        let o = self.out();
+        let f = o.sym(Quantity::Flow);
+        let mut s = String::new();
+        s.push_str(&format!("Network:    {}\n", self.network.name));
+        s.push_str(&format!("Criteria:   {}\n", self.criteria.name));
+        s.push_str(&format!("Reference:  {}\n", self.criteria.reference));
+        s.push_str(&format!("Condition:  {}\n", self.condition_line()));
+        s.push_str(&format!(
+            "Hydrants:   {} analysed{}: {} pass, {} fail, {} error\n",
+            self.results.len(),
+            if self.partial { " (selected)" } else { "" },
+            self.count(Outcome::Pass),
+            self.count(Outcome::Fail),
+            self.count(Outcome::Error)
+        ));
+        let weakest: Vec<String> = self
+            .by_margin()
+            .into_iter()
+            .filter(|r| r.outcome != Outcome::Pass)
+            .take(5)
+            .map(|r| match r.margin_m3s() {
+                Some(m) => format!("{} ({} {f} short)", self.hydrant_id(r), num(o.flow(-m), 0)),
+                None => format!("{} (error)", self.hydrant_id(r)),
+            })
+            .collect();
+        if !weakest.is_empty() {
+            s.push_str(&format!("Weakest:    {}\n", weakest.join(", ")));
+        }
+        let exceptions = self.service.exceptions().count();
+        s.push_str(&format!(
+            "Service:    {} of {} junctions outside {}-{} {} (peak hour x{}, {} x{})\n",
+            exceptions,
+            self.service.rows.len(),
+            num(o.pressure(self.criteria.service_min_kpa), 0),
+            num(o.pressure(self.criteria.service_max_kpa), 0),
+            o.sym(Quantity::Pressure),
+            self.service.peak_hour_factor,
+            self.service.low_condition.name(),
+            self.service.low_demand_factor
+        ));
+        s.push_str(
+            "Screening estimates from a model: confirm with field flow tests; the fire code official and a licensed engineer decide.\n",
+        );
+        s
+    }
+
+    fn table_header(&self) -> Vec<String> {
+        let o = self.out();
+        let (f, p) = (o.sym(Quantity::Flow), o.sym(Quantity::Pressure));
+        vec![
+            "hydrant".into(),
+            "zone".into(),
+            "junction".into(),
+            "requirement".into(),
+            format!("required ({f})"),
+            format!("available ({f})"),
+            format!("margin ({f})"),
+            format!("static ({p})"),
+            format!("residual ({p})"),
+            "limited by".into(),
+            "critical".into(),
+            "result".into(),
+        ]
+    }
+
+    fn table_row(&self, r: &HydrantResult) -> Vec<String> {
+        let o = self.out();
+        let flow = |q: Option<f64>| q.map(|q| num(o.flow(q), 0)).unwrap_or_default();
+        let pressure = |p: Option<f64>| p.map(|p| num(o.pressure(p), 1)).unwrap_or_default();
+        let critical = match (r.critical_junction, r.critical_link) {
+            (_, Some(i)) => self.network.links[i].id.clone(),
+            (Some(j), None) => self.network.nodes[j].id.clone(),
+            _ => String::new(),
+        };
+        vec![
+            self.hydrant_id(r).to_string(),
+            self.zone(r),
+            self.network.nodes[r.junction].id.clone(),
+            self.required_label(r),
+            flow(Some(r.required_m3s)),
+            flow(r.available_m3s),
+            flow(r.margin_m3s()),
+            pressure(r.static_kpa),
+            pressure(r.residual_kpa),
+            r.limited_by.map(|l| l.name()).unwrap_or("").to_string(),
+            critical,
+            r.outcome.name().to_string(),
+        ]
+    }
+
+    /// The compliance table for the terminal, sorted by margin.
+    pub fn terminal_table(&self) -> String {
+        let mut b = Builder::default();
+        b.push_record(self.table_header());
+        for r in self.by_margin() {
+            b.push_record(self.table_row(r));
+        }
+        format!(
+            "\nCompliance table (sorted by margin, weakest first)\n{}\n",
+            b.build().with(Style::sharp())
+        )
+    }
+
+    /// `fireflow.csv`.
+    pub fn fireflow_csv(&self) -> Result<Vec<u8>, ReportError> {
+        let o = self.out();
+        let (f, p) = (o.sfx(Quantity::Flow), o.sfx(Quantity::Pressure));
+        let header: Vec<String> = vec![
+            "hydrant".into(),
+            "junction".into(),
+            "zone".into(),
+            format!("required_flow_{f}"),
+            format!("available_flow_{f}"),
+            format!("static_pressure_{p}"),
+            format!("residual_pressure_{p}"),
+            format!("min_pressure_{p}"),
+            "min_pressure_junction".into(),
+            "critical_junction".into(),
+            "limited_by".into(),
+            "result".into(),
+            "notes".into(),
+        ];
+        let flow = |q: Option<f64>| {
+            q.map(|q| o.fmt_precise(Quantity::Flow, q))
+                .unwrap_or_default()
+        };
+        let pressure = |k: Option<f64>| {
+            k.map(|k| o.fmt_precise(Quantity::Pressure, k))
+                .unwrap_or_default()
+        };
+        let rows: Vec<Vec<String>> = self
+            .results
+            .iter()
+            .map(|r| {
+                vec![
+                    self.hydrant_id(r).to_string(),
+                    self.network.nodes[r.junction].id.clone(),
+                    self.zone(r),
+                    flow(Some(r.required_m3s)),
+                    flow(r.available_m3s),
+                    pressure(r.static_kpa),
+                    pressure(r.residual_kpa),
+                    pressure(r.min_pressure_kpa),
+                    self.node_id(r.min_pressure_junction),
+                    if r.limited_by == Some(crate::fireflow::LimitedBy::SystemPressure) {
+                        self.node_id(r.critical_junction)
+                    } else {
+                        String::new()
+                    },
+                    r.limited_by.map(|l| l.name()).unwrap_or("").to_string(),
+                    r.outcome.name().to_string(),
+                    self.notes_text(r),
+                ]
+            })
+            .collect();
+        csv_bytes(&header, &rows)
+    }
+
+    /// `service.csv`.
+    pub fn service_csv(&self) -> Result<Vec<u8>, ReportError> {
+        let o = self.out();
+        let (l, p) = (o.sfx(Quantity::Length), o.sfx(Quantity::Pressure));
+        let header: Vec<String> = vec![
+            "junction".into(),
+            "zone".into(),
+            format!("elevation_{l}"),
+            format!("pressure_peak_hour_{p}"),
+            format!("pressure_low_demand_{p}"),
+            "result".into(),
+            "notes".into(),
+        ];
+        let rows: Vec<Vec<String>> = self
+            .service
+            .rows
+            .iter()
+            .map(|r| {
+                let node = &self.network.nodes[r.junction];
+                vec![
+                    node.id.clone(),
+                    self.network
+                        .zone_name(r.junction)
+                        .unwrap_or_default()
+                        .to_string(),
+                    o.fmt_precise(Quantity::Length, node.elevation_m),
+                    r.peak_hour_kpa
+                        .map(|k| o.fmt_precise(Quantity::Pressure, k))
+                        .unwrap_or_default(),
+                    r.low_demand_kpa
+                        .map(|k| o.fmt_precise(Quantity::Pressure, k))
+                        .unwrap_or_default(),
+                    r.result.name().to_string(),
+                    self.service_note(r),
+                ]
+            })
+            .collect();
+        csv_bytes(&header, &rows)
+    }
+
+    fn service_note(&self, r: &crate::service::ServiceRow) -> String {
+        let o = self.out();
+        let p = o.sym(Quantity::Pressure);
+        let mut notes = Vec::new();
+        match r.result {
+            ServiceResult::Low => notes.push(format!(
+                "below {} {p} at peak hour",
+                num(o.pressure(self.criteria.service_min_kpa), 0)
+            )),
+            ServiceResult::High => notes.push(format!(
+                "above {} {p} at {}",
+                num(o.pressure(self.criteria.service_max_kpa), 0),
+                self.service.low_condition.name()
+            )),
+            ServiceResult::Pass => {}
+        }
+        if r.also_high {
+            notes.push(format!(
+                "also above {} {p} at {}",
+                num(o.pressure(self.criteria.service_max_kpa), 0),
+                self.service.low_condition.name()
+            ));
+        }
+        if r.peak_hour_kpa.is_none() || r.low_demand_kpa.is_none() {
+            notes.push("cut off from every source by closed elements".into());
+        }
+        notes.join("; ")
+    }
+
+    /// `report.md`: a document to attach to a permit application.
+    pub fn markdown(&self) -> String {
+        let net = self.network;
+        let o = self.out();
+        let f = o.sym(Quantity::Flow);
+        let mut s = String::new();
+        s.push_str(&format!(
+            "# Fire-flow screening report: {}\n\n",
+            md(&net.name)
+        ));
+        s.push_str("| | |\n|---|---|\n");
+        let rows = [
+            ("Network", md(&net.name)),
+            ("Criteria", md(&self.criteria.name)),
+            ("Criteria reference", md(&self.criteria.reference)),
+            (
+                "Demand condition",
+                format!(
+                    "max-day = {} x average day (fire flow); peak hour = {} x; {} = {} x (service pressures)",
+                    net.demand_factors.max_day,
+                    self.service.peak_hour_factor,
+                    self.service.low_condition.name(),
+                    self.service.low_demand_factor
+                ),
+            ),
+            ("Fire-flow condition", md(&self.condition_line())),
+            (
+                "Source grades used",
+                net.sources()
+                    .iter()
+                    .map(|n| {
+                        format!(
+                            "{} {} at {} {}",
+                            n.kind.name(),
+                            md(&n.id),
+                            num(o.length(n.grade_m.unwrap_or(n.elevation_m)), 1),
+                            o.sym(Quantity::Length)
+                        )
+                    })
+                    .collect::<Vec<_>>()
+                    .join("; "),
+            ),
+            (
+                "Assumptions",
+                format!(
+                    "steady state; demand-driven (demands are met whatever the pressure); sources at fixed grades; head loss by {}; one hydrant flowing at a time",
+                    net.headloss.name()
+                ),
+            ),
+            ("Date", md(&self.generated)),
+            ("Produced by", format!("firemain {}", self.version)),
+        ];
+        for (k, v) in rows {
+            s.push_str(&format!("| {k} | {v} |\n"));
+        }
+        s.push_str(&format!(
+            "\n## Summary\n\n{} hydrants analysed{}: **{} pass**, **{} fail**, {} error. Service pressures: {} of {} junctions outside {}-{} {}.\n",
+            self.results.len(),
+            if self.partial { " (a selection)" } else { "" },
+            self.count(Outcome::Pass),
+            self.count(Outcome::Fail),
+            self.count(Outcome::Error),
+            self.service.exceptions().count(),
+            self.service.rows.len(),
+            num(o.pressure(self.criteria.service_min_kpa), 0),
+            num(o.pressure(self.criteria.service_max_kpa), 0),
+            o.sym(Quantity::Pressure)
+        ));
+
+        s.push_str("\n## Compliance table\n\nAvailable fire flow at each hydrant, sorted by margin (available minus required) within each zone; the weakest first.\n");
+        let mut zones: BTreeMap<String, Vec<&HydrantResult>> = BTreeMap::new();
+        for r in self.by_margin() {
+            zones.entry(self.zone(r)).or_default().push(r);
+        }
+        for (zone, rows) in zones {
+            if zone.is_empty() {
+                if self.network.zones.is_empty() {
+                    s.push('\n');
+                } else {
+                    s.push_str("\n### Hydrants without a zone\n\n");
+                }
+            } else {
+                s.push_str(&format!("\n### Zone {}\n\n", md(&zone)));
+            }
+            let header = self.table_header();
+            s.push_str(&format!("| {} |\n", header.join(" | ")));
+            s.push_str(&format!("|{}\n", "---|".repeat(header.len())));
+            for r in rows {
+                let cells: Vec<String> = self.table_row(r).iter().map(|c| md(c)).collect();
+                s.push_str(&format!("| {} |\n", cells.join(" | ")));
+            }
+        }
+        let noted: Vec<&HydrantResult> = self
+            .results
+            .iter()
+            .filter(|r| !r.notes.is_empty())
+            .collect();
+        if !noted.is_empty() {
+            s.push_str("\n### Notes\n\n");
+            for r in noted {
+                s.push_str(&format!(
+                    "- **{}**: {}\n",
+                    md(self.hydrant_id(r)),
+                    md(&self.notes_text(r))
+                ));
+            }
+        }
+
+        s.push_str("\n## Service-pressure exceptions\n\n");
+        let exceptions: Vec<_> = self.service.exceptions().collect();
+        if exceptions.is_empty() {
+            s.push_str(&format!(
+                "Every junction is within {}-{} {}.\n",
+                num(o.pressure(self.criteria.service_min_kpa), 0),
+                num(o.pressure(self.criteria.service_max_kpa), 0),
+                o.sym(Quantity::Pressure)
+            ));
+        } else {
+            let p = o.sym(Quantity::Pressure);
+            s.push_str(&format!(
+                "| junction | zone | elevation ({}) | peak hour ({p}) | {} ({p}) | result | notes |\n|---|---|---|---|---|---|---|\n",
+                o.sym(Quantity::Length),
+                self.service.low_condition.name()
+            ));
+            for r in exceptions {
+                let node = &net.nodes[r.junction];
+                s.push_str(&format!(
+                    "| {} | {} | {} | {} | {} | {} | {} |\n",
+                    md(&node.id),
+                    md(net.zone_name(r.junction).unwrap_or_default()),
+                    num(o.length(node.elevation_m), 1),
+                    r.peak_hour_kpa
+                        .map(|k| num(o.pressure(k), 1))
+                        .unwrap_or_default(),
+                    r.low_demand_kpa
+                        .map(|k| num(o.pressure(k), 1))
+                        .unwrap_or_default(),
+                    r.result.name(),
+                    md(&self.service_note(r))
+                ));
+            }
+        }
+        if !self.service.notes.is_empty() {
+            s.push_str("\nControls in the service conditions:\n\n");
+            for n in &self.service.notes {
+                s.push_str(&format!("- {}\n", md(n)));
+            }
+        }
+        s.push_str("\n## Cautions\n\n");
+        for c in CAUTIONS {
+            s.push_str(&format!("- {c}\n"));
+        }
+        s.push_str(&format!(
+            "\nFlows in {f}, pressures in {}, elevations and grades in {}.\n",
+            o.sym(Quantity::Pressure),
+            o.sym(Quantity::Length)
+        ));
+        s
+    }
+
+    /// `report.json`: everything above, machine-readable.
+    pub fn json(&self, stats: Option<&SweepStats>) -> Result<Vec<u8>, ReportError> {
+        let o = self.out();
+        let flow = |q: Option<f64>| q.map(|q| round(o.flow(q), 4));
+        let pressure = |p: Option<f64>| p.map(|p| round(o.pressure(p), 4));
+        let doc = JsonReport {
+            schema_version: JSON_SCHEMA_VERSION,
+            generator: format!("firemain {}", self.version),
+            generated: self.generated.clone(),
+            units: JsonUnits {
+                flow: o.sym(Quantity::Flow),
+                pressure: o.sym(Quantity::Pressure),
+                length: o.sym(Quantity::Length),
+                velocity: o.sym(Quantity::Velocity),
+            },
+            network: self.network.name.clone(),
+            criteria: JsonCriteria {
+                name: self.criteria.name.clone(),
+                reference: self.criteria.reference.clone(),
+                residual_floor: round(o.pressure(self.criteria.residual_floor_kpa), 4),
+                scope: self.criteria.scope,
+                search_cap: round(o.flow(self.criteria.search_cap_m3s), 4),
+                max_velocity: self
+                    .criteria
+                    .max_velocity_m_per_s
+                    .map(|v| round(o.velocity(v), 4)),
+                service_min_pressure: round(o.pressure(self.criteria.service_min_kpa), 4),
+                service_max_pressure: round(o.pressure(self.criteria.service_max_kpa), 4),
+            },
+            demand_factors: JsonDemand {
+                max_day: self.network.demand_factors.max_day,
+                peak_hour: self.service.peak_hour_factor,
+                low_demand_condition: self.service.low_condition.name(),
+                low_demand: self.service.low_demand_factor,
+            },
+            summary: JsonSummary {
+                hydrants: self.results.len(),
+                pass: self.count(Outcome::Pass),
+                fail: self.count(Outcome::Fail),
+                error: self.count(Outcome::Error),
+                service_exceptions: self.service.exceptions().count(),
+                partial: self.partial,
+            },
+            hydrants: self
+                .results
+                .iter()
+                .map(|r| JsonHydrant {
+                    hydrant: self.hydrant_id(r).to_string(),
+                    junction: self.network.nodes[r.junction].id.clone(),
+                    zone: self.network.zone_name(r.junction).map(str::to_string),
+                    requirement: self.required_label(r),
+                    required_flow: round(o.flow(r.required_m3s), 4),
+                    available_flow: flow(r.available_m3s),
+                    static_pressure: pressure(r.static_kpa),
+                    residual_pressure: pressure(r.residual_kpa),
+                    min_pressure: pressure(r.min_pressure_kpa),
+                    min_pressure_junction: r
+                        .min_pressure_junction
+                        .map(|j| self.network.nodes[j].id.clone()),
+                    critical_junction: r
+                        .critical_junction
+                        .map(|j| self.network.nodes[j].id.clone()),
+                    critical_pipe: r.critical_link.map(|i| self.network.links[i].id.clone()),
+                    limited_by: r.limited_by.map(|l| l.name()),
+                    result: r.outcome.name(),
+                    notes: r.notes.iter().map(|n| self.note_text(n)).collect(),
+                })
+                .collect(),
+            service: self
+                .service
+                .rows
+                .iter()
+                .map(|r| JsonService {
+                    junction: self.network.nodes[r.junction].id.clone(),
+                    zone: self.network.zone_name(r.junction).map(str::to_string),
+                    pressure_peak_hour: pressure(r.peak_hour_kpa),
+                    pressure_low_demand: pressure(r.low_demand_kpa),
+                    result: r.result.name(),
+                })
+                .collect(),
+            service_notes: self.service.notes.clone(),
+            sweep: stats.map(|s| JsonStats {
+                solves: s.solves,
+                factorizations: s.factorizations,
+                factorizations_per_hydrant_mean: round(s.factorizations_per_hydrant_mean, 3),
+                factorizations_per_hydrant_max: s.factorizations_per_hydrant_max,
+            }),
+            cautions: CAUTIONS.to_vec(),
+        };
+        serde_json::to_vec_pretty(&doc).map_err(|e| ReportError::Render {
+            what: "report.json".into(),
+            message: e.to_string(),
+        })
+    }
+
+    /// All files of the check.
+    pub fn files(&self, stats: Option<&SweepStats>) -> Result<Vec<OutputFile>, ReportError> {
+        Ok(vec![
+            OutputFile {
+                name: "fireflow.csv".into(),
+                bytes: self.fireflow_csv()?,
+            },
+            OutputFile {
+                name: "service.csv".into(),
+                bytes: self.service_csv()?,
+            },
+            OutputFile {
+                name: "report.md".into(),
+                bytes: self.markdown().into_bytes(),
+            },
+            OutputFile {
+                name: "report.json".into(),
+                bytes: self.json(stats)?,
+            },
+        ])
+    }
+}
+
+/// Escapes a cell for a Markdown table.
+fn md(text: &str) -> String {
+    text.replace('|', "\\|").replace('\n', " ")
+}
+
+/// Rounds for JSON so that files do not carry solver noise in the last digits.
+fn round(v: f64, decimals: i32) -> f64 {
+    let k = 10f64.powi(decimals);
+    let r = (v * k).round() / k;
+    if r == 0.0 {
+        0.0
+    } else {
+        r
+    }
+}
+
+#[derive(Serialize)]
+struct JsonReport {
+    schema_version: u32,
+    generator: String,
+    generated: String,
+    units: JsonUnits,
+    network: String,
+    criteria: JsonCriteria,
+    demand_factors: JsonDemand,
+    summary: JsonSummary,
+    hydrants: Vec<JsonHydrant>,
+    service: Vec<JsonService>,
+    service_notes: Vec<String>,
+    /// Work counters; `null` unless --stats (they are not part of the result).
+    sweep: Option<JsonStats>,
+    cautions: Vec<&'static str>,
+}
+
+#[derive(Serialize)]
+struct JsonUnits {
+    flow: &'static str,
+    pressure: &'static str,
+    length: &'static str,
+    velocity: &'static str,
+}
+
+#[derive(Serialize)]
+struct JsonCriteria {
+    name: String,
+    reference: String,
+    residual_floor: f64,
+    scope: Scope,
+    search_cap: f64,
+    max_velocity: Option<f64>,
+    service_min_pressure: f64,
+    service_max_pressure: f64,
+}
+
+#[derive(Serialize)]
+struct JsonDemand {
+    max_day: f64,
+    peak_hour: f64,
+    low_demand_condition: &'static str,
+    low_demand: f64,
+}
+
+#[derive(Serialize)]
+struct JsonSummary {
+    hydrants: usize,
+    pass: usize,
+    fail: usize,
+    error: usize,
+    service_exceptions: usize,
+    partial: bool,
+}
+
+#[derive(Serialize)]
+struct JsonHydrant {
+    hydrant: String,
+    junction: String,
+    zone: Option<String>,
+    requirement: String,
+    required_flow: f64,
+    available_flow: Option<f64>,
+    static_pressure: Option<f64>,
+    residual_pressure: Option<f64>,
+    min_pressure: Option<f64>,
+    min_pressure_junction: Option<String>,
+    critical_junction: Option<String>,
+    critical_pipe: Option<String>,
+    limited_by: Option<&'static str>,
+    result: &'static str,
+    notes: Vec<String>,
+}
+
+#[derive(Serialize)]
+struct JsonService {
+    junction: String,
+    zone: Option<String>,
+    pressure_peak_hour: Option<f64>,
+    pressure_low_demand: Option<f64>,
+    result: &'static str,
+}
+
+#[derive(Serialize)]
+struct JsonStats {
+    solves: u64,
+    factorizations: u64,
+    factorizations_per_hydrant_mean: f64,
+    factorizations_per_hydrant_max: u32,
+}
