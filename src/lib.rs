@@ -12,6 +12,7 @@ pub mod report;
 pub mod service;
 pub mod steady;
 pub mod units;
+pub mod weakmains;
 
 /// The process exit status of every command, documented in `--help` and the README.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]

@@ -320,6 +320,7 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
     if let Some(bar) = &bar {
         bar.finish_and_clear();
     }
+    let weak = firemain::weakmains::weak_mains(net, &criteria, &results);
     let report = CheckReport {
         network: net,
         criteria: &criteria,
@@ -328,9 +329,11 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
         generated: analysis_date(),
         version: env!("CARGO_PKG_VERSION"),
         partial,
+        weak_mains: &weak,
     };
     print!("{}", report.summary());
     print!("{}", report.terminal_table());
+    print!("{}", report.terminal_weak_mains());
     if args.stats {
         eprintln!(
             "sweep: {} hydrants, {} solves, {} numeric factorizations ({:.2} per hydrant on average, {} at most), {:.2} s wall, {} thread(s)",

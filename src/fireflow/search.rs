@@ -257,6 +257,7 @@ pub fn analyse_hydrant(
         limited_by: None,
         outcome: Outcome::Error,
         notes: Vec::new(),
+        supply_paths: Vec::new(),
         solves: 0,
         factorizations: 0,
     };
@@ -308,6 +309,18 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
             None
         }
     };
+
+    // Weak mains, for a hydrant that fails at its required flow.
+    if let Some(p) = &at_required {
+        if !p.check.feasible() || required > cap {
+            result.supply_paths = crate::weakmains::supply_path_shares(
+                net,
+                &p.sol,
+                p.check.pressure_junction,
+                crate::weakmains::PIPES_PER_HYDRANT,
+            );
+        }
+    }
 
     // Constraints already violated without fire flow.
     if !base.check.feasible() {

@@ -14,6 +14,7 @@ use crate::hydraulics::LinkState;
 use crate::model::{LinkKind, Network};
 use crate::service::{ServiceReport, ServiceResult};
 use crate::units::Quantity;
+use crate::weakmains::{WeakMain, WeakReason};
 
 /// Version of the layout of `report.json`; raised on any incompatible change.
 pub const JSON_SCHEMA_VERSION: u32 = 1;
@@ -29,7 +30,14 @@ pub struct CheckReport<'a> {
     pub version: &'a str,
     /// Whether only some hydrants were analysed (`--hydrant`).
     pub partial: bool,
+    /// Mains that limit failing hydrants, ranked.
+    pub weak_mains: &'a [WeakMain],
 }
+
+/// Weak mains shown on the terminal and in report.md.
+const WEAK_MAINS_SHOWN: usize = 10;
+/// Supply-path pipes shown per failing hydrant in report.md.
+const SUPPLY_PIPES_SHOWN: usize = 5;
 
 impl CheckReport<'_> {
     fn out(&self) -> Out {
@@ -409,6 +417,150 @@ impl CheckReport<'_> {
         notes.join("; ")
     }
 
+    fn reason_text(&self, r: &WeakReason) -> String {
+        let o = self.out();
+        let l = o.sym(Quantity::Length);
+        match r {
+            WeakReason::HighUnitHeadloss { per_1000 } => format!(
+                "high unit head loss under fire flow ({} {l} per 1000 {l})",
+                num(*per_1000, 1)
+            ),
+            WeakReason::HighVelocity {
+                velocity_m_per_s,
+                limit_m_per_s,
+            } => format!(
+                "velocity {} {v} above {} {v}",
+                num(o.velocity(*velocity_m_per_s), 1),
+                num(o.velocity(*limit_m_per_s), 1),
+                v = o.sym(Quantity::Velocity)
+            ),
+            WeakReason::SmallDiameter {
+                diameter_m,
+                minimum_m,
+            } => format!(
+                "diameter {} {d} below the {} {d} minimum for mains serving hydrants",
+                num(o.diameter(*diameter_m), 1),
+                num(o.diameter(*minimum_m), 0),
+                d = o.sym(Quantity::Diameter)
+            ),
+            WeakReason::LowRoughnessCoefficient { c } => format!(
+                "very low Hazen-Williams C ({}): tuberculation or a partly closed valve?",
+                num(*c, 0)
+            ),
+        }
+    }
+
+    fn weak_main_row(&self, w: &WeakMain) -> Vec<String> {
+        let o = self.out();
+        let link = &self.network.links[w.link];
+        let (d, len, material) = match &link.kind {
+            LinkKind::Pipe(p) => (
+                p.diameter_m,
+                p.length_m,
+                p.material.clone().unwrap_or_default(),
+            ),
+            _ => (0.0, 0.0, String::new()),
+        };
+        vec![
+            link.id.clone(),
+            num(o.diameter(d), 1),
+            num(o.length(len), 0),
+            material,
+            w.hydrants_limited.to_string(),
+            format!("{}%", num(100.0 * w.worst_share, 0)),
+            num(w.worst_unit_headloss, 1),
+            num(o.velocity(w.max_velocity_m_per_s), 1),
+            w.reasons
+                .iter()
+                .map(|r| self.reason_text(r))
+                .collect::<Vec<_>>()
+                .join("; "),
+        ]
+    }
+
+    fn weak_main_header(&self) -> Vec<String> {
+        let o = self.out();
+        let l = o.sym(Quantity::Length);
+        vec![
+            "pipe".into(),
+            format!("diameter ({})", o.sym(Quantity::Diameter)),
+            format!("length ({l})"),
+            "material".into(),
+            "hydrants limited".into(),
+            "largest share".into(),
+            format!("unit head loss ({l}/1000 {l})"),
+            format!("velocity ({})", o.sym(Quantity::Velocity)),
+            "reasons".into(),
+        ]
+    }
+
+    /// The top weak mains for the terminal.
+    pub fn terminal_weak_mains(&self) -> String {
+        if self.weak_mains.is_empty() {
+            return String::new();
+        }
+        let mut b = Builder::default();
+        b.push_record(self.weak_main_header());
+        for w in self.weak_mains.iter().take(WEAK_MAINS_SHOWN) {
+            b.push_record(self.weak_main_row(w));
+        }
+        format!(
+            "\nWeak mains (pipes on the supply paths of failing hydrants, at their required flow; {} in all, see weak_mains.csv)\n{}\n",
+            self.weak_mains.len(),
+            b.build().with(Style::sharp())
+        )
+    }
+
+    /// `weak_mains.csv`.
+    pub fn weak_mains_csv(&self) -> Result<Vec<u8>, ReportError> {
+        let o = self.out();
+        let (d, l, v) = (
+            o.sfx(Quantity::Diameter),
+            o.sfx(Quantity::Length),
+            o.sfx(Quantity::Velocity),
+        );
+        let header: Vec<String> = vec![
+            "pipe".into(),
+            format!("diameter_{d}"),
+            format!("length_{l}"),
+            "material_or_class".into(),
+            "hydrants_limited".into(),
+            format!("worst_unit_headloss_{l}"),
+            format!("max_velocity_{v}"),
+            "reasons".into(),
+        ];
+        let rows: Vec<Vec<String>> = self
+            .weak_mains
+            .iter()
+            .map(|w| {
+                let link = &self.network.links[w.link];
+                let (dia, len, material) = match &link.kind {
+                    LinkKind::Pipe(p) => (
+                        p.diameter_m,
+                        p.length_m,
+                        p.material.clone().unwrap_or_default(),
+                    ),
+                    _ => (0.0, 0.0, String::new()),
+                };
+                vec![
+                    link.id.clone(),
+                    o.fmt(Quantity::Diameter, dia),
+                    o.fmt(Quantity::Length, len),
+                    material,
+                    w.hydrants_limited.to_string(),
+                    num(w.worst_unit_headloss, 2),
+                    o.fmt_precise(Quantity::Velocity, w.max_velocity_m_per_s),
+                    w.reasons
+                        .iter()
+                        .map(|r| self.reason_text(r))
+                        .collect::<Vec<_>>()
+                        .join("; "),
+                ]
+            })
+            .collect();
+        csv_bytes(&header, &rows)
+    }
+
     /// `report.md`: a document to attach to a permit application.
     pub fn markdown(&self) -> String {
         let net = self.network;
@@ -513,6 +665,55 @@ impl CheckReport<'_> {
                     "- **{}**: {}\n",
                     md(self.hydrant_id(r)),
                     md(&self.notes_text(r))
+                ));
+            }
+        }
+
+        if !self.weak_mains.is_empty() {
+            let o = self.out();
+            let l = o.sym(Quantity::Length);
+            s.push_str(&format!(
+                "\n## Weak mains\n\nPipes on the supply paths of failing hydrants, at their required flow, ranked by their share of the head lost between the sources and the lowest-pressure junction, summed over the failing hydrants they limit (the top {} of {}; all in weak_mains.csv).\n\n",
+                WEAK_MAINS_SHOWN.min(self.weak_mains.len()),
+                self.weak_mains.len()
+            ));
+            let header = self.weak_main_header();
+            s.push_str(&format!(
+                "| {} |\n|{}\n",
+                header.join(" | "),
+                "---|".repeat(header.len())
+            ));
+            for w in self.weak_mains.iter().take(WEAK_MAINS_SHOWN) {
+                let cells: Vec<String> = self.weak_main_row(w).iter().map(|c| md(c)).collect();
+                s.push_str(&format!("| {} |\n", cells.join(" | ")));
+            }
+            s.push_str(&format!(
+                "\nLargest shares of head loss per failing hydrant (pipe: share, {l} per 1000 {l}, {}):\n\n",
+                o.sym(Quantity::Velocity)
+            ));
+            for r in self.by_margin() {
+                if r.supply_paths.is_empty() {
+                    continue;
+                }
+                let pipes: Vec<String> = r
+                    .supply_paths
+                    .iter()
+                    .take(SUPPLY_PIPES_SHOWN)
+                    .map(|p| {
+                        format!(
+                            "{} ({}%, {}, {})",
+                            md(&self.network.links[p.link].id),
+                            num(100.0 * p.share, 0),
+                            num(p.unit_headloss, 1),
+                            num(o.velocity(p.velocity_m_per_s), 1)
+                        )
+                    })
+                    .collect();
+                s.push_str(&format!(
+                    "- **{}** (lowest pressure at {}): {}\n",
+                    md(self.hydrant_id(r)),
+                    md(&self.node_id(r.min_pressure_junction)),
+                    pipes.join(", ")
                 ));
             }
         }
@@ -635,6 +836,16 @@ impl CheckReport<'_> {
                     limited_by: r.limited_by.map(|l| l.name()),
                     result: r.outcome.name(),
                     notes: r.notes.iter().map(|n| self.note_text(n)).collect(),
+                    supply_paths: r
+                        .supply_paths
+                        .iter()
+                        .map(|p| JsonShare {
+                            pipe: self.network.links[p.link].id.clone(),
+                            share: round(p.share, 4),
+                            unit_headloss: round(p.unit_headloss, 4),
+                            velocity: round(o.velocity(p.velocity_m_per_s), 4),
+                        })
+                        .collect(),
                 })
                 .collect(),
             service: self
@@ -647,6 +858,18 @@ impl CheckReport<'_> {
                     pressure_peak_hour: pressure(r.peak_hour_kpa),
                     pressure_low_demand: pressure(r.low_demand_kpa),
                     result: r.result.name(),
+                })
+                .collect(),
+            weak_mains: self
+                .weak_mains
+                .iter()
+                .map(|w| JsonWeakMain {
+                    pipe: self.network.links[w.link].id.clone(),
+                    hydrants_limited: w.hydrants_limited,
+                    worst_share: round(w.worst_share, 4),
+                    worst_unit_headloss: round(w.worst_unit_headloss, 4),
+                    max_velocity: round(o.velocity(w.max_velocity_m_per_s), 4),
+                    reasons: w.reasons.iter().map(|r| self.reason_text(r)).collect(),
                 })
                 .collect(),
             service_notes: self.service.notes.clone(),
@@ -674,6 +897,10 @@ impl CheckReport<'_> {
             OutputFile {
                 name: "service.csv".into(),
                 bytes: self.service_csv()?,
+            },
+            OutputFile {
+                name: "weak_mains.csv".into(),
+                bytes: self.weak_mains_csv()?,
             },
             OutputFile {
                 name: "report.md".into(),
@@ -715,6 +942,7 @@ struct JsonReport {
     summary: JsonSummary,
     hydrants: Vec<JsonHydrant>,
     service: Vec<JsonService>,
+    weak_mains: Vec<JsonWeakMain>,
     service_notes: Vec<String>,
     /// Work counters; `null` unless --stats (they are not part of the result).
     sweep: Option<JsonStats>,
@@ -776,6 +1004,27 @@ struct JsonHydrant {
     limited_by: Option<&'static str>,
     result: &'static str,
     notes: Vec<String>,
+    /// Failing hydrants: supply-path pipes by share of head loss (unit head loss per 1000
+    /// length units).
+    supply_paths: Vec<JsonShare>,
+}
+
+#[derive(Serialize)]
+struct JsonShare {
+    pipe: String,
+    share: f64,
+    unit_headloss: f64,
+    velocity: f64,
+}
+
+#[derive(Serialize)]
+struct JsonWeakMain {
+    pipe: String,
+    hydrants_limited: usize,
+    worst_share: f64,
+    worst_unit_headloss: f64,
+    max_velocity: f64,
+    reasons: Vec<String>,
 }
 
 #[derive(Serialize)]
