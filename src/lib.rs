@@ -12,6 +12,7 @@ pub mod report;
 pub mod service;
 pub mod steady;
 pub mod units;
+pub mod upsizing;
 pub mod weakmains;
 
 /// The process exit status of every command, documented in `--help` and the README.

@@ -57,6 +57,39 @@ enum Command {
         #[arg(long)]
         stats: bool,
     },
+    /// Propose the cheapest main upsizings that make failing hydrants pass.
+    #[command(after_help = EXIT_CODES)]
+    Upsize {
+        /// Network folder.
+        network: PathBuf,
+        /// Criteria set (TOML).
+        #[arg(long)]
+        criteria: PathBuf,
+        /// Candidate diameters in the network's diameter unit, comma-separated
+        /// (default: 6,8,10,12,14,16,18,20,24 in, or 150,...,600 mm).
+        #[arg(long, value_delimiter = ',')]
+        sizes: Option<Vec<f64>>,
+        /// Cost table: CSV with columns diameter, cost_per_length (network units). Without it,
+        /// length x diameter is used as a cost proxy.
+        #[arg(long)]
+        costs: Option<PathBuf>,
+        /// Consider only this hydrant (repeatable).
+        #[arg(long = "hydrant", value_name = "ID")]
+        hydrants: Vec<String>,
+        /// Largest total cost (cost-table units, or the proxy's units).
+        #[arg(long)]
+        budget: Option<f64>,
+        /// Write upsize_plan.csv, upsize_hydrants.csv, weak_mains_after.csv, upsize_report.md and
+        /// proposed-network/ here.
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// Worker threads (default: all cores).
+        #[arg(long)]
+        threads: Option<usize>,
+        /// No progress messages on stderr.
+        #[arg(long)]
+        quiet: bool,
+    },
     /// Solve the steady state at one demand condition.
     #[command(after_help = EXIT_CODES)]
     Solve {
@@ -99,6 +132,27 @@ fn main() -> ExitCode {
             condition,
             out,
         } => solve_command(&network, condition.into(), out.as_deref()),
+        Command::Upsize {
+            network,
+            criteria,
+            sizes,
+            costs,
+            hydrants,
+            budget,
+            out,
+            threads,
+            quiet,
+        } => upsize_command(&UpsizeArgs {
+            network,
+            criteria,
+            sizes,
+            costs,
+            hydrants,
+            budget,
+            out,
+            threads,
+            quiet,
+        }),
         Command::Check {
             network,
             criteria,
@@ -370,5 +424,224 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
         ExitStatus::Findings
     } else {
         ExitStatus::Success
+    }
+}
+
+struct UpsizeArgs {
+    network: PathBuf,
+    criteria: PathBuf,
+    sizes: Option<Vec<f64>>,
+    costs: Option<PathBuf>,
+    hydrants: Vec<String>,
+    budget: Option<f64>,
+    out: Option<PathBuf>,
+    threads: Option<usize>,
+    quiet: bool,
+}
+
+/// The input network's files, to copy into the proposed network's folder.
+fn network_files(dir: &std::path::Path) -> std::io::Result<Vec<(String, Vec<u8>)>> {
+    let mut out = Vec::new();
+    for name in [
+        "model.toml",
+        "junctions.csv",
+        "sources.csv",
+        "pipes.csv",
+        "hydrants.csv",
+        "pumps.csv",
+        "valves.csv",
+    ] {
+        let path = dir.join(name);
+        if path.exists() {
+            out.push((name.to_string(), std::fs::read(&path)?));
+        }
+    }
+    Ok(out)
+}
+
+fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
+    use firemain::criteria::load_criteria;
+    use firemain::fireflow::Outcome;
+    use firemain::model::costs::load_cost_table;
+    use firemain::report::check::CheckReport;
+    use firemain::report::upsize::UpsizeReport;
+    use firemain::service::service_check;
+    use firemain::units::{Quantity, UnitSystem};
+    use firemain::upsizing::{
+        plan_upsizing, CostModel, Progress, UpsizeConfig, DEFAULT_SIZES_IN, DEFAULT_SIZES_MM,
+    };
+
+    let Some(loaded) = load(&args.network) else {
+        return ExitStatus::InputError;
+    };
+    let net = &loaded.network;
+    let criteria = match load_criteria(&args.criteria, net) {
+        Ok(c) => c,
+        Err(diags) => {
+            eprint!("{}", report::validate::diagnostics(&diags));
+            eprintln!("firemain: the criteria have errors; nothing was analysed");
+            return ExitStatus::InputError;
+        }
+    };
+    let mut selected = Vec::new();
+    for id in &args.hydrants {
+        match net.hydrant_by_id(id) {
+            Some(h) => selected.push(h),
+            None => {
+                eprintln!("firemain: --hydrant {id}: no hydrant with this id in hydrants.csv (ids are compared exactly)");
+                return ExitStatus::InputError;
+            }
+        }
+    }
+    if args.threads == Some(0) {
+        eprintln!("firemain: --threads must be at least 1");
+        return ExitStatus::InputError;
+    }
+    let units = net.units;
+    let given: Vec<f64> = match &args.sizes {
+        Some(v) => v.clone(),
+        None => match units {
+            UnitSystem::Us => DEFAULT_SIZES_IN.to_vec(),
+            UnitSystem::Si => DEFAULT_SIZES_MM.to_vec(),
+        },
+    };
+    if given.is_empty() || given.iter().any(|d| !(d.is_finite() && *d > 0.0)) {
+        eprintln!(
+            "firemain: --sizes must be positive diameters in {}, comma-separated",
+            units.symbol(Quantity::Diameter)
+        );
+        return ExitStatus::InputError;
+    }
+    let mut sizes_m: Vec<f64> = given
+        .iter()
+        .map(|d| units.to_si(Quantity::Diameter, *d))
+        .collect();
+    sizes_m.sort_by(f64::total_cmp);
+    sizes_m.dedup_by(|a, b| (*a - *b).abs() < 1e-9);
+    let costs = match &args.costs {
+        Some(path) => match load_cost_table(path, units) {
+            Ok(table) => {
+                let missing: Vec<String> = sizes_m
+                    .iter()
+                    .filter(|&&d| !table.iter().any(|(t, _)| (t - d).abs() < 1e-6 * d))
+                    .map(|&d| report::num(units.from_si(Quantity::Diameter, d), 1))
+                    .collect();
+                if !missing.is_empty() {
+                    eprintln!(
+                        "firemain: {}: no cost for the candidate size(s) {} {}; add a row for each, or choose --sizes that the table prices",
+                        path.display(),
+                        missing.join(", "),
+                        units.symbol(Quantity::Diameter)
+                    );
+                    return ExitStatus::InputError;
+                }
+                CostModel::Table(table)
+            }
+            Err(diags) => {
+                eprint!("{}", report::validate::diagnostics(&diags));
+                return ExitStatus::InputError;
+            }
+        },
+        None => CostModel::LengthTimesDiameter,
+    };
+    if let Some(b) = args.budget {
+        if !(b.is_finite() && b > 0.0) {
+            eprintln!("firemain: --budget must be a positive number");
+            return ExitStatus::InputError;
+        }
+    }
+    let config = UpsizeConfig {
+        sizes_m,
+        costs: costs.clone(),
+        hydrants: (!selected.is_empty()).then(|| selected.clone()),
+        budget: args.budget,
+        threads: args.threads,
+    };
+    let spinner = (!args.quiet && {
+        use std::io::IsTerminal;
+        std::io::stderr().is_terminal()
+    })
+    .then(|| {
+        let s = indicatif::ProgressBar::new_spinner();
+        s.enable_steady_tick(std::time::Duration::from_millis(200));
+        s
+    });
+    let progress = |p: Progress| {
+        if let Some(s) = &spinner {
+            s.set_message(match p {
+                Progress::Initial => "checking the existing network".to_string(),
+                Progress::Round { round, failing } => {
+                    format!("round {round}: {failing} targeted hydrant(s) still failing")
+                }
+                Progress::Pruning { index, of } => format!("pruning: upsizing {index} of {of}"),
+                Progress::Verifying => "verifying the proposal".to_string(),
+            });
+        }
+    };
+    let plan = match plan_upsizing(net, &criteria, &config, &progress) {
+        Ok(p) => p,
+        Err(e) => {
+            eprintln!("firemain: {e}");
+            return ExitStatus::AnalysisError;
+        }
+    };
+    if let Some(s) = &spinner {
+        s.finish_and_clear();
+    }
+    let service = match Hydraulics::new(&plan.proposed).and_then(|h| service_check(&h, &criteria)) {
+        Ok(s) => s,
+        Err(e) => {
+            eprintln!("firemain: service-pressure conditions of the proposed network: {e}");
+            return ExitStatus::AnalysisError;
+        }
+    };
+    let weak_after = firemain::weakmains::weak_mains(&plan.proposed, &criteria, &plan.after);
+    let generated = analysis_date();
+    let after = CheckReport {
+        network: &plan.proposed,
+        criteria: &criteria,
+        results: &plan.after,
+        service: &service,
+        generated: generated.clone(),
+        version: env!("CARGO_PKG_VERSION"),
+        partial: !selected.is_empty(),
+        weak_mains: &weak_after,
+    };
+    let report = UpsizeReport {
+        network: net,
+        plan: &plan,
+        costs: &costs,
+        after: &after,
+        generated,
+        version: env!("CARGO_PKG_VERSION"),
+    };
+    print!("{}", report.terminal());
+    if let Some(out) = &args.out {
+        let written = network_files(&args.network)
+            .map_err(|e| report::ReportError::Write {
+                path: args.network.clone(),
+                source: e,
+            })
+            .and_then(|files| report.files(files))
+            .and_then(|files| write_outputs(out, &args.network, &files));
+        match written {
+            Ok(paths) => {
+                if !args.quiet {
+                    for p in paths {
+                        eprintln!("wrote {}", p.display());
+                    }
+                }
+            }
+            Err(e) => {
+                eprintln!("firemain: {e}");
+                return ExitStatus::AnalysisError;
+            }
+        }
+    }
+    let all_pass = plan.after.iter().all(|r| r.outcome == Outcome::Pass);
+    if all_pass {
+        ExitStatus::Success
+    } else {
+        ExitStatus::Findings
     }
 }

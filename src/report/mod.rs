@@ -6,6 +6,7 @@
 
 pub mod check;
 pub mod solve;
+pub mod upsize;
 pub mod validate;
 
 use std::io::Write;
@@ -57,6 +58,12 @@ pub fn write_outputs(
     let mut written = Vec::new();
     for f in files {
         let path = dir.join(&f.name);
+        if let Some(parent) = path.parent() {
+            std::fs::create_dir_all(parent).map_err(|source| ReportError::CreateDir {
+                path: parent.to_path_buf(),
+                source,
+            })?;
+        }
         write_atomically(&path, &f.bytes)?;
         written.push(path);
     }
@@ -103,6 +110,16 @@ pub fn num(value: f64, decimals: usize) -> String {
     } else {
         String::new()
     }
+}
+
+/// A number for an input file: the shortest text that reads back to the value rounded to
+/// nine decimals (so that 8 in converted to metres and back is written `8`).
+pub fn plain_number(value: f64) -> String {
+    if !value.is_finite() {
+        return String::new();
+    }
+    let rounded = (value * 1e9).round() / 1e9;
+    format!("{}", if rounded == 0.0 { 0.0 } else { rounded })
 }
 
 /// Conversions and labels for output in a network's units.
