@@ -3,7 +3,7 @@
 
 Cedar Hollow is an invented town: no real place, utility or data set. Every
 number here is made up for the demo, chosen to look like an ordinary small US
-system (about 10,000 people). Do not use it as a check value.
+system (about 10,500 people). Do not use it as a check value.
 
 Standard library only; deterministic (fixed seed), so re-running gives the
 same files byte for byte:
@@ -15,22 +15,27 @@ pumps.csv and valves.csv beside this script. Units: us (ft, in, gpm, psi);
 head loss: Hazen-Williams (roughness = C factor).
 
 Layout (x east, y north, ft). Street grid of 360 ft x 330 ft blocks, grid
-column i (x = 360 i) and row j (y = 330 j):
-  main zone  i 5-20, j 0-9 (and the older south-west blocks i 1-4, j 0-6):
+column i (x = 360 i) and row j (y = 330 j); junction ids J-iijj:
+  main zone  i 5-20, j 0-9 (and the older westside blocks i 1-4, j 0-6):
              gravity zone fed by the Pine Ridge reservoir R-1 (south-east)
-             and the elevated tank T-1 (west side); 12-16 in loop around it.
-  downtown   i 9-13, j 3-6: 1900s unlined cast iron, 4 in and 6 in, low C.
-  old town   i 7-15, j 2-7 around downtown: unlined cast iron 6 in.
-  industry   i 16-20, j 0-3: ductile iron 8-12 in on the 16 in loop.
+             and the elevated tank T-1 (south-west); 12-16 in loop on
+             i = 5, i = 20, j = 0 and j = 8. Orchard Heights (i 10-12,
+             j 8-9) is its high spot.
+  downtown   i 9-13, j 3-6: 1890s-1910s unlined cast iron, C 55; 6 in on
+             Main Street (j = 5), 4 in elsewhere.
+  old town   i 7-15, j 1-7 around downtown: unlined cast iron, 6 in
+             east-west and 4 in cross streets. Depot Street: 6 in dead end.
+  industry   i 16-20, j 0-3: ductile iron 8-10 in on the 16 in loop.
   high zone  Knob Hill, i 11-20, j 10-15: pumped from R-1 by pump station
              PS-1 (duty pump PU-1, standby PU-2, check valve CV-1), with the
              hilltop tank T-2.
   low zone   Cedar Creek bottoms, i 0-4, j 7-15: fed from the high zone down
-             Bluff Road through the pressure-reducing valve PRV-1.
+             Bluff Road (J-B1..J-B5) through the pressure-reducing valve PRV-1.
   boundary   BV-1 (Creek Road, main/low) and BV-2 (Knob Hill Road,
              main/high): closed valves.
   dead end   Quarry Road: a 6 in main running 2,500 ft south-west out of the
              grid to the gravel yard.
+See README.md for what the checks find.
 """
 
 import math
@@ -434,7 +439,7 @@ hyd.append(("J-D2", "commercial", None))     # feed mill, end of Depot Street
 hyd.append(("J-Q2", "residential", None))
 hyd.append(("J-Q4", "residential", None))
 hyd.append(("J-Q6", "industrial", None))
-# residential hydrants about every other intersection, staggered
+# residential hydrants at one intersection in five, staggered (roughly 500-800 ft apart)
 for j in range(0, 16):
     for i in range(0, 21):
         nid = gid(i, j)
