@@ -236,6 +236,7 @@ pub fn analyse_hydrant(
     // Each hydrant starts from a clean factorization state, so that its result does not depend
     // on the hydrants the same thread analysed before.
     ws.forget_factor();
+    ws.set_tolerance(crate::hydraulics::Tolerance::SEARCH);
     if let Some(snapshot) = &setup.base_factor {
         ws.restore(snapshot);
     }

@@ -3,10 +3,12 @@
 //!
 //! Zero and near-zero flows: Hazen-Williams and the minor-loss term have dφ/dQ → 0 as Q → 0,
 //! which would make the conductance 1/(dφ/dQ) infinite (a documented failure of the gradient
-//! algorithm; Elhay & Simpson, J. Hydraul. Eng. 137(10), 2011). Below a small flow Q₀ the law is
-//! replaced by its chord through the origin, φ(Q) = φ(Q₀)/Q₀ · Q, which is continuous at Q₀,
-//! keeps the matrix positive definite and changes heads by less than φ(Q₀) (micrometres).
-//! The same linearisation is used for pump curves near zero flow.
+//! algorithm; Elhay & Simpson, J. Hydraul. Eng. 137(10), 2011). Below a small flow Q₀ each
+//! power term c·|Q|^(p−1)·Q is replaced by the odd cubic a·Q + b·Q³ that matches its value and
+//! slope at Q₀ (a = c·Q₀^(p−1)·(3−p)/2, b = c·Q₀^(p−3)·(p−1)/2). The law stays continuously
+//! differentiable, which keeps Newton's steps steady where loop flows hover around zero, its
+//! slope at zero is positive, which keeps the matrix positive definite, and heads change by
+//! less than c·Q₀^p (a fraction of a millimetre). Pump curves are linearised near zero flow.
 
 use super::headloss::{
     darcy_friction, darcy_weisbach_coefficient, hazen_williams_resistance, minor_loss_coefficient,
@@ -14,8 +16,36 @@ use super::headloss::{
 };
 use crate::model::{HeadlossFormula, Link, LinkKind, ValveKind};
 
-/// Flow below which a link law is linearised, m³/s (1e-6 m³/s = 0.016 gpm).
-pub const ZERO_FLOW_M3S: f64 = 1.0e-6;
+/// Flow below which a power law is replaced by its cubic, m³/s (1e-4 m³/s = 1.6 gpm).
+pub const ZERO_FLOW_M3S: f64 = 1.0e-4;
+
+/// φ and dφ/dQ of c·|Q|^(p−1)·Q, smoothed below [`ZERO_FLOW_M3S`].
+fn smoothed_power(c: f64, p: f64, q: f64) -> (f64, f64) {
+    let e = ZERO_FLOW_M3S;
+    let a = q.abs();
+    if a < e {
+        let lin = c * e.powf(p - 1.0) * (3.0 - p) / 2.0;
+        let cub = c * e.powf(p - 3.0) * (p - 1.0) / 2.0;
+        (lin * q + cub * q * q * q, lin + 3.0 * cub * q * q)
+    } else {
+        let k = c * a.powf(p - 1.0);
+        (k * q, p * k)
+    }
+}
+
+/// ∫₀^q of [`smoothed_power`].
+fn smoothed_power_content(c: f64, p: f64, q: f64) -> f64 {
+    let e = ZERO_FLOW_M3S;
+    let a = q.abs();
+    let lin = c * e.powf(p - 1.0) * (3.0 - p) / 2.0;
+    let cub = c * e.powf(p - 3.0) * (p - 1.0) / 2.0;
+    let inner = |x: f64| 0.5 * lin * x * x + 0.25 * cub * x.powi(4);
+    if a < e {
+        inner(a)
+    } else {
+        inner(e) + c * (a.powf(p + 1.0) - e.powf(p + 1.0)) / (p + 1.0)
+    }
+}
 
 /// Smallest slope dφ/dQ of a conducting link, s/m². Caps the conductance of links with no loss
 /// at all (zero-length pipes, loss-free open valves) at 1e6 m²/s: 1 m³/s through it loses 1 µm.
@@ -98,14 +128,9 @@ impl LinkLaw {
     pub fn evaluate(&self, q: f64) -> (f64, f64) {
         let (phi, slope) = match *self {
             LinkLaw::HazenWilliams { r, m } => {
-                let a = q.abs().max(ZERO_FLOW_M3S);
-                let hw = r * a.powf(HW_FLOW_EXPONENT - 1.0);
-                if q.abs() < ZERO_FLOW_M3S {
-                    let k = hw + m * a;
-                    (k * q, k)
-                } else {
-                    ((hw + m * a) * q, HW_FLOW_EXPONENT * hw + 2.0 * m * a)
-                }
+                let (f1, s1) = smoothed_power(r, HW_FLOW_EXPONENT, q);
+                let (f2, s2) = smoothed_power(m, 2.0, q);
+                (f1 + f2, s1 + s2)
             }
             LinkLaw::DarcyWeisbach {
                 d,
@@ -113,26 +138,17 @@ impl LinkLaw {
                 relative_roughness,
                 m,
             } => {
-                let a = q.abs().max(ZERO_FLOW_M3S);
+                // Friction is laminar (linear in Q) near zero flow, so it needs no smoothing;
+                // the floor only avoids Re = 0.
+                let a = q.abs().max(1e-12);
                 let re = reynolds_number(a, diameter_m);
                 let (f, df_dre) = darcy_friction(re, relative_roughness);
-                if q.abs() < ZERO_FLOW_M3S {
-                    let k = (f * d + m) * a;
-                    (k * q, k)
-                } else {
-                    // d/dQ [f(Re(Q))·d·Q²] = d·(2fQ + Q²·f'·Re/Q) for Re ∝ Q.
-                    let slope = d * (2.0 * f * a + df_dre * re * a) + 2.0 * m * a;
-                    ((f * d + m) * a * q, slope)
-                }
+                // d/dQ [f(Re(Q))·d·Q²] = d·(2fQ + Q²·f'·Re/Q) for Re ∝ Q.
+                let slope = d * a * (2.0 * f + df_dre * re);
+                let (mf, ms) = smoothed_power(m, 2.0, q);
+                (f * d * a * q + mf, slope + ms)
             }
-            LinkLaw::MinorLoss { m } => {
-                let a = q.abs().max(ZERO_FLOW_M3S);
-                if q.abs() < ZERO_FLOW_M3S {
-                    (m * a * q, m * a)
-                } else {
-                    (m * a * q, 2.0 * m * a)
-                }
-            }
+            LinkLaw::MinorLoss { m } => smoothed_power(m, 2.0, q),
             LinkLaw::Pump {
                 shutoff_m,
                 b,
@@ -163,15 +179,7 @@ impl LinkLaw {
     /// which is close enough to compare two nearby flows.)
     pub fn content(&self, q: f64) -> f64 {
         let a = q.abs();
-        let e = ZERO_FLOW_M3S;
-        // ∫ of a law c·|x|^(p−1)·x that is linear (slope c·e^(p−1)) below e.
-        let power = |c: f64, p: f64| -> f64 {
-            if a < e {
-                0.5 * c * e.powf(p - 1.0) * a * a
-            } else {
-                0.5 * c * e.powf(p + 1.0) + c * (a.powf(p + 1.0) - e.powf(p + 1.0)) / (p + 1.0)
-            }
-        };
+        let power = |c: f64, p: f64| smoothed_power_content(c, p, q);
         match *self {
             LinkLaw::HazenWilliams { r, m } => power(r, HW_FLOW_EXPONENT) + power(m, 2.0),
             LinkLaw::DarcyWeisbach {
@@ -180,9 +188,9 @@ impl LinkLaw {
                 relative_roughness,
                 m,
             } => {
-                let re = reynolds_number(a.max(e), diameter_m);
+                let re = reynolds_number(a.max(1e-12), diameter_m);
                 let (f, _) = darcy_friction(re, relative_roughness);
-                power(f * d + m, 2.0)
+                f * d * a.powi(3) / 3.0 + power(m, 2.0)
             }
             LinkLaw::MinorLoss { m } => power(m, 2.0),
             LinkLaw::Pump {

@@ -8,7 +8,7 @@ pub mod laws;
 pub mod solver;
 
 pub use controls::LinkState;
-pub use solver::{FactorSnapshot, Hydraulics, Solution, SolveRequest, Workspace};
+pub use solver::{FactorSnapshot, Hydraulics, Solution, SolveRequest, Tolerance, Workspace};
 
 use thiserror::Error;
 

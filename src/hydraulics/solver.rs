@@ -26,19 +26,40 @@ use super::SolveError;
 use crate::model::{LinkKind, Network, ValveKind};
 use crate::units::head_m_from_pressure_kpa;
 
-/// Largest head change of the last step for convergence, m (1e-5 m = 0.000014 psi; pressures
-/// are then converged far inside the 0.01 psi that reports show).
-pub const HEAD_TOL_M: f64 = 1.0e-5;
-/// Largest flow change of the last step for convergence, m³/s (0.0016 gpm).
-pub const FLOW_TOL_M3S: f64 = 1.0e-7;
+/// When a solve has converged: the largest head and flow changes of the last step.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Tolerance {
+    pub head_m: f64,
+    pub flow_m3s: f64,
+}
+
+impl Tolerance {
+    /// For reported steady states: 1e-5 m (0.000014 psi) and 1e-6 m³/s (0.016 gpm). The
+    /// steps shrink at least twofold near convergence (or the factorization is renewed), so
+    /// the remaining error is below the last step: pressures are converged far inside the
+    /// 0.01 psi that reports show.
+    pub const STEADY: Tolerance = Tolerance {
+        head_m: 1.0e-5,
+        flow_m3s: 1.0e-6,
+    };
+    /// For the many solves of a fire-flow search: 5e-4 m (0.0007 psi), still well inside the
+    /// 0.01 psi resolution of a residual pressure, and 1e-4 m³/s (1.6 gpm) on link flows (the
+    /// fire flow itself is a demand, exact whatever the tolerance).
+    pub const SEARCH: Tolerance = Tolerance {
+        head_m: 5.0e-4,
+        flow_m3s: 1.0e-4,
+    };
+}
 /// Iterations allowed per solve, all state changes included.
 pub const MAX_ITERATIONS: u32 = 200;
 /// Reuse the factorization only while the head step is below this, m ...
-const CHORD_MAX_STEP_M: f64 = 0.05;
+const CHORD_MAX_STEP_M: f64 = 1.0;
 /// ... and each step shrinks the previous one at least by this factor.
-const CHORD_MAX_RATIO: f64 = 0.2;
+const CHORD_MAX_RATIO: f64 = 0.3;
 /// Head steps above this (m) are checked by a line search on the content merit function.
 const LINE_SEARCH_MIN_STEP_M: f64 = 0.1;
+/// Relative round-off allowed in the line search's merit comparison.
+const MERIT_ROUNDOFF: f64 = 1.0e-12;
 /// Halvings of the step the line search tries.
 const LINE_SEARCH_HALVINGS: u32 = 6;
 /// Initial flow velocity of a cold start, m/s (a common starting guess, about 1 ft/s).
@@ -91,6 +112,7 @@ pub struct Workspace {
     /// The fixed-head junction and link states the current factorization was made for; a
     /// later solve with the same ones may start with chord steps on it.
     factor_key: Option<(Option<usize>, Vec<LinkState>)>,
+    tolerance: Tolerance,
 }
 
 /// A copy of a workspace's factorization, to start other workspaces from (the fire-flow sweep
@@ -118,6 +140,11 @@ impl Workspace {
         self.factor.set_values(&snapshot.l_values);
         self.g_factored.copy_from_slice(&snapshot.g_factored);
         self.factor_key = Some(snapshot.key.clone());
+    }
+
+    /// Sets the convergence tolerance of later solves (default [`Tolerance::STEADY`]).
+    pub fn set_tolerance(&mut self, tolerance: Tolerance) {
+        self.tolerance = tolerance;
     }
 
     /// Forgets the current factorization, so that the next solve starts with a fresh one.
@@ -288,6 +315,7 @@ impl<'n> Hydraulics<'n> {
             demand: vec![0.0; nj],
             pinned: vec![None; nj],
             factor_key: None,
+            tolerance: Tolerance::STEADY,
         }
     }
 
@@ -490,6 +518,7 @@ impl<'n> Hydraulics<'n> {
                     }
                 }
             }
+            let factored_now = need_factor;
             if need_factor {
                 ws.factor_key = None;
                 ws.factor
@@ -523,7 +552,16 @@ impl<'n> Hydraulics<'n> {
                 ws.flow_step[i] = ws.known[i] + g * (da - db);
             }
             let alpha = if !continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M {
-                self.line_search(ws, &flows, &states)
+                match self.line_search(ws, &flows, &states, factored_now) {
+                    Some(alpha) => alpha,
+                    None => {
+                        // A chord step on a stale factorization that does not descend:
+                        // discard it and take a Newton step instead.
+                        need_factor = true;
+                        previous_step = f64::INFINITY;
+                        continue;
+                    }
+                }
             } else {
                 1.0
             };
@@ -564,11 +602,14 @@ impl<'n> Hydraulics<'n> {
                 };
                 step_q = step_q.max((flows[i] - old).abs());
             }
+            if std::env::var("FM_TRACE").is_ok() {
+                eprintln!("    it {iteration} alpha {alpha:.3} step_h {step_h:.3e} step_q {step_q:.3e} factored {need_factor}");
+            }
             let ratio = step_h / previous_step;
             previous_step = step_h;
             need_factor = step_h > CHORD_MAX_STEP_M || ratio > CHORD_MAX_RATIO;
 
-            if step_h < HEAD_TOL_M && step_q < FLOW_TOL_M3S {
+            if step_h < ws.tolerance.head_m && step_q < ws.tolerance.flow_m3s {
                 // Converged for these states: apply the switching rules.
                 let mut changed = false;
                 for i in 0..nl {
@@ -603,6 +644,9 @@ impl<'n> Hydraulics<'n> {
                     }
                 }
                 if !changed {
+                    if std::env::var("FM_TRACE").is_ok() {
+                        eprintln!("  solved: {iteration} it {factorizations} fact");
+                    }
                     let fixed_head_outflow_m3s = request
                         .fixed_head
                         .map(|(j, _)| self.imbalance(j, &flows, &ws.demand));
@@ -626,8 +670,15 @@ impl<'n> Hydraulics<'n> {
     }
 
     /// Step length in (0, 1] along `ws.flow_step` that does not increase the content merit
-    /// function (Σ link contents − Σ fixed grade × outflow), by halving.
-    fn line_search(&self, ws: &Workspace, flows: &[f64], states: &[LinkState]) -> f64 {
+    /// function (Σ link contents − Σ fixed grade × outflow), by halving after a Newton step;
+    /// `None` after a chord step whose full length increases it.
+    fn line_search(
+        &self,
+        ws: &Workspace,
+        flows: &[f64],
+        states: &[LinkState],
+        newton: bool,
+    ) -> Option<f64> {
         let merit = |alpha: f64| -> f64 {
             let mut total = 0.0;
             for (i, l) in self.net.links.iter().enumerate() {
@@ -646,14 +697,20 @@ impl<'n> Hydraulics<'n> {
             total
         };
         let start = merit(0.0);
+        // Round-off allowance: on a tree the flows follow from continuity alone and the merit
+        // does not change along the step, so an exact comparison would be decided by noise.
+        let allowed = start + MERIT_ROUNDOFF * start.abs().max(1.0);
         let mut alpha = 1.0;
         for _ in 0..LINE_SEARCH_HALVINGS {
-            if merit(alpha) <= start {
-                return alpha;
+            if merit(alpha) <= allowed {
+                return Some(alpha);
+            }
+            if !newton {
+                return None;
             }
             alpha *= 0.5;
         }
-        alpha
+        Some(alpha)
     }
 
     /// The head of a node that is fixed in the current state (source or pinned junction).
