@@ -9,7 +9,7 @@ use std::path::Path;
 use serde::Deserialize;
 use toml::Spanned;
 
-use crate::model::toml_input::{line_and_column, read_toml};
+use crate::model::toml_input::{read_toml, span_location};
 use crate::model::{Diagnostics, Location, Network};
 use crate::units::{Quantity, UnitSystem};
 
@@ -125,20 +125,16 @@ impl Criteria {
 pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics> {
     let file = path.display().to_string();
     let mut diags = Diagnostics::new();
-    let text = std::fs::read_to_string(path).unwrap_or_default();
-    let parsed: Option<CriteriaFile> = read_toml(
+    let parsed: Option<(CriteriaFile, String)> = read_toml(
         path,
         &file,
         "see docs/criteria-format.md for the keys of a criteria file",
         &mut diags,
     );
-    let Some(c) = parsed else {
+    let Some((c, text)) = parsed else {
         return Err(diags);
     };
-    let at = |span: std::ops::Range<usize>| {
-        let (line, column) = line_and_column(&text, span.start);
-        Location::cell(file.clone(), line, column)
-    };
+    let at = |span: std::ops::Range<usize>| span_location(&file, &text, span);
     let units = *c.units.get_ref();
     if units != net.units {
         diags.error(
@@ -149,7 +145,7 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
                 net.units.name()
             ),
             format!(
-                "use a criteria set written in \"{}\" units (e.g. the SI twin of this set)",
+                "use a criteria set written in \"{}\" units (each shipped set has a twin in the other units)",
                 net.units.name()
             ),
         );

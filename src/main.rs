@@ -123,6 +123,26 @@ impl From<ConditionArg> for Condition {
     }
 }
 
+/// Writes to stdout; a closed pipe (e.g. `firemain validate NET | head`) is not an error.
+fn emit(text: impl AsRef<str>) {
+    use std::io::Write;
+    let _ = std::io::stdout().lock().write_all(text.as_ref().as_bytes());
+}
+
+/// Refuses an output folder that is the network folder, before any analysis runs.
+fn output_folder_ok(out: Option<&std::path::Path>, network: &std::path::Path) -> bool {
+    match out {
+        Some(out) if report::is_same_folder(out, network) => {
+            eprintln!(
+                "firemain: --out {} is the network folder; choose another folder so that no input file can be overwritten",
+                out.display()
+            );
+            false
+        }
+        _ => true,
+    }
+}
+
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let status = match cli.command {
@@ -197,14 +217,17 @@ fn load(dir: &std::path::Path) -> Option<Loaded> {
 fn validate_command(dir: &std::path::Path) -> ExitStatus {
     match load_network(dir) {
         Ok(loaded) => {
-            print!("{}", report::validate::diagnostics(&loaded.diagnostics));
-            println!();
+            emit(report::validate::diagnostics(&loaded.diagnostics));
+            emit(
+                "
+",
+            );
             let summary = validate::summarize(&loaded.network);
-            print!("{}", report::validate::summary(&loaded.network, &summary));
+            emit(report::validate::summary(&loaded.network, &summary));
             ExitStatus::Success
         }
         Err(diags) => {
-            print!("{}", report::validate::diagnostics(&diags));
+            emit(report::validate::diagnostics(&diags));
             ExitStatus::InputError
         }
     }
@@ -215,6 +238,9 @@ fn solve_command(
     condition: Condition,
     out: Option<&std::path::Path>,
 ) -> ExitStatus {
+    if !output_folder_ok(out, dir) {
+        return ExitStatus::InputError;
+    }
     let Some(loaded) = load(dir) else {
         return ExitStatus::InputError;
     };
@@ -234,7 +260,7 @@ fn solve_command(
         }
     };
     let result = steady::steady_report(&hydraulics, condition, &solution);
-    print!("{}", report::solve::terminal(&result, net.units));
+    emit(report::solve::terminal(&result, net.units));
     if let Some(out) = out {
         let written = report::solve::files(&result, net.units)
             .and_then(|files| write_outputs(out, dir, &files));
@@ -299,6 +325,9 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
     use firemain::report::check::CheckReport;
     use firemain::service::service_check;
 
+    if !output_folder_ok(args.out.as_deref(), &args.network) {
+        return ExitStatus::InputError;
+    }
     let Some(loaded) = load(&args.network) else {
         return ExitStatus::InputError;
     };
@@ -385,9 +414,9 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
         partial,
         weak_mains: &weak,
     };
-    print!("{}", report.summary());
-    print!("{}", report.terminal_table());
-    print!("{}", report.terminal_weak_mains());
+    emit(report.summary());
+    emit(report.terminal_table());
+    emit(report.terminal_weak_mains());
     if args.stats {
         eprintln!(
             "sweep: {} hydrants, {} solves, {} numeric factorizations ({:.2} per hydrant on average, {} at most), {:.2} s wall, {} thread(s)",
@@ -471,6 +500,9 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
         plan_upsizing, CostModel, Progress, UpsizeConfig, DEFAULT_SIZES_IN, DEFAULT_SIZES_MM,
     };
 
+    if !output_folder_ok(args.out.as_deref(), &args.network) {
+        return ExitStatus::InputError;
+    }
     let Some(loaded) = load(&args.network) else {
         return ExitStatus::InputError;
     };
@@ -615,7 +647,7 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
         generated,
         version: env!("CARGO_PKG_VERSION"),
     };
-    print!("{}", report.terminal());
+    emit(report.terminal());
     if let Some(out) = &args.out {
         let written = network_files(&args.network)
             .map_err(|e| report::ReportError::Write {

@@ -567,7 +567,6 @@ fn ragged_row() {
 /// A quote that is never closed is an error at the line where it opens, and the message
 /// says to close it: in the middle of a row, at the end of a row, and on the last row.
 #[test]
-#[ignore = "bug: an unterminated quote is not detected (swallows the rest of the file, or is accepted silently on the last row)"]
 fn unterminated_quote() {
     let cases = [
         "id,elevation,demand\nJ1,\"100,10\nJ2,105,20\nJ3,110,15\n",
@@ -584,7 +583,6 @@ fn unterminated_quote() {
 /// A file with old-style CR-only line ends is either refused as such or read with correct
 /// line numbers; here a bad number on line 3 must not be reported on line 1.
 #[test]
-#[ignore = "bug: CR-only line ends are read, but every finding is located on line 1"]
 fn cr_only_line_ends() {
     let net = Net::us();
     net.write(
@@ -691,7 +689,6 @@ fn negative_minor_loss() {
 
 /// A demand factor of model.toml that is not positive is refused at its line and column.
 #[test]
-#[ignore = "bug: model.toml [demand] factor errors name the file but no line or column"]
 fn non_positive_demand_factor() {
     let net = Net::us();
     net.write(
@@ -1007,7 +1004,6 @@ fn criteria_in_other_units() {
 
 /// A byte-order mark does not shift the locations reported in a criteria file.
 #[test]
-#[ignore = "bug: locations in a criteria file with a UTF-8 BOM are shifted (units at 3:6 instead of 3:9)"]
 fn criteria_with_bom_keeps_locations() {
     let net = Net::us();
     let path = net.write_criteria(
@@ -1050,7 +1046,6 @@ fn criteria_non_positive_floor() {
 /// A TOML syntax error, in model.toml or in a criteria file, is one located finding on one
 /// line (`file:line:column: error: message; fix: ...`), like every other finding.
 #[test]
-#[ignore = "bug: TOML syntax errors print a two-line message, so the `; fix:` part is not on the located line"]
 fn toml_syntax_error() {
     let net = Net::us();
     net.write(
@@ -1155,7 +1150,6 @@ fn output_folder_is_the_network_folder_leaves_inputs_alone() {
 /// `--out` naming the network folder is a command-line input error (exit 2), found before
 /// any analysis is run.
 #[test]
-#[ignore = "bug: --out naming the network folder exits 3 (analysis error), and only after the whole analysis has run"]
 fn output_folder_is_the_network_folder_is_an_input_error() {
     let net = Net::us();
     let solve: Vec<OsString> = vec![
@@ -1173,7 +1167,6 @@ fn output_folder_is_the_network_folder_is_an_input_error() {
 /// Printing into a pipe that the reader has closed (as `firemain validate NET | head` does)
 /// ends quietly, without a panic.
 #[test]
-#[ignore = "bug: printing to a closed stdout panics (\"failed printing to stdout: Broken pipe\", exit 101)"]
 fn closed_stdout_does_not_panic() {
     let net = Net::us();
     let mut child = Command::new(env!("CARGO_BIN_EXE_firemain"))

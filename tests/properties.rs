@@ -261,10 +261,6 @@ proptest! {
     }
 
     #[test]
-    #[ignore = "bug: on the saved cases (tests/properties.proptest-regressions) the available \
-                flow drops from the 300 L/s cap to 97.5 or 165 L/s after raising the grades: the \
-                search's solve at the cap does not converge (see \
-                analytic_fireflow::hydrant_limit_above_the_cap_gives_the_cap)"]
     fn raising_every_source_grade_never_lowers_available_flow(
         g in grid(),
         shift in 0.5..20.0_f64,
@@ -285,10 +281,6 @@ proptest! {
     }
 
     #[test]
-    #[ignore = "bug: on the saved cases (tests/properties.proptest-regressions) the available \
-                flow rises from 165 to 239 L/s when C drops from 80 to 40 (165 should be the \
-                300 L/s cap), or the max-day solve does not converge (see \
-                analytic_hydraulics::tree_heads_follow_from_continuity_alone)"]
     fn narrowing_a_pipe_or_lowering_its_c_never_raises_available_flow_on_a_tree(
         t in tree(),
         which in 0.0..1.0_f64,

@@ -34,13 +34,13 @@ pub struct Tolerance {
 }
 
 impl Tolerance {
-    /// For reported steady states: 1e-5 m (0.000014 psi) and 1e-6 m³/s (0.016 gpm). The
+    /// For reported steady states: 1e-5 m (0.000014 psi) and 1e-7 m³/s (0.0016 gpm). The
     /// steps shrink at least twofold near convergence (or the factorization is renewed), so
     /// the remaining error is below the last step: pressures are converged far inside the
     /// 0.01 psi that reports show.
     pub const STEADY: Tolerance = Tolerance {
         head_m: 1.0e-5,
-        flow_m3s: 1.0e-6,
+        flow_m3s: 1.0e-7,
     };
     /// For the many solves of a fire-flow search: 5e-4 m (0.0007 psi), still well inside the
     /// 0.01 psi resolution of a residual pressure, and 1e-4 m³/s (1.6 gpm) on link flows (the

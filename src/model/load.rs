@@ -7,6 +7,7 @@ use std::collections::{BTreeSet, HashMap};
 use std::path::Path;
 
 use serde::Deserialize;
+use toml::Spanned;
 
 use super::diagnostic::{Diagnostics, Location};
 use super::network::{
@@ -14,7 +15,7 @@ use super::network::{
     PipeStatus, Pump, Valve, ValveKind, ValveStatus,
 };
 use super::table::{read_table, Cell, Row, Table, TableSpec};
-use super::toml_input::read_toml;
+use super::toml_input::{read_toml, span_location};
 use crate::units::{Quantity, UnitSystem};
 
 #[derive(Deserialize)]
@@ -36,9 +37,9 @@ enum HeadlossName {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct DemandTable {
-    max_day_factor: f64,
-    peak_hour_factor: f64,
-    min_hour_factor: Option<f64>,
+    max_day_factor: Spanned<f64>,
+    peak_hour_factor: Spanned<f64>,
+    min_hour_factor: Option<Spanned<f64>>,
 }
 
 const JUNCTIONS: TableSpec<'static> = TableSpec {
@@ -123,13 +124,13 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
         );
         return Err(diags);
     }
-    let model: Option<ModelFile> = read_toml(
+    let model: Option<(ModelFile, String)> = read_toml(
         &dir.join("model.toml"),
         "model.toml",
-        "see docs/network-format.md for the keys of model.toml",
+        "a network folder needs model.toml with name, units, headloss and a [demand] table (see docs/network-format.md)",
         &mut diags,
     );
-    let Some(model) = model else {
+    let Some((model, model_text)) = model else {
         return Err(diags);
     };
     let mut reader = Reader {
@@ -145,7 +146,7 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
         links: Vec::new(),
         link_lines: HashMap::new(),
     };
-    let demand_factors = reader.demand_factors(&model.demand);
+    let demand_factors = reader.demand_factors(&model.demand, &model_text);
 
     let table = |name: &str, spec: &TableSpec<'_>, reader: &mut Reader| {
         read_table(&dir.join(name), name, spec, &mut reader.diags)
@@ -239,37 +240,38 @@ struct Reader {
 }
 
 impl Reader {
-    fn demand_factors(&mut self, d: &DemandTable) -> DemandFactors {
-        let loc = Location::file("model.toml");
-        let check = |name: &str, v: f64, diags: &mut Diagnostics| {
-            if !(v.is_finite() && v > 0.0) {
+    fn demand_factors(&mut self, d: &DemandTable, text: &str) -> DemandFactors {
+        let at = |v: &Spanned<f64>| span_location("model.toml", text, v.span());
+        let check = |name: &str, v: &Spanned<f64>, diags: &mut Diagnostics| {
+            let x = *v.get_ref();
+            if !(x.is_finite() && x > 0.0) {
                 diags.error(
-                    loc.clone(),
-                    format!("[demand] {name} must be a positive number, got {v}"),
+                    at(v),
+                    format!("[demand] {name} must be a positive number, got {x}"),
                     "give the ratio of the condition's demand to average-day demand (e.g. 1.5)",
                 );
             }
         };
-        check("max_day_factor", d.max_day_factor, &mut self.diags);
-        check("peak_hour_factor", d.peak_hour_factor, &mut self.diags);
-        if let Some(m) = d.min_hour_factor {
+        check("max_day_factor", &d.max_day_factor, &mut self.diags);
+        check("peak_hour_factor", &d.peak_hour_factor, &mut self.diags);
+        if let Some(m) = &d.min_hour_factor {
             check("min_hour_factor", m, &mut self.diags);
         }
-        if d.max_day_factor < 1.0 || d.peak_hour_factor < d.max_day_factor {
+        let (max_day, peak_hour) = (*d.max_day_factor.get_ref(), *d.peak_hour_factor.get_ref());
+        if max_day < 1.0 || peak_hour < max_day {
             self.diags.warning(
-                loc,
+                at(&d.max_day_factor),
                 format!(
-                    "unusual demand factors: max-day {} and peak-hour {} (usually 1 <= max-day <= peak-hour)",
-                    d.max_day_factor, d.peak_hour_factor
+                    "unusual demand factors: max-day {max_day} and peak-hour {peak_hour} (usually 1 <= max-day <= peak-hour)"
                 ),
                 "check [demand] in model.toml; typical values are max-day 1.5-2.0 and peak-hour 2.0-4.0 \
                  (common practice, no source)",
             );
         }
         DemandFactors {
-            max_day: d.max_day_factor,
-            peak_hour: d.peak_hour_factor,
-            min_hour: d.min_hour_factor,
+            max_day,
+            peak_hour,
+            min_hour: d.min_hour_factor.as_ref().map(|m| *m.get_ref()),
         }
     }
 

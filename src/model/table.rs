@@ -144,6 +144,16 @@ pub fn parse_table(
         .from_reader(bytes);
 
     let lines = LineIndex::new(bytes);
+    // The csv reader takes a quote left open as running to the end of the file; a file that
+    // does that is broken, and the finding belongs where the quote opened.
+    if let Some(line) = unclosed_quote_line(bytes, &lines) {
+        diags.error(
+            Location::line(file, line),
+            "a quoted field that starts on this line is never closed",
+            "add the closing double quote (a quote inside a quoted field is written twice: \"\")",
+        );
+        return None;
+    }
     let mut header: Option<(u64, Vec<String>)> = None;
     let mut rows = Vec::new();
     let mut record = csv::ByteRecord::new();
@@ -168,6 +178,16 @@ pub fn parse_table(
         let mut fields = Vec::with_capacity(record.len());
         let mut utf8_ok = true;
         for (i, raw) in record.iter().enumerate() {
+            if raw.iter().any(|&b| b == b'\n' || b == b'\r') {
+                diags.error(
+                    Location::cell(file, line, i as u64 + 1),
+                    "a quoted field runs over several lines",
+                    "close the quote on the line where it opens; network files keep one row per line",
+                );
+                utf8_ok = false;
+                fields.push(String::new());
+                continue;
+            }
             match std::str::from_utf8(raw) {
                 Ok(text) => fields.push(text.to_string()),
                 Err(_) => {
@@ -268,6 +288,38 @@ pub fn parse_table(
     })
 }
 
+/// The line of a double quote that opens a quoted field and is never closed, if any.
+/// Quotes toggle a quoted state (an escaped quote `""` toggles twice); comment lines outside
+/// quotes are skipped as the csv reader skips them.
+fn unclosed_quote_line(bytes: &[u8], lines: &LineIndex<'_>) -> Option<u64> {
+    let mut quoted = false;
+    let mut opened_at = 0usize;
+    let mut at_line_start = true;
+    let mut in_comment = false;
+    for (i, &b) in bytes.iter().enumerate() {
+        let line_end = b == b'\n' || b == b'\r';
+        if in_comment {
+            if line_end {
+                in_comment = false;
+                at_line_start = true;
+            }
+            continue;
+        }
+        if at_line_start && !quoted && b == b'#' {
+            in_comment = true;
+            continue;
+        }
+        at_line_start = line_end && !quoted;
+        if b == b'"' {
+            quoted = !quoted;
+            if quoted {
+                opened_at = i;
+            }
+        }
+    }
+    quoted.then(|| lines.line_of_byte(opened_at as u64))
+}
+
 /// Line numbers from byte offsets. The csv reader's position of a record is where it started
 /// reading, which is before any comment or blank lines that precede the record, so firemain
 /// skips those itself and counts lines from the byte offset.
@@ -277,14 +329,20 @@ struct LineIndex<'a> {
 }
 
 impl<'a> LineIndex<'a> {
+    /// Line ends are LF, CRLF, or a lone CR (as the csv reader accepts all three).
     fn new(bytes: &'a [u8]) -> Self {
         let newlines = bytes
             .iter()
             .enumerate()
-            .filter(|(_, &b)| b == b'\n')
+            .filter(|&(i, &b)| b == b'\n' || (b == b'\r' && bytes.get(i + 1) != Some(&b'\n')))
             .map(|(i, _)| i as u64)
             .collect();
         LineIndex { bytes, newlines }
+    }
+
+    /// 1-based line of byte `offset`.
+    fn line_of_byte(&self, offset: u64) -> u64 {
+        self.newlines.partition_point(|&n| n < offset) as u64 + 1
     }
 
     /// 1-based line of the first record that starts at or after byte `offset`.

@@ -10,13 +10,14 @@ use super::diagnostic::{Diagnostics, Location};
 /// Largest TOML file read; these files are a few lines long.
 const MAX_TOML_BYTES: u64 = 1 << 20;
 
-/// Reads and deserializes `path` (shown as `file`); problems go to `diags`.
+/// Reads and deserializes `path` (shown as `file`); problems go to `diags`. Returns the value
+/// and the text it was read from (without a byte-order mark), for locating later findings.
 pub fn read_toml<T: DeserializeOwned>(
     path: &Path,
     file: &str,
     fix: &str,
     diags: &mut Diagnostics,
-) -> Option<T> {
+) -> Option<(T, String)> {
     let text = match read_text(path) {
         Ok(text) => text,
         Err(message) => {
@@ -24,7 +25,13 @@ pub fn read_toml<T: DeserializeOwned>(
             return None;
         }
     };
-    parse_toml(&text, file, fix, diags)
+    parse_toml(&text, file, fix, diags).map(|value| (value, text))
+}
+
+/// The location of byte range `span` of `text` in `file`.
+pub fn span_location(file: &str, text: &str, span: std::ops::Range<usize>) -> Location {
+    let (line, column) = line_and_column(text, span.start);
+    Location::cell(file, line, column)
 }
 
 fn read_text(path: &Path) -> Result<String, String> {
@@ -60,7 +67,15 @@ pub fn parse_toml<T: DeserializeOwned>(
                 }
                 None => Location::file(file),
             };
-            diags.error(location, e.message().trim().to_string(), fix);
+            // The parser's message can run over several lines; keep it on the located line.
+            let message = e
+                .message()
+                .lines()
+                .map(str::trim)
+                .filter(|l| !l.is_empty())
+                .collect::<Vec<_>>()
+                .join("; ");
+            diags.error(location, message, fix);
             None
         }
     }

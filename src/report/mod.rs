@@ -40,6 +40,11 @@ pub struct OutputFile {
     pub bytes: Vec<u8>,
 }
 
+/// Whether two paths name the same existing folder.
+pub fn is_same_folder(a: &Path, b: &Path) -> bool {
+    matches!((a.canonicalize(), b.canonicalize()), (Ok(x), Ok(y)) if x == y)
+}
+
 /// Writes every file into `dir` (created if missing), each atomically.
 pub fn write_outputs(
     dir: &Path,
@@ -50,10 +55,8 @@ pub fn write_outputs(
         path: dir.to_path_buf(),
         source,
     })?;
-    if let (Ok(a), Ok(b)) = (dir.canonicalize(), input_dir.canonicalize()) {
-        if a == b {
-            return Err(ReportError::OutputIsInput(dir.to_path_buf()));
-        }
+    if is_same_folder(dir, input_dir) {
+        return Err(ReportError::OutputIsInput(dir.to_path_buf()));
     }
     let mut written = Vec::new();
     for f in files {
