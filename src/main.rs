@@ -199,7 +199,10 @@ fn load(dir: &std::path::Path) -> Option<Loaded> {
     match load_network(dir) {
         Ok(loaded) => {
             if !loaded.diagnostics.is_empty() {
-                eprint!("{}", report::validate::diagnostics(&loaded.diagnostics));
+                eprint!(
+                    "{}",
+                    report::validate::diagnostics_brief(&loaded.diagnostics)
+                );
             }
             Some(loaded)
         }

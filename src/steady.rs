@@ -64,6 +64,7 @@ pub struct NodeResult {
     pub kind: &'static str,
     pub zone: Option<String>,
     pub elevation_m: f64,
+    /// Junction demand; for a source, minus its net outflow (a tank filling shows positive).
     pub demand_m3s: f64,
     pub grade_m: f64,
     /// `None` for a junction cut off from every source (its head means nothing).
@@ -117,6 +118,7 @@ pub fn steady_report(
     for &j in &sol.isolated {
         isolated[j] = true;
     }
+    let outflow = source_outflows(net, sol);
     let nodes = net
         .nodes
         .iter()
@@ -126,7 +128,11 @@ pub fn steady_report(
             kind: n.kind.name(),
             zone: net.zone_name(i).map(str::to_string),
             elevation_m: n.elevation_m,
-            demand_m3s: n.base_demand_m3s * factor,
+            demand_m3s: if n.is_junction() {
+                n.base_demand_m3s * factor
+            } else {
+                -outflow[i]
+            },
             grade_m: sol.heads_m[i],
             pressure_kpa: (!isolated[i]).then(|| sol.pressure_kpa(net, i)),
         })
@@ -155,23 +161,7 @@ pub fn steady_report(
             }
         })
         .collect();
-    let source_outflow_m3s = (net.n_junctions..net.nodes.len())
-        .map(|s| {
-            net.links
-                .iter()
-                .enumerate()
-                .map(|(i, l)| {
-                    if l.from == s {
-                        sol.flows_m3s[i]
-                    } else if l.to == s {
-                        -sol.flows_m3s[i]
-                    } else {
-                        0.0
-                    }
-                })
-                .sum::<f64>()
-        })
-        .sum();
+    let source_outflow_m3s = outflow.iter().sum();
     SteadyReport {
         network: net.name.clone(),
         condition,
@@ -184,6 +174,23 @@ pub fn steady_report(
         links,
         notes: control_notes(hydraulics, sol),
     }
+}
+
+/// Net outflow of every node into the links (non-zero only at sources in a converged state).
+fn source_outflows(net: &Network, sol: &Solution) -> Vec<f64> {
+    let mut out = vec![0.0; net.nodes.len()];
+    for (i, l) in net.links.iter().enumerate() {
+        if l.from != l.to {
+            out[l.from] += sol.flows_m3s[i];
+            out[l.to] -= sol.flows_m3s[i];
+        }
+    }
+    for (o, node) in out.iter_mut().zip(&net.nodes) {
+        if node.is_junction() {
+            *o = 0.0;
+        }
+    }
+    out
 }
 
 /// Plain-words notes about controls: valves that could not hold their setting, pumps that

@@ -163,6 +163,8 @@ pub enum WeakReason {
     HighVelocity {
         velocity_m_per_s: f64,
         limit_m_per_s: f64,
+        /// Whether the limit is the criteria's (else the common-practice flag).
+        criteria_limit: bool,
     },
     /// Diameter below the minimum main size for hydrants.
     SmallDiameter { diameter_m: f64, minimum_m: f64 },
@@ -232,6 +234,7 @@ pub fn weak_mains(net: &Network, criteria: &Criteria, results: &[HydrantResult])
                 w.reasons.push(WeakReason::HighVelocity {
                     velocity_m_per_s: w.max_velocity_m_per_s,
                     limit_m_per_s: velocity_limit,
+                    criteria_limit: criteria.max_velocity_m_per_s.is_some(),
                 });
             }
             if p.diameter_m < min_main - 1e-9 {

@@ -37,6 +37,9 @@ pub enum LimitedBy {
     Velocity,
     /// The search cap is reached with every constraint still met.
     Cap,
+    /// The hydraulics have no solution at a larger flow (the notes say why); the largest
+    /// verified flow is reported.
+    NoSolution,
 }
 
 impl LimitedBy {
@@ -46,6 +49,7 @@ impl LimitedBy {
             LimitedBy::SystemPressure => "system-pressure",
             LimitedBy::Velocity => "velocity",
             LimitedBy::Cap => "cap",
+            LimitedBy::NoSolution => "no-solution",
         }
     }
 }

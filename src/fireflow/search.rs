@@ -416,20 +416,24 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
         Err(e) => failed_above = Some((lo.q, e.to_string())),
     }
     if answer.is_none() && hi.is_none() {
-        // No failing point known: try the cap, then bisect towards it if it cannot be solved.
+        // No failing point known: try the cap; where a flow cannot be solved, bisect between
+        // the largest verified flow and the smallest unsolvable one.
         let mut upper = cap;
+        let mut unsolvable = f64::INFINITY;
         for _ in 0..MAX_PROBES {
             if upper - lo.q <= tolerance(lo.q, net.units) {
                 break;
             }
-            match s.evaluate(upper, &lo.sol) {
+            let start = lo.sol.clone();
+            match s.evaluate(upper, &start) {
                 Ok(p) if p.check.feasible() => {
                     let is_cap = p.q >= cap;
                     lo = p;
                     if is_cap {
                         answer = Some(LimitedBy::Cap);
+                        break;
                     }
-                    break;
+                    upper = 0.5 * (lo.q + unsolvable.min(cap));
                 }
                 Ok(p) => {
                     hi = Some(p);
@@ -437,6 +441,7 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
                 }
                 Err(e) => {
                     failed_above = Some((upper, e.to_string()));
+                    unsolvable = upper;
                     upper = 0.5 * (lo.q + upper);
                 }
             }
@@ -515,15 +520,8 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
                     LimitedBy::SystemPressure
                 }
             }
-            None => {
-                // Only a solver failure above the answer is known.
-                result.critical_junction = Some(lo.check.pressure_junction);
-                if lo.check.pressure_junction == at {
-                    LimitedBy::HydrantPressure
-                } else {
-                    LimitedBy::SystemPressure
-                }
-            }
+            // Only a flow that could not be solved is known above the answer.
+            None => LimitedBy::NoSolution,
         },
     };
     if let Some((q, reason)) = failed_above {

@@ -20,7 +20,7 @@
 use std::sync::Arc;
 
 use super::controls::{self, LinkState, LinkView, MAX_SWITCHES};
-use super::factor::{FaerCholesky, LowerPattern, SpdFactorization, SymbolicAnalysis};
+use super::factor::{FaerCholesky, OrderedPattern, SpdFactorization, SymbolicAnalysis};
 use super::laws::LinkLaw;
 use super::SolveError;
 use crate::model::{LinkKind, Network, ValveKind};
@@ -86,7 +86,15 @@ pub struct Hydraulics<'n> {
     settings: Vec<f64>,
     /// Grade of every node that has one fixed (sources), else 0.
     source_grade: Vec<f64>,
-    pattern: LowerPattern,
+    /// From and to node of each link (kept apart from the links for the hot loops).
+    ends: Vec<(usize, usize)>,
+    /// Regulating role of each link, for the hot loops.
+    valve_kinds: Vec<Option<ValveKind>>,
+    pattern: OrderedPattern,
+    /// Matrix row of each junction.
+    row_of: Vec<usize>,
+    /// Diagonal slot of each junction.
+    diag_slot: Vec<usize>,
     /// Off-diagonal slot of each link joining two different junctions.
     off_slot: Vec<Option<usize>>,
     /// Links at each node: `adj_links[adj_ptr[n]..adj_ptr[n+1]]`.
@@ -106,6 +114,9 @@ pub struct Workspace {
     known: Vec<f64>,
     /// Flow change of each link in the current step.
     flow_step: Vec<f64>,
+    /// Per node: the fixed step of pinned junctions while assembling, then every junction's
+    /// head change (0 at sources).
+    node_step: Vec<f64>,
     demand: Vec<f64>,
     /// Fixed head of a junction in the current state (sources are always fixed).
     pinned: Vec<Option<f64>>,
@@ -229,35 +240,34 @@ impl<'n> Hydraulics<'n> {
             .collect();
         let source_grade = net.nodes.iter().map(|n| n.grade_m.unwrap_or(0.0)).collect();
 
-        // Lower-triangle pattern: diagonal of every junction, one entry per junction pair.
-        let mut columns: Vec<Vec<usize>> = (0..nj).map(|j| vec![j]).collect();
-        for l in &net.links {
-            if l.from != l.to && l.from < nj && l.to < nj {
-                let (lo, hi) = (l.from.min(l.to), l.from.max(l.to));
-                columns[lo].push(hi);
-            }
+        if nj == 0 {
+            return Err(SolveError::Internal("the network has no junctions".into()));
         }
-        let mut col_ptr = Vec::with_capacity(nj + 1);
-        let mut row_idx = Vec::new();
-        col_ptr.push(0);
-        for col in &mut columns {
-            col.sort_unstable();
-            col.dedup();
-            row_idx.extend_from_slice(col);
-            col_ptr.push(row_idx.len());
-        }
-        let pattern = LowerPattern {
-            n: nj,
-            col_ptr,
-            row_idx,
-        };
+        let pairs: Vec<(usize, usize)> = net
+            .links
+            .iter()
+            .filter(|l| l.from != l.to && l.from < nj && l.to < nj)
+            .map(|l| (l.from, l.to))
+            .collect();
+        let pattern = OrderedPattern::new(nj, &pairs).map_err(SolveError::Internal)?;
         let off_slot = net
             .links
             .iter()
             .map(|l| {
                 (l.from != l.to && l.from < nj && l.to < nj)
-                    .then(|| pattern.slot(l.from.max(l.to), l.from.min(l.to)))
+                    .then(|| pattern.slot(l.from, l.to))
                     .flatten()
+            })
+            .collect();
+        let row_of = (0..nj).map(|j| pattern.position(j)).collect();
+        let diag_slot = (0..nj).map(|j| pattern.diagonal_slot(j)).collect();
+        let ends = net.links.iter().map(|l| (l.from, l.to)).collect();
+        let valve_kinds = net
+            .links
+            .iter()
+            .map(|l| match &l.kind {
+                LinkKind::Valve(v) => Some(v.kind),
+                _ => None,
             })
             .collect();
         let mut degree = vec![0usize; nn + 1];
@@ -277,11 +287,7 @@ impl<'n> Hydraulics<'n> {
             adj_links[fill[l.to]] = i;
             fill[l.to] += 1;
         }
-        let analysis = if nj > 0 {
-            SymbolicAnalysis::new(&pattern).map_err(SolveError::Internal)?
-        } else {
-            return Err(SolveError::Internal("the network has no junctions".into()));
-        };
+        let analysis = SymbolicAnalysis::new(&pattern).map_err(SolveError::Internal)?;
         Ok(Hydraulics {
             net,
             n_junctions: nj,
@@ -289,7 +295,11 @@ impl<'n> Hydraulics<'n> {
             roles,
             settings,
             source_grade,
+            ends,
+            valve_kinds,
             pattern,
+            row_of,
+            diag_slot,
             off_slot,
             adj_ptr,
             adj_links,
@@ -312,6 +322,7 @@ impl<'n> Hydraulics<'n> {
             g_factored: vec![0.0; nl],
             known: vec![0.0; nl],
             flow_step: vec![0.0; nl],
+            node_step: vec![0.0; self.net.nodes.len()],
             demand: vec![0.0; nj],
             pinned: vec![None; nj],
             factor_key: None,
@@ -419,7 +430,6 @@ impl<'n> Hydraulics<'n> {
         let mut need_factor = true;
         let mut previous_step = f64::INFINITY;
         let mut factorizations = 0u32;
-        let mut delta = vec![0.0; nj];
         // Whether the flows may violate continuity (at the start, and after a state change):
         // the line search needs a start that satisfies it.
         let mut continuity_pending = true;
@@ -437,84 +447,79 @@ impl<'n> Hydraulics<'n> {
                     !matches!(&ws.factor_key, Some((f, st)) if *f == fixed && st == &states);
             }
 
-            // Link coefficients: conductance g and the known part of the flow change.
+            // The step of every fixed node: a pinned junction moves to its target in this step,
+            // sources stay where they are.
+            for j in 0..nj {
+                ws.node_step[j] = match ws.pinned[j] {
+                    Some(target) => target - heads[j],
+                    None => 0.0,
+                };
+                ws.rhs[self.row_of[j]] = -ws.demand[j];
+            }
+            if need_factor {
+                ws.values.iter_mut().for_each(|v| *v = 0.0);
+            }
+            // One pass over the links: conductance g, the known part k of the flow change, the
+            // continuity residual and the known changes into the right-hand side, and (when
+            // refactoring) the matrix values.
             for i in 0..nl {
-                let l = &net.links[i];
-                let (g, known) = if l.from == l.to {
-                    (0.0, -flows[i])
+                let (a, b) = self.ends[i];
+                let q = flows[i];
+                let (g, k) = if a == b {
+                    (0.0, -q)
                 } else {
                     match states[i] {
-                        s if s.conducts() => {
-                            let (phi, slope) = self.laws[i].evaluate(flows[i]);
+                        st if st.conducts() => {
+                            let (phi, slope) = self.laws[i].evaluate(q);
                             let g = if need_factor {
                                 1.0 / slope
                             } else {
                                 ws.g_factored[i]
                             };
-                            let e = phi - (heads[l.from] - heads[l.to]);
-                            (g, -g * e)
+                            (g, -g * (phi - (heads[a] - heads[b])))
                         }
-                        LinkState::Regulating => match self.valve_kind(i) {
-                            Some(ValveKind::Fcv) => (0.0, self.settings[i] - flows[i]),
+                        LinkState::Regulating => match self.valve_kinds[i] {
+                            Some(ValveKind::Fcv) => (0.0, self.settings[i] - q),
                             _ => (0.0, 0.0),
                         },
-                        _ => (0.0, -flows[i]),
+                        _ => (0.0, -q),
                     }
                 };
                 if need_factor {
                     ws.g_factored[i] = g;
                 }
-                ws.known[i] = known;
-            }
-
-            // Right-hand side: continuity residual plus the known flow changes.
-            for j in 0..nj {
-                ws.rhs[j] = self.imbalance(j, &flows, &ws.demand);
-            }
-            if need_factor {
-                ws.values.iter_mut().for_each(|v| *v = 0.0);
-            }
-            for i in 0..nl {
-                let l = &net.links[i];
-                if l.from == l.to {
+                ws.known[i] = k;
+                if a == b {
                     continue;
                 }
-                let (a, b) = (l.from, l.to);
-                let g = ws.g_factored[i];
-                let k = ws.known[i];
+                let carried = q + k;
                 let free_a = a < nj && ws.pinned[a].is_none();
                 let free_b = b < nj && ws.pinned[b].is_none();
-                let step_a = self.fixed_step(a, &ws.pinned, &heads);
-                let step_b = self.fixed_step(b, &ws.pinned, &heads);
-                if free_a {
-                    ws.rhs[a] -= k;
-                    if !free_b {
-                        ws.rhs[a] += g * step_b;
-                    }
-                    if need_factor {
-                        ws.values[self.pattern.diagonal_slot(a)] += g;
-                    }
+                if a < nj {
+                    ws.rhs[self.row_of[a]] += g * ws.node_step[b] - carried;
                 }
-                if free_b {
-                    ws.rhs[b] += k;
-                    if !free_a {
-                        ws.rhs[b] += g * step_a;
-                    }
-                    if need_factor {
-                        ws.values[self.pattern.diagonal_slot(b)] += g;
-                    }
+                if b < nj {
+                    ws.rhs[self.row_of[b]] += g * ws.node_step[a] + carried;
                 }
-                if need_factor && free_a && free_b {
-                    if let Some(s) = self.off_slot[i] {
-                        ws.values[s] -= g;
+                if need_factor {
+                    if free_a {
+                        ws.values[self.diag_slot[a]] += g;
+                    }
+                    if free_b {
+                        ws.values[self.diag_slot[b]] += g;
+                    }
+                    if free_a && free_b {
+                        if let Some(slot) = self.off_slot[i] {
+                            ws.values[slot] -= g;
+                        }
                     }
                 }
             }
             for j in 0..nj {
-                if let Some(target) = ws.pinned[j] {
-                    ws.rhs[j] = target - heads[j];
+                if ws.pinned[j].is_some() {
+                    ws.rhs[self.row_of[j]] = ws.node_step[j];
                     if need_factor {
-                        ws.values[self.pattern.diagonal_slot(j)] = 1.0;
+                        ws.values[self.diag_slot[j]] = 1.0;
                     }
                 }
             }
@@ -527,29 +532,28 @@ impl<'n> Hydraulics<'n> {
                 ws.factor_key = Some((request.fixed_head.map(|(j, _)| j), states.clone()));
                 factorizations += 1;
             }
-            delta.copy_from_slice(&ws.rhs);
-            ws.factor.solve_in_place(&mut delta);
-            if delta.iter().any(|d| !d.is_finite()) {
-                return Err(SolveError::Internal(
-                    "the linear solve produced a non-finite head".into(),
-                ));
+            ws.factor.solve_in_place(&mut ws.rhs);
+            let mut full_step_h = 0.0_f64;
+            for j in 0..nj {
+                let d = ws.rhs[self.row_of[j]];
+                if !d.is_finite() {
+                    return Err(SolveError::Internal(
+                        "the linear solve produced a non-finite head".into(),
+                    ));
+                }
+                ws.node_step[j] = d;
+                if ws.pinned[j].is_none() {
+                    full_step_h = full_step_h.max(d.abs());
+                }
             }
 
             // Update heads and flows, with a line search on large steps once continuity holds
             // (a Newton step from far away can overshoot, e.g. when a fire flow is added to a
             // state with near-zero flows in the pipes around the hydrant).
-            let mut full_step_h = 0.0_f64;
-            for j in 0..nj {
-                if ws.pinned[j].is_none() {
-                    full_step_h = full_step_h.max(delta[j].abs());
-                }
-            }
             for i in 0..nl {
-                let l = &net.links[i];
-                let g = ws.g_factored[i];
-                let da = if l.from < nj { delta[l.from] } else { 0.0 };
-                let db = if l.to < nj { delta[l.to] } else { 0.0 };
-                ws.flow_step[i] = ws.known[i] + g * (da - db);
+                let (a, b) = self.ends[i];
+                ws.flow_step[i] =
+                    ws.known[i] + ws.g_factored[i] * (ws.node_step[a] - ws.node_step[b]);
             }
             let alpha = if !continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M {
                 match self.line_search(ws, &flows, &states, factored_now) {
@@ -568,11 +572,12 @@ impl<'n> Hydraulics<'n> {
             continuity_pending = false;
             let mut step_h = 0.0_f64;
             for j in 0..nj {
+                let d = ws.node_step[j];
                 if ws.pinned[j].is_none() {
-                    heads[j] += alpha * delta[j];
-                    step_h = step_h.max((alpha * delta[j]).abs());
+                    heads[j] += alpha * d;
+                    step_h = step_h.max((alpha * d).abs());
                 } else {
-                    heads[j] += delta[j];
+                    heads[j] += d;
                 }
             }
             let mut step_q = 0.0_f64;
@@ -601,6 +606,11 @@ impl<'n> Hydraulics<'n> {
                     old + residual
                 };
                 step_q = step_q.max((flows[i] - old).abs());
+                // The valve's other end saw the old flow in this step: continuity there is off
+                // by the change until the next step, so the next step takes no line search.
+                if (flows[i] - old).abs() > 1e-12 {
+                    continuity_pending = true;
+                }
             }
             if std::env::var("FM_TRACE").is_ok() {
                 eprintln!("    it {iteration} alpha {alpha:.3} step_h {step_h:.3e} step_q {step_q:.3e} factored {need_factor}");
@@ -666,7 +676,7 @@ impl<'n> Hydraulics<'n> {
                 previous_step = f64::INFINITY;
             }
         }
-        Err(self.no_convergence(&heads, &flows, &states, &delta))
+        Err(self.no_convergence(&heads, &flows, &states, &ws.node_step[..nj]))
     }
 
     /// Step length in (0, 1] along `ws.flow_step` that does not increase the content merit
@@ -710,7 +720,8 @@ impl<'n> Hydraulics<'n> {
             }
             alpha *= 0.5;
         }
-        Some(alpha)
+        // No step length descends: the merit says nothing here, so take Newton's full step.
+        Some(1.0)
     }
 
     /// The head of a node that is fixed in the current state (source or pinned junction).
@@ -726,17 +737,6 @@ impl<'n> Hydraulics<'n> {
         match &self.net.links[link].kind {
             LinkKind::Valve(v) => Some(v.kind),
             _ => None,
-        }
-    }
-
-    /// Head change of a fixed node in this step: 0 for sources, the pinning step otherwise.
-    fn fixed_step(&self, node: usize, pinned: &[Option<f64>], heads: &[f64]) -> f64 {
-        if node >= self.n_junctions {
-            return 0.0;
-        }
-        match pinned[node] {
-            Some(target) => target - heads[node],
-            None => 0.0,
         }
     }
 
@@ -789,6 +789,13 @@ impl<'n> Hydraulics<'n> {
         states: &[LinkState],
     ) -> Result<Vec<usize>, SolveError> {
         let nj = self.n_junctions;
+        // When every element that can change state conducts, the conducting links are the
+        // links that validation found joining every junction to a source: nothing is cut off.
+        let all_controls_conduct =
+            (0..states.len()).all(|i| self.roles[i] != Role::Controlled || states[i].conducts());
+        if all_controls_conduct {
+            return Ok(Vec::new());
+        }
         let mut reached = vec![false; nj];
         let mut stack: Vec<usize> = Vec::new();
         for j in 0..nj {
@@ -797,25 +804,21 @@ impl<'n> Hydraulics<'n> {
                 stack.push(j);
             }
         }
-        for s in nj..self.net.nodes.len() {
-            for &i in self.links_at(s) {
-                let l = &self.net.links[i];
-                let other = if l.from == s { l.to } else { l.from };
+        let visit = |n: usize, reached: &mut Vec<bool>, stack: &mut Vec<usize>| {
+            for &i in self.links_at(n) {
+                let (a, b) = self.ends[i];
+                let other = if a == n { b } else { a };
                 if other < nj && states[i].conducts() && !reached[other] {
                     reached[other] = true;
                     stack.push(other);
                 }
             }
+        };
+        for source in nj..self.net.nodes.len() {
+            visit(source, &mut reached, &mut stack);
         }
         while let Some(n) = stack.pop() {
-            for &i in self.links_at(n) {
-                let l = &self.net.links[i];
-                let other = if l.from == n { l.to } else { l.from };
-                if other < nj && states[i].conducts() && !reached[other] {
-                    reached[other] = true;
-                    stack.push(other);
-                }
-            }
+            visit(n, &mut reached, &mut stack);
         }
         let cut: Vec<usize> = (0..nj).filter(|&j| !reached[j]).collect();
         if cut.is_empty() {
@@ -860,7 +863,7 @@ impl<'n> Hydraulics<'n> {
         // Name the junctions with the weakest connection to the rest.
         let mut weakest: Vec<(f64, usize)> = (0..self.n_junctions)
             .filter(|&j| ws.pinned[j].is_none())
-            .map(|j| (ws.values[self.pattern.diagonal_slot(j)], j))
+            .map(|j| (ws.values[self.diag_slot[j]], j))
             .collect();
         weakest.sort_by(|a, b| a.0.total_cmp(&b.0));
         SolveError::Singular {

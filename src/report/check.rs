@@ -182,7 +182,7 @@ impl CheckReport<'_> {
     fn required_label(&self, r: &HydrantResult) -> String {
         let h = &self.network.hydrants[r.hydrant];
         match (&h.class, r.required_source) {
-            (_, crate::criteria::RequiredSource::Hydrant) => "hydrant".into(),
+            (_, crate::criteria::RequiredSource::Hydrant) => "own value".into(),
             (Some(c), crate::criteria::RequiredSource::Class) => c.clone(),
             _ => "default".into(),
         }
@@ -259,6 +259,13 @@ impl CheckReport<'_> {
         let o = self.out();
         let flow = |q: Option<f64>| q.map(|q| num(o.flow(q), 0)).unwrap_or_default();
         let pressure = |p: Option<f64>| p.map(|p| num(o.pressure(p), 1)).unwrap_or_default();
+        // A demand-driven model computes pressures far below zero when a main cannot carry the
+        // required flow; the table says so rather than show a meaningless number (the CSV keeps
+        // the model's value).
+        let residual = |p: Option<f64>| match p {
+            Some(p) if p < 0.0 => "below 0".to_string(),
+            other => pressure(other),
+        };
         let critical = match (r.critical_junction, r.critical_link) {
             (_, Some(i)) => self.network.links[i].id.clone(),
             (Some(j), None) => self.network.nodes[j].id.clone(),
@@ -273,7 +280,7 @@ impl CheckReport<'_> {
             flow(r.available_m3s),
             flow(r.margin_m3s()),
             pressure(r.static_kpa),
-            pressure(r.residual_kpa),
+            residual(r.residual_kpa),
             r.limited_by.map(|l| l.name()).unwrap_or("").to_string(),
             critical,
             r.outcome.name().to_string(),
@@ -428,10 +435,16 @@ impl CheckReport<'_> {
             WeakReason::HighVelocity {
                 velocity_m_per_s,
                 limit_m_per_s,
+                criteria_limit,
             } => format!(
-                "velocity {} {v} above {} {v}",
+                "velocity {} {v} above {} {v}{}",
                 num(o.velocity(*velocity_m_per_s), 1),
                 num(o.velocity(*limit_m_per_s), 1),
+                if *criteria_limit {
+                    " (the criteria's limit)"
+                } else {
+                    " (a common-practice flag; the criteria set no limit)"
+                },
                 v = o.sym(Quantity::Velocity)
             ),
             WeakReason::SmallDiameter {

@@ -187,10 +187,11 @@ pub fn files(report: &SteadyReport, units: UnitSystem) -> Result<Vec<OutputFile>
             .iter()
             .filter(|r| r.kind == kind)
             .map(|r| {
-                let head = if kind == "pump" {
-                    -r.headloss_m
-                } else {
-                    r.headloss_m
+                // A pump adds head only while it runs; a stopped one adds none.
+                let head = match (kind, r.state) {
+                    ("pump", crate::hydraulics::LinkState::Running) => -r.headloss_m,
+                    ("pump", _) => 0.0,
+                    _ => r.headloss_m,
                 };
                 vec![
                     r.id.clone(),

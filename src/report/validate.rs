@@ -14,16 +14,31 @@ const SHOWN_PER_SEVERITY: usize = 200;
 
 /// The findings, errors first, with counts.
 pub fn diagnostics(diags: &Diagnostics) -> String {
+    listing(diags, SHOWN_PER_SEVERITY, "")
+}
+
+/// The findings of a network that loaded, as the analysis commands show them: the first few
+/// warnings and notes, and where to see the rest.
+pub fn diagnostics_brief(diags: &Diagnostics) -> String {
+    listing(diags, 5, " (run `firemain validate` to list them all)")
+}
+
+fn listing(diags: &Diagnostics, shown: usize, more_hint: &str) -> String {
     let mut s = String::new();
     for severity in [Severity::Error, Severity::Warning, Severity::Note] {
         let items: Vec<_> = diags.iter().filter(|d| d.severity == severity).collect();
-        for d in items.iter().take(SHOWN_PER_SEVERITY) {
+        let shown = if severity == Severity::Error {
+            SHOWN_PER_SEVERITY
+        } else {
+            shown
+        };
+        for d in items.iter().take(shown) {
             s.push_str(&format!("{d}\n"));
         }
-        if items.len() > SHOWN_PER_SEVERITY {
+        if items.len() > shown {
             s.push_str(&format!(
-                "... and {} more {}s\n",
-                items.len() - SHOWN_PER_SEVERITY,
+                "... and {} more {}s{more_hint}\n",
+                items.len() - shown,
                 severity
             ));
         }
