@@ -422,9 +422,10 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
     emit(report.terminal_weak_mains());
     if args.stats {
         eprintln!(
-            "sweep: {} hydrants, {} solves, {} numeric factorizations ({:.2} per hydrant on average, {} at most), {:.2} s wall, {} thread(s)",
+            "sweep: {} hydrants, {} solves, {} iterations, {} numeric factorizations ({:.2} per hydrant on average, {} at most), {:.2} s wall, {} thread(s)",
             stats.hydrants,
             stats.solves,
+            stats.iterations,
             stats.factorizations,
             stats.factorizations_per_hydrant_mean,
             stats.factorizations_per_hydrant_max,

@@ -7,7 +7,7 @@ use firemain::hydraulics::LinkState;
 use firemain::model::Network;
 use netkit::{bisect, hw_flow, hw_resistance, minor_loss, solve, NetFiles, KPA_PER_M};
 
-/// Heads to 1e-6 m (the solver's last step is below 1e-5 m; see analytic_hydraulics.rs).
+/// Heads to 1e-6 m (the solver converges to 1e-6 m, `Tolerance::STEADY`).
 const HEAD_TOL: f64 = 1e-6;
 
 fn node(net: &Network, id: &str) -> usize {

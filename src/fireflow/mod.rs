@@ -126,8 +126,9 @@ pub struct HydrantResult {
     /// For a failing hydrant: the pipes on the supply paths of the lowest constrained junction
     /// at the required flow, largest share of the head loss first (weak mains).
     pub supply_paths: Vec<crate::weakmains::PipeShare>,
-    /// Hydraulic solves and numeric factorizations spent on this hydrant.
+    /// Hydraulic solves, solver iterations and numeric factorizations spent on this hydrant.
     pub solves: u32,
+    pub iterations: u32,
     pub factorizations: u32,
 }
 

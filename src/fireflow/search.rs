@@ -49,6 +49,7 @@ struct Search<'s, 'a> {
     ws: &'s mut Workspace,
     at: usize,
     solves: u32,
+    iterations: u32,
     factorizations: u32,
 }
 
@@ -64,6 +65,7 @@ impl Search<'_, '_> {
         let sol = self.setup.hydraulics.solve(self.ws, &request, start);
         if let Ok(s) = &sol {
             self.factorizations += s.factorizations;
+            self.iterations += s.iterations;
         }
         let sol = sol?;
         let check = self.setup.constraints(&sol, self.at);
@@ -80,6 +82,7 @@ impl Search<'_, '_> {
         self.solves += 1;
         let sol = self.setup.hydraulics.solve(self.ws, &request, start)?;
         self.factorizations += sol.factorizations;
+        self.iterations += sol.iterations;
         let q = sol.fixed_head_outflow_m3s.unwrap_or(0.0);
         let check = self.setup.constraints(&sol, self.at);
         Ok(Point { q, sol, check })
@@ -233,8 +236,8 @@ pub fn analyse_hydrant(
     ws: &mut Workspace,
     index: usize,
 ) -> HydrantResult {
-    // Each hydrant starts from a clean factorization state, so that its result does not depend
-    // on the hydrants the same thread analysed before.
+    // Each hydrant starts from the max-day factorization, so that its result does not depend
+    // on which thread analysed it or what that thread analysed before.
     ws.forget_factor();
     ws.set_tolerance(crate::hydraulics::Tolerance::SEARCH);
     if let Some(snapshot) = &setup.base_factor {
@@ -260,6 +263,7 @@ pub fn analyse_hydrant(
         notes: Vec::new(),
         supply_paths: Vec::new(),
         solves: 0,
+        iterations: 0,
         factorizations: 0,
     };
     let Some((required, source)) = setup.criteria.required_flow(hydrant) else {
@@ -275,10 +279,12 @@ pub fn analyse_hydrant(
         ws,
         at,
         solves: 0,
+        iterations: 0,
         factorizations: 0,
     };
     run(&mut search, required, &mut result);
     result.solves = search.solves;
+    result.iterations = search.iterations;
     result.factorizations = search.factorizations;
     result
 }

@@ -15,6 +15,7 @@ use super::{analyse_hydrant, FireFlowSetup, HydrantResult};
 pub struct SweepStats {
     pub hydrants: usize,
     pub solves: u64,
+    pub iterations: u64,
     pub factorizations: u64,
     pub factorizations_per_hydrant_mean: f64,
     pub factorizations_per_hydrant_max: u32,
@@ -52,6 +53,7 @@ pub fn sweep(
     let stats = SweepStats {
         hydrants: results.len(),
         solves: results.iter().map(|r| u64::from(r.solves)).sum(),
+        iterations: results.iter().map(|r| u64::from(r.iterations)).sum(),
         factorizations,
         factorizations_per_hydrant_mean: if results.is_empty() {
             0.0
