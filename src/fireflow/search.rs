@@ -66,6 +66,9 @@ impl Search<'_, '_> {
         if let Ok(s) = &sol {
             self.factorizations += s.factorizations;
             self.iterations += s.iterations;
+            if std::env::var("FM_TRACE2").is_ok() {
+                eprintln!("EVAL{} {} {}", self.solves, s.iterations, s.factorizations);
+            }
         }
         let sol = sol?;
         let check = self.setup.constraints(&sol, self.at);
@@ -74,6 +77,9 @@ impl Search<'_, '_> {
 
     /// Solves with the hydrant's junction held at the floor; returns the flow it draws.
     fn hydrant_limited(&mut self, start: &Solution) -> Result<Point, SolveError> {
+        // The start is an extrapolation to a larger flow, where the pipes near the hydrant are
+        // stiffer than in the last factorization: a fresh one serves the first step better.
+        self.ws.forget_factor();
         let request = SolveRequest {
             demand_factor: self.setup.demand_factor,
             extra_demand: &[],
@@ -83,6 +89,9 @@ impl Search<'_, '_> {
         let sol = self.setup.hydraulics.solve(self.ws, &request, start)?;
         self.factorizations += sol.factorizations;
         self.iterations += sol.iterations;
+        if std::env::var("FM_TRACE2").is_ok() {
+            eprintln!("PIN {} {}", sol.iterations, sol.factorizations);
+        }
         let q = sol.fixed_head_outflow_m3s.unwrap_or(0.0);
         let check = self.setup.constraints(&sol, self.at);
         Ok(Point { q, sol, check })

@@ -53,7 +53,7 @@ impl Tolerance {
 /// Iterations allowed per solve, all state changes included.
 pub const MAX_ITERATIONS: u32 = 200;
 /// Reuse the factorization only while the head step is below this, m ...
-const CHORD_MAX_STEP_M: f64 = 1.0;
+const CHORD_MAX_STEP_M: f64 = 0.05;
 /// ... and each step shrinks the previous one at least by this factor.
 const CHORD_MAX_RATIO: f64 = 0.3;
 /// Head steps above this (m) are checked by a line search on the content merit function.
@@ -117,6 +117,8 @@ pub struct Workspace {
     /// Per node: the fixed step of pinned junctions while assembling, then every junction's
     /// head change (0 at sources).
     node_step: Vec<f64>,
+    /// Head response to a unit draw at a held junction (matrix order).
+    border: Vec<f64>,
     demand: Vec<f64>,
     /// Fixed head of a junction in the current state (sources are always fixed).
     pinned: Vec<Option<f64>>,
@@ -323,6 +325,7 @@ impl<'n> Hydraulics<'n> {
             known: vec![0.0; nl],
             flow_step: vec![0.0; nl],
             node_step: vec![0.0; self.net.nodes.len()],
+            border: vec![0.0; nj],
             demand: vec![0.0; nj],
             pinned: vec![None; nj],
             factor_key: None,
@@ -419,6 +422,15 @@ impl<'n> Hydraulics<'n> {
         for &(j, q) in request.extra_demand {
             ws.demand[j] += q;
         }
+        // A junction held at a head draws an unknown flow: it is carried as one more unknown
+        // (a bordered system solved with the same factorization, two solves per step), so that
+        // the matrix, and any factorization of it, stays the one of the plain problem.
+        let mut drawn = request
+            .fixed_head
+            .map(|(j, _)| self.imbalance(j, &start.flows_m3s, &ws.demand));
+        if let (Some((j, _)), Some(q)) = (request.fixed_head, drawn) {
+            ws.demand[j] += q;
+        }
         let mut heads = start.heads_m.clone();
         let mut flows = start.flows_m3s.clone();
         let mut states = start.states.clone();
@@ -443,9 +455,7 @@ impl<'n> Hydraulics<'n> {
                     ws.pinned[j] = Some(heads[j]);
                 }
                 dirty = false;
-                let fixed = request.fixed_head.map(|(j, _)| j);
-                need_factor =
-                    !matches!(&ws.factor_key, Some((f, st)) if *f == fixed && st == &states);
+                need_factor = !matches!(&ws.factor_key, Some((None, st)) if st == &states);
             }
 
             // The step of every fixed node: a pinned junction moves to its target in this step,
@@ -530,7 +540,7 @@ impl<'n> Hydraulics<'n> {
                 ws.factor
                     .refactor(&ws.values)
                     .map_err(|_| self.singular_error(ws))?;
-                ws.factor_key = Some((request.fixed_head.map(|(j, _)| j), states.clone()));
+                ws.factor_key = Some((None, states.clone()));
                 factorizations += 1;
             }
             ws.factor.solve_in_place(&mut ws.rhs);
@@ -543,8 +553,25 @@ impl<'n> Hydraulics<'n> {
                     ));
                 }
                 ws.node_step[j] = d;
+            }
+            // The held junction: with x the head response to a unit draw there, the step
+            // δH = y + δQ·x puts it exactly at its head.
+            let mut drawn_step = 0.0;
+            if let Some((held, target)) = request.fixed_head {
+                ws.border.iter_mut().for_each(|v| *v = 0.0);
+                ws.border[self.row_of[held]] = -1.0;
+                ws.factor.solve_in_place(&mut ws.border);
+                let x_held = ws.border[self.row_of[held]];
+                if x_held.abs() > 0.0 && x_held.is_finite() {
+                    drawn_step = (target - heads[held] - ws.node_step[held]) / x_held;
+                    for j in 0..nj {
+                        ws.node_step[j] += drawn_step * ws.border[self.row_of[j]];
+                    }
+                }
+            }
+            for j in 0..nj {
                 if ws.pinned[j].is_none() {
-                    full_step_h = full_step_h.max(d.abs());
+                    full_step_h = full_step_h.max(ws.node_step[j].abs());
                 }
             }
 
@@ -557,7 +584,7 @@ impl<'n> Hydraulics<'n> {
                     ws.known[i] + ws.g_factored[i] * (ws.node_step[a] - ws.node_step[b]);
             }
             let alpha = if !continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M {
-                match self.line_search(ws, &flows, &states, factored_now) {
+                match self.line_search(ws, &flows, &states, factored_now, request.fixed_head) {
                     Some(alpha) => alpha,
                     None => {
                         // A chord step on a stale factorization that does not descend:
@@ -572,6 +599,10 @@ impl<'n> Hydraulics<'n> {
                 1.0
             };
             continuity_pending = false;
+            if let (Some((held, _)), Some(q)) = (request.fixed_head, drawn.as_mut()) {
+                *q += alpha * drawn_step;
+                ws.demand[held] += alpha * drawn_step;
+            }
             let mut step_h = 0.0_f64;
             for j in 0..nj {
                 let d = ws.node_step[j];
@@ -582,7 +613,7 @@ impl<'n> Hydraulics<'n> {
                     heads[j] += d;
                 }
             }
-            let mut step_q = 0.0_f64;
+            let mut step_q = (alpha * drawn_step).abs();
             for i in 0..nl {
                 let dq = alpha * ws.flow_step[i];
                 flows[i] += dq;
@@ -663,9 +694,7 @@ impl<'n> Hydraulics<'n> {
                     if std::env::var("FM_TRACE").is_ok() {
                         eprintln!("  solved: {iteration} it {factorizations} fact");
                     }
-                    let fixed_head_outflow_m3s = request
-                        .fixed_head
-                        .map(|(j, _)| self.imbalance(j, &flows, &ws.demand));
+                    let fixed_head_outflow_m3s = drawn;
                     return Ok(Solution {
                         heads_m: heads,
                         flows_m3s: flows,
@@ -687,14 +716,14 @@ impl<'n> Hydraulics<'n> {
     }
 
     /// Whether the remaining error after a step of size `step`, which was `ratio` times the one
-/// before, is within `tolerance`: either the step itself is, or the steps shrink at least
-/// twofold and the geometric estimate of what remains, step·r/(1 − r), is (the usual error
-/// estimate of a linearly converging iteration; it ends a solve one step earlier).
-fn within(step: f64, ratio: f64, tolerance: f64) -> bool {
-    step < tolerance || (ratio > 0.0 && ratio < 0.5 && step * ratio / (1.0 - ratio) < tolerance)
-}
+    /// before, is within `tolerance`: either the step itself is, or the steps shrink at least
+    /// twofold and the geometric estimate of what remains, step·r/(1 − r), is (the usual error
+    /// estimate of a linearly converging iteration; it ends a solve one step earlier).
+    fn within(step: f64, ratio: f64, tolerance: f64) -> bool {
+        step < tolerance || (ratio > 0.0 && ratio < 0.5 && step * ratio / (1.0 - ratio) < tolerance)
+    }
 
-/// Step length in (0, 1] along `ws.flow_step` that does not increase the content merit
+    /// Step length in (0, 1] along `ws.flow_step` that does not increase the content merit
     /// function (Σ link contents − Σ fixed grade × outflow), by halving after a Newton step;
     /// `None` after a chord step whose full length increases it.
     fn line_search(
@@ -703,7 +732,12 @@ fn within(step: f64, ratio: f64, tolerance: f64) -> bool {
         flows: &[f64],
         states: &[LinkState],
         newton: bool,
+        held: Option<(usize, f64)>,
     ) -> Option<f64> {
+        let fixed_head = |node: usize| match held {
+            Some((j, h)) if j == node => Some(h),
+            _ => self.fixed_head(node, ws),
+        };
         let merit = |alpha: f64| -> f64 {
             let mut total = 0.0;
             for (i, l) in self.net.links.iter().enumerate() {
@@ -712,10 +746,10 @@ fn within(step: f64, ratio: f64, tolerance: f64) -> bool {
                 }
                 let q = flows[i] + alpha * ws.flow_step[i];
                 total += self.laws[i].content(q);
-                if let Some(h) = self.fixed_head(l.from, ws) {
+                if let Some(h) = fixed_head(l.from) {
                     total -= h * q;
                 }
-                if let Some(h) = self.fixed_head(l.to, ws) {
+                if let Some(h) = fixed_head(l.to) {
                     total += h * q;
                 }
             }
@@ -790,9 +824,6 @@ fn within(step: f64, ratio: f64, tolerance: f64) -> bool {
                 Some(ValveKind::Psv) => ws.pinned[l.from] = Some(self.settings[i]),
                 _ => {}
             }
-        }
-        if let Some((j, head)) = request.fixed_head {
-            ws.pinned[j] = Some(head);
         }
     }
 
