@@ -107,11 +107,17 @@ impl CheckReport<'_> {
         let o = self.out();
         let f = o.sym(Quantity::Flow);
         let flow = |q: f64| format!("{} {f}", num(o.flow(q), 0));
+        // "PRV PRV-1" reads badly: the kind is left out when the id already starts with it.
         let link = |i: usize| {
             let l = &net.links[i];
-            match &l.kind {
-                LinkKind::Valve(v) => format!("{} {}", v.kind.name().to_uppercase(), l.id),
-                _ => format!("{} {}", l.kind_name(), l.id),
+            let kind = match &l.kind {
+                LinkKind::Valve(v) => v.kind.name().to_uppercase(),
+                _ => l.kind_name().to_string(),
+            };
+            if l.id.to_lowercase().starts_with(&kind.to_lowercase()) {
+                l.id.clone()
+            } else {
+                format!("{kind} {}", l.id)
             }
         };
         match note {
