@@ -7,8 +7,11 @@
 mod common;
 mod netkit;
 
-use firemain::fireflow::HydrantResult;
+use std::collections::BTreeMap;
+
+use firemain::fireflow::{HydrantResult, Outcome};
 use firemain::model::Network;
+use firemain::upsizing::{apply, plan_upsizing, CostModel, UpsizeConfig, DEFAULT_SIZES_MM};
 use netkit::{criteria, fire_sweep, junction_imbalances, solve, NetFiles, KPA_PER_M};
 use proptest::prelude::*;
 use proptest::test_runner::RngSeed;
@@ -19,6 +22,8 @@ const FLOOR_KPA: f64 = 140.0;
 /// Search cap and required flow, L/s (test inputs, not check values).
 const CAP_LPS: f64 = 300.0;
 const REQUIRED_LPS: f64 = 30.0;
+/// A requirement that the random grids often fail, so that plans are not empty.
+const UPSIZE_REQUIRED_LPS: f64 = 150.0;
 const MAX_DAY: f64 = 1.5;
 
 #[derive(Clone, Debug)]
@@ -305,6 +310,73 @@ proptest! {
             prop_assert!(
                 *q1 <= q0 + search_tolerance(*q0),
                 "hydrant {h}: {q0} -> {q1} m³/s after changing pipe {k}"
+            );
+        }
+    }
+
+    #[test]
+    fn upsizing_a_pipe_never_lowers_available_flow_on_a_tree(
+        t in tree(),
+        which in 0.0..1.0_f64,
+        factor in 1.05..2.0_f64,
+        new_c in 100.0..150.0_f64,
+    ) {
+        // The mirror of the previous property: on a tree fed by one source a smaller
+        // resistance in one pipe raises every head below it and changes none above.
+        let base = t.files();
+        let mut better = t.clone();
+        let k = ((which * better.pipes.len() as f64) as usize).min(better.pipes.len() - 1);
+        better.pipes[k].diameter_mm *= factor;
+        better.pipes[k].c = better.pipes[k].c.max(new_c);
+        let before = available(&sweep_network(&base.load(), 1));
+        let after = available(&sweep_network(&better.files().load(), 1));
+        for (h, (q0, q1)) in before.iter().zip(&after).enumerate() {
+            prop_assert!(
+                *q1 >= q0 - search_tolerance(*q0),
+                "hydrant {h}: {q0} -> {q1} m³/s after upsizing pipe {k}"
+            );
+        }
+    }
+
+    #[test]
+    fn no_upsizing_of_a_plan_can_be_dropped(g in grid()) {
+        // The planner's promise after pruning (docs/fire-flow-method.md §5): dropping any one
+        // upsizing of the plan makes some targeted hydrant that passes with the plan fail.
+        let net = g.files(0.0).load();
+        let c = criteria(&net, FLOOR_KPA, CAP_LPS, UPSIZE_REQUIRED_LPS);
+        let config = UpsizeConfig {
+            sizes_m: DEFAULT_SIZES_MM.iter().map(|d| d / 1000.0).collect(),
+            costs: CostModel::LengthTimesDiameter,
+            hydrants: None,
+            budget: None,
+            threads: Some(1),
+        };
+        let plan = plan_upsizing(&net, &c, &config, &|_| {}).expect("plan");
+        let passing: Vec<usize> = plan
+            .after
+            .iter()
+            .filter(|r| plan.targets.contains(&r.hydrant) && r.outcome == Outcome::Pass)
+            .map(|r| r.hydrant)
+            .collect();
+        let full: BTreeMap<usize, f64> = plan
+            .upsizings
+            .iter()
+            .map(|u| (u.link, u.to_diameter_m))
+            .collect();
+        for u in &plan.upsizings {
+            let mut without = full.clone();
+            without.remove(&u.link);
+            let reduced = apply(&net, &without, 130.0);
+            let results = fire_sweep(&reduced, &c, 1);
+            let still: Vec<usize> = results
+                .iter()
+                .filter(|r| r.outcome == Outcome::Pass)
+                .map(|r| r.hydrant)
+                .collect();
+            prop_assert!(
+                passing.iter().any(|h| !still.contains(h)),
+                "upsizing of {} can be dropped",
+                net.links[u.link].id
             );
         }
     }
