@@ -1532,6 +1532,23 @@ fn summarize(net: &Network, hydrants: usize, elapsed: f64) {
     );
 }
 
+/// Writes the US-unit, Hazen-Williams network of `junctions` junctions and `seed` into `out`
+/// (which must not exist or be empty), as the command line would. Benchmarks include this file
+/// as a module to make their networks.
+pub fn write_us_network(junctions: u32, seed: u64, out: &Path) -> io::Result<()> {
+    let args = Args {
+        junctions,
+        seed,
+        out: out.to_path_buf(),
+        units: Units::Us,
+        headloss: Headloss::HazenWilliams,
+        hydrant_fraction: 0.25,
+    };
+    prepare_dir(&args.out).map_err(io::Error::other)?;
+    let net = generate(junctions as usize, seed);
+    write_network(&net, &args, &args.out).map(|_| ())
+}
+
 fn main() -> ExitCode {
     let args = Args::parse();
     if let Err(e) = prepare_dir(&args.out) {
