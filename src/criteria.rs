@@ -92,6 +92,8 @@ pub struct Criteria {
     pub min_main_diameter_m: Option<f64>,
     /// The file name shown in messages.
     pub file: String,
+    /// Warnings about applying the set to the network (e.g. hydrant classes it does not list).
+    pub warnings: Diagnostics,
 }
 
 /// Where a required fire flow came from.
@@ -112,7 +114,7 @@ impl Criteria {
         if let Some(q) = hydrant
             .class
             .as_ref()
-            .and_then(|c| self.required_flow_by_class.get(c))
+            .and_then(|c| self.required_flow_by_class.get(&class_key(c)))
         {
             return Some((*q, RequiredSource::Class));
         }
@@ -145,7 +147,7 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
                 net.units.name()
             ),
             format!(
-                "use a criteria set written in \"{}\" units (each shipped set has a twin in the other units)",
+                "use a criteria set written in \"{}\" units (common-practice-us.toml and common-practice-si.toml are twins)",
                 net.units.name()
             ),
         );
@@ -230,7 +232,13 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
             Quantity::Flow,
             &mut diags,
         );
-        required_flow_by_class.insert(class.clone(), q);
+        if required_flow_by_class.insert(class_key(class), q).is_some() {
+            diags.error(
+                at(v.span()),
+                format!("[fire.required_flow] names class `{class}` twice (classes are compared without case)"),
+                "keep one value per class",
+            );
+        }
     }
     let mut exempt = Vec::new();
     for e in &c.fire.exempt {
@@ -280,12 +288,29 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         None => (None, None),
     };
 
-    // Every hydrant needs a required flow.
+    // Every hydrant needs a required flow; a class the set does not list falls back on the
+    // default, which deserves a word.
+    let mut warnings = Diagnostics::new();
     for h in &net.hydrants {
         let class_known = h
             .class
             .as_ref()
-            .is_some_and(|c| required_flow_by_class.contains_key(c));
+            .is_some_and(|c| required_flow_by_class.contains_key(&class_key(c)));
+        if let (Some(class), false, None, Some(_)) = (
+            &h.class,
+            class_known,
+            h.required_flow_m3s,
+            default_required_flow_m3s,
+        ) {
+            warnings.warning(
+                Location::line("hydrants.csv", h.line),
+                format!(
+                    "hydrant `{}` has class `{class}`, which {file} does not list: its default_required_flow applies",
+                    h.id
+                ),
+                "add the class under [fire.required_flow], or correct the class name",
+            );
+        }
         if h.required_flow_m3s.is_none() && !class_known && default_required_flow_m3s.is_none() {
             diags.error(
                 Location::line("hydrants.csv", h.line),
@@ -322,5 +347,11 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         new_pipe_roughness,
         min_main_diameter_m,
         file,
+        warnings,
     })
+}
+
+/// Class names are compared without case or surrounding spaces.
+fn class_key(class: &str) -> String {
+    class.trim().to_lowercase()
 }

@@ -7,6 +7,7 @@ use clap::{Parser, Subcommand, ValueEnum};
 
 use firemain::hydraulics::Hydraulics;
 use firemain::model::{load_network, validate, Loaded};
+use firemain::report::upsize::PROPOSED_NETWORK;
 use firemain::report::{self, write_outputs};
 use firemain::steady::{self, Condition};
 use firemain::ExitStatus;
@@ -41,7 +42,7 @@ enum Command {
         /// Criteria set (TOML), e.g. criteria/common-practice-us.toml.
         #[arg(long)]
         criteria: PathBuf,
-        /// Also write fireflow.csv, service.csv, report.md and report.json here.
+        /// Also write fireflow.csv, service.csv, weak_mains.csv, report.md and report.json here.
         #[arg(long)]
         out: Option<PathBuf>,
         /// Analyse only this hydrant (repeatable).
@@ -336,7 +337,12 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
     };
     let net = &loaded.network;
     let criteria = match load_criteria(&args.criteria, net) {
-        Ok(c) => c,
+        Ok(c) => {
+            if !c.warnings.is_empty() {
+                eprint!("{}", report::validate::diagnostics_brief(&c.warnings));
+            }
+            c
+        }
         Err(diags) => {
             eprint!("{}", report::validate::diagnostics(&diags));
             eprintln!("firemain: the criteria have errors; nothing was analysed");
@@ -346,6 +352,7 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
     let mut indices = Vec::new();
     for id in &args.hydrants {
         match net.hydrant_by_id(id) {
+            Some(h) if indices.contains(&h) => {}
             Some(h) => indices.push(h),
             None => {
                 eprintln!("firemain: --hydrant {id}: no hydrant with this id in hydrants.csv (ids are compared exactly)");
@@ -504,7 +511,11 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
         plan_upsizing, CostModel, Progress, UpsizeConfig, DEFAULT_SIZES_IN, DEFAULT_SIZES_MM,
     };
 
-    if !output_folder_ok(args.out.as_deref(), &args.network) {
+    // The proposed network goes to OUT/proposed-network, which must not be the network itself.
+    let proposed_dir = args.out.as_ref().map(|o| o.join(PROPOSED_NETWORK));
+    if !output_folder_ok(args.out.as_deref(), &args.network)
+        || !output_folder_ok(proposed_dir.as_deref(), &args.network)
+    {
         return ExitStatus::InputError;
     }
     let Some(loaded) = load(&args.network) else {
@@ -512,7 +523,12 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
     };
     let net = &loaded.network;
     let criteria = match load_criteria(&args.criteria, net) {
-        Ok(c) => c,
+        Ok(c) => {
+            if !c.warnings.is_empty() {
+                eprint!("{}", report::validate::diagnostics_brief(&c.warnings));
+            }
+            c
+        }
         Err(diags) => {
             eprint!("{}", report::validate::diagnostics(&diags));
             eprintln!("firemain: the criteria have errors; nothing was analysed");
@@ -522,6 +538,7 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
     let mut selected = Vec::new();
     for id in &args.hydrants {
         match net.hydrant_by_id(id) {
+            Some(h) if selected.contains(&h) => {}
             Some(h) => selected.push(h),
             None => {
                 eprintln!("firemain: --hydrant {id}: no hydrant with this id in hydrants.csv (ids are compared exactly)");
@@ -674,7 +691,8 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
             }
         }
     }
-    let all_pass = plan.after.iter().all(|r| r.outcome == Outcome::Pass);
+    let all_pass = plan.after.iter().all(|r| r.outcome == Outcome::Pass)
+        && service.exceptions().next().is_none();
     if all_pass {
         ExitStatus::Success
     } else {

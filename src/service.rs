@@ -89,7 +89,8 @@ pub fn service_check(
         .map(|j| {
             let p = (!peak_cut[j]).then(|| peak.pressure_kpa(net, j));
             let l = (!low_cut[j]).then(|| low.pressure_kpa(net, j));
-            let low_fail = p.is_some_and(|p| p < criteria.service_min_kpa);
+            // A junction cut off from every source has no service at all: it counts as low.
+            let low_fail = p.is_none_or(|p| p < criteria.service_min_kpa);
             let high_fail = l.is_some_and(|l| l > criteria.service_max_kpa);
             ServiceRow {
                 junction: j,

@@ -30,6 +30,17 @@ impl Condition {
         }
     }
 
+    /// The name as a report shows it for `net`: a minimum-hour condition without a factor in
+    /// model.toml is average-day demand and says so.
+    pub fn label(self, net: &Network) -> &'static str {
+        match self {
+            Condition::MinHour if net.demand_factors.min_hour.is_none() => {
+                "min-hour (no factor in model.toml: average-day)"
+            }
+            other => other.name(),
+        }
+    }
+
     /// The multiplier of average-day demand for `net`.
     pub fn factor(self, net: &Network) -> f64 {
         let f = &net.demand_factors;
@@ -93,6 +104,8 @@ pub struct LinkResult {
 pub struct SteadyReport {
     pub network: String,
     pub condition: Condition,
+    /// The condition's name as shown (see [`Condition::label`]).
+    pub condition_label: &'static str,
     pub demand_factor: f64,
     pub iterations: u32,
     pub factorizations: u32,
@@ -165,6 +178,7 @@ pub fn steady_report(
     SteadyReport {
         network: net.name.clone(),
         condition,
+        condition_label: condition.label(net),
         demand_factor: factor,
         iterations: sol.iterations,
         factorizations: sol.factorizations,

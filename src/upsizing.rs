@@ -38,10 +38,14 @@ pub const DEFAULT_NEW_PIPE_C: f64 = 130.0;
 /// Darcy-Weisbach roughness of new cement-lined ductile-iron pipe when the criteria do not say,
 /// m (0.1 mm; from memory: quoted values run 0.03-0.1 mm).
 pub const DEFAULT_NEW_PIPE_ROUGHNESS_M: f64 = 1.0e-4;
+/// The `material` written for a replaced main in the proposed network.
+pub const NEW_MAIN_MATERIAL: &str = "new main (proposed)";
 /// Larger sizes tried per pipe and round.
 const SIZE_STEPS: usize = 4;
 /// Rounds of the greedy search before it stops.
 const MAX_ROUNDS: usize = 60;
+/// Single upsizings tried per hydrant when completing a plan within a budget.
+const COMPLETION_TRIALS: usize = 12;
 /// Shares below this are not candidates (1 %).
 const MIN_CANDIDATE_SHARE: f64 = 0.01;
 
@@ -208,6 +212,11 @@ pub fn plan_upsizing(
         HeadlossFormula::DarcyWeisbach => DEFAULT_NEW_PIPE_ROUGHNESS_M,
     });
 
+    // A replacement main serving hydrants is at least the minimum main size.
+    let min_main = criteria
+        .min_main_diameter_m
+        .unwrap_or_else(|| crate::weakmains::default_min_main_diameter_m(net.units))
+        * (1.0 - 1e-9);
     let mut targets = Vec::new();
     let mut set_aside = Vec::new();
     for r in before.iter().filter(|r| r.outcome == Outcome::Fail) {
@@ -284,7 +293,7 @@ pub fn plan_upsizing(
                     .sizes_m
                     .iter()
                     .enumerate()
-                    .filter(|(_, &d)| d > pipe.diameter_m * (1.0 + 1e-9))
+                    .filter(|(_, &d)| d > pipe.diameter_m * (1.0 + 1e-9) && d >= min_main)
                     .take(SIZE_STEPS);
                 for (k, &d) in larger {
                     let ratio = resistance_ratio(&current, pipe, d, new_roughness);
@@ -390,7 +399,9 @@ pub fn plan_upsizing(
                 config
                     .sizes_m
                     .iter()
-                    .filter(|&&s| s > original * (1.0 + 1e-9) && s < *d * (1.0 - 1e-9))
+                    .filter(|&&s| {
+                        s > original * (1.0 + 1e-9) && s < *d * (1.0 - 1e-9) && s >= min_main
+                    })
                     .map(|&s| Some(s)),
             );
             for option in options {
@@ -416,6 +427,78 @@ pub fn plan_upsizing(
         }
         if !changed {
             break;
+        }
+    }
+
+    // Within a budget the greedy rounds can spend it on partial gains that pass nobody, and
+    // pruning then returns them. Try, hydrant by hydrant, the cheapest single upsizing on its
+    // supply paths that passes it and fits what is left of the budget.
+    if let Some(budget) = config.budget {
+        let failing: Vec<usize> = targets
+            .iter()
+            .copied()
+            .filter(|h| !passing.contains(h))
+            .collect();
+        let network = apply(net, &plan, new_roughness);
+        let results = check(&network, criteria, &failing, config.threads, &mut analyses)?;
+        for r in results {
+            let spent = cost_of(&plan);
+            let mut options: Vec<(f64, usize, f64)> = Vec::new();
+            for share in r
+                .supply_paths
+                .iter()
+                .filter(|s| s.share >= MIN_CANDIDATE_SHARE)
+            {
+                let (Some(original), Some(now)) =
+                    (pipe_of(net, share.link), pipe_of(&network, share.link))
+                else {
+                    continue;
+                };
+                for &d in config
+                    .sizes_m
+                    .iter()
+                    .filter(|&&d| d > now.diameter_m * (1.0 + 1e-9) && d >= min_main)
+                {
+                    let old = plan
+                        .get(&share.link)
+                        .and_then(|&d0| config.costs.cost(net.units, original.length_m, d0))
+                        .unwrap_or(0.0);
+                    if let Some(c) = config.costs.cost(net.units, original.length_m, d) {
+                        if spent + c - old <= budget * (1.0 + 1e-12) {
+                            options.push((c - old, share.link, d));
+                        }
+                    }
+                }
+            }
+            options.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+            for &(_, link, d) in options.iter().take(COMPLETION_TRIALS) {
+                let mut trial = plan.clone();
+                trial.insert(link, d);
+                let trial_net = apply(net, &trial, new_roughness);
+                let alone = check(
+                    &trial_net,
+                    criteria,
+                    &[r.hydrant],
+                    config.threads,
+                    &mut analyses,
+                )?;
+                if alone.first().is_none_or(|a| a.outcome != Outcome::Pass) {
+                    continue;
+                }
+                let all = check(
+                    &trial_net,
+                    criteria,
+                    &targets,
+                    config.threads,
+                    &mut analyses,
+                )?;
+                let now = passing_targets(&all);
+                if passing.iter().all(|h| now.contains(h)) {
+                    plan = trial;
+                    passing = now;
+                    break;
+                }
+            }
         }
     }
 
@@ -468,6 +551,7 @@ pub fn apply(net: &Network, plan: &BTreeMap<usize, f64>, new_roughness: f64) -> 
             let mut p = pipe_of(net, link)?.clone();
             p.diameter_m = d;
             p.roughness = new_roughness;
+            p.material = Some(NEW_MAIN_MATERIAL.to_string());
             Some((link, p))
         })
         .collect();

@@ -1164,6 +1164,38 @@ fn output_folder_is_the_network_folder_is_an_input_error() {
     assert_refused_by(&net, &check, &[]);
 }
 
+/// `upsize` writes the proposed network into OUT/proposed-network: a network folder of that
+/// name inside the output folder would be overwritten, so it is refused before any analysis.
+#[test]
+fn upsize_output_that_would_overwrite_the_network_is_an_input_error() {
+    let root = tempfile::tempdir().expect("temporary folder");
+    let net_dir = root.path().join("proposed-network");
+    fs::create_dir(&net_dir).expect("network folder");
+    for (file, text) in [
+        ("model.toml", MODEL_US),
+        ("junctions.csv", JUNCTIONS_US),
+        ("sources.csv", SOURCES_US),
+        ("pipes.csv", PIPES_US),
+        ("hydrants.csv", HYDRANTS_US),
+    ] {
+        fs::write(net_dir.join(file), text).expect("write test input");
+    }
+    let criteria = root.path().join("criteria.toml");
+    fs::write(&criteria, CRITERIA_US).expect("criteria");
+    let before = fs::read(net_dir.join("pipes.csv")).expect("read");
+    let run = firemain(&[
+        OsString::from("upsize"),
+        net_dir.clone().into(),
+        "--criteria".into(),
+        criteria.into(),
+        "--out".into(),
+        root.path().into(),
+    ]);
+    run.assert_code(2);
+    assert!(run.text().contains("network folder"), "{}", run.text());
+    assert_eq!(fs::read(net_dir.join("pipes.csv")).expect("read"), before);
+}
+
 /// Printing into a pipe that the reader has closed (as `firemain validate NET | head` does)
 /// ends quietly, without a panic.
 #[test]

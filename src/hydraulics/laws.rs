@@ -14,7 +14,7 @@ use super::headloss::{
     darcy_friction, darcy_weisbach_coefficient, hazen_williams_resistance, minor_loss_coefficient,
     reynolds_number, HW_FLOW_EXPONENT,
 };
-use crate::model::{HeadlossFormula, Link, LinkKind, ValveKind};
+use crate::model::{HeadlossFormula, Link, LinkKind, ValveKind, ValveStatus};
 
 /// Flow below which a power law is replaced by its cubic, m³/s (1e-4 m³/s = 1.6 gpm).
 pub const ZERO_FLOW_M3S: f64 = 1.0e-4;
@@ -112,7 +112,9 @@ impl LinkLaw {
                 }
             }
             LinkKind::Valve(v) => {
-                let k = if v.kind == ValveKind::Throttle {
+                // A throttle that regulates (status active) is its partly closed loss K =
+                // setting; any valve held open has its wide-open loss.
+                let k = if v.kind == ValveKind::Throttle && v.status == ValveStatus::Active {
                     v.setting
                 } else {
                     v.minor_loss

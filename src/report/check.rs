@@ -88,7 +88,7 @@ impl CheckReport<'_> {
                 Scope::System => "every junction",
                 Scope::Zone => "every junction of the hydrant's zone",
             },
-            num(o.flow(self.criteria.search_cap_m3s), 0),
+            o.flow_text(self.criteria.search_cap_m3s),
             o.sym(Quantity::Flow),
             match self.criteria.max_velocity_m_per_s {
                 Some(v) => format!(
@@ -106,7 +106,7 @@ impl CheckReport<'_> {
         let net = self.network;
         let o = self.out();
         let f = o.sym(Quantity::Flow);
-        let flow = |q: f64| format!("{} {f}", num(o.flow(q), 0));
+        let flow = |q: f64| format!("{} {f}", o.flow_text(q));
         // "PRV PRV-1" reads badly: the kind is left out when the id already starts with it.
         let link = |i: usize| {
             let l = &net.links[i];
@@ -217,7 +217,7 @@ impl CheckReport<'_> {
             .filter(|r| r.outcome != Outcome::Pass)
             .take(5)
             .map(|r| match r.margin_m3s() {
-                Some(m) => format!("{} ({} {f} short)", self.hydrant_id(r), num(o.flow(-m), 0)),
+                Some(m) => format!("{} ({} {f} short)", self.hydrant_id(r), o.flow_text(-m)),
                 None => format!("{} (error)", self.hydrant_id(r)),
             })
             .collect();
@@ -263,7 +263,7 @@ impl CheckReport<'_> {
 
     fn table_row(&self, r: &HydrantResult) -> Vec<String> {
         let o = self.out();
-        let flow = |q: Option<f64>| q.map(|q| num(o.flow(q), 0)).unwrap_or_default();
+        let flow = |q: Option<f64>| q.map(|q| o.flow_text(q)).unwrap_or_default();
         let pressure = |p: Option<f64>| p.map(|p| num(o.pressure(p), 1)).unwrap_or_default();
         // A demand-driven model computes pressures far below zero when a main cannot carry the
         // required flow; the table says so rather than show a meaningless number (the CSV keeps
@@ -347,11 +347,7 @@ impl CheckReport<'_> {
                     pressure(r.residual_kpa),
                     pressure(r.min_pressure_kpa),
                     self.node_id(r.min_pressure_junction),
-                    if r.limited_by == Some(crate::fireflow::LimitedBy::SystemPressure) {
-                        self.node_id(r.critical_junction)
-                    } else {
-                        String::new()
-                    },
+                    self.node_id(r.critical_junction),
                     r.limited_by.map(|l| l.name()).unwrap_or("").to_string(),
                     r.outcome.name().to_string(),
                     self.notes_text(r),
@@ -504,7 +500,7 @@ impl CheckReport<'_> {
             "pipe".into(),
             format!("diameter ({})", o.sym(Quantity::Diameter)),
             format!("length ({l})"),
-            "material".into(),
+            "material/class".into(),
             "hydrants limited".into(),
             "largest share".into(),
             format!("unit head loss ({l}/1000 {l})"),

@@ -58,6 +58,14 @@ pub fn write_outputs(
     if is_same_folder(dir, input_dir) {
         return Err(ReportError::OutputIsInput(dir.to_path_buf()));
     }
+    // No file may land in the network folder: checked for all before any is written.
+    for f in files {
+        if let Some(parent) = dir.join(&f.name).parent() {
+            if is_same_folder(parent, input_dir) {
+                return Err(ReportError::OutputIsInput(parent.to_path_buf()));
+            }
+        }
+    }
     let mut written = Vec::new();
     for f in files {
         let path = dir.join(&f.name);
@@ -173,6 +181,16 @@ impl Out {
             (UnitSystem::Si, Quantity::Pressure) => 0,
             (_, Quantity::Velocity) => 2,
         }
+    }
+
+    /// A flow for tables and text: whole gpm, or L/s to 0.1 (whole L/s would hide a 0.5 L/s
+    /// shortfall behind equal-looking numbers).
+    pub fn flow_text(&self, m3s: f64) -> String {
+        let decimals = match self.units {
+            UnitSystem::Us => 0,
+            UnitSystem::Si => 1,
+        };
+        num(self.flow(m3s), decimals)
     }
 
     /// An SI value formatted in these units.

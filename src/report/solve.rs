@@ -15,8 +15,7 @@ pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
     s.push_str(&format!("Network:    {}\n", report.network));
     s.push_str(&format!(
         "Condition:  {} demand (x{} average day)\n",
-        report.condition.name(),
-        report.demand_factor
+        report.condition_label, report.demand_factor
     ));
     s.push_str(&format!(
         "Solved in:  {} iterations ({} factorizations)\n",

@@ -11,6 +11,9 @@ use crate::model::{LinkKind, Network, PipeStatus};
 use crate::units::Quantity;
 use crate::upsizing::{CostModel, UpsizePlan};
 
+/// The folder, inside the output folder, that holds the proposed network.
+pub const PROPOSED_NETWORK: &str = "proposed-network";
+
 /// The plan's own cautions, on top of the check's.
 pub const PLAN_CAUTIONS: &[&str] = &[
     "This plan is a screening proposal from a steady-state model, not a design. A licensed engineer must design and check any main replacement: surge and transients, fire storage and supply duration, water age and quality with larger mains, and constructability.",
@@ -95,7 +98,7 @@ impl UpsizeReport<'_> {
             "before".to_string(),
             "after".to_string(),
         ];
-        let flow = |q: Option<f64>| q.map(|q| num(o.flow(q), 0)).unwrap_or_default();
+        let flow = |q: Option<f64>| q.map(|q| o.flow_text(q)).unwrap_or_default();
         let rows = self
             .plan
             .targets
@@ -166,6 +169,15 @@ impl UpsizeReport<'_> {
                 ids.join(", ")
             ));
         }
+        let o = self.out();
+        s.push_str(&format!(
+            "Service:    with the plan, {} of {} junctions outside {}-{} {}\n",
+            self.after.service.exceptions().count(),
+            self.after.service.rows.len(),
+            num(o.pressure(self.after.criteria.service_min_kpa), 0),
+            num(o.pressure(self.after.criteria.service_max_kpa), 0),
+            o.sym(Quantity::Pressure)
+        ));
         s.push_str(
             "A screening proposal: a licensed engineer must design and check any replacement.\n",
         );
@@ -347,13 +359,13 @@ impl UpsizeReport<'_> {
         for (name, bytes) in network_files {
             if name != "pipes.csv" {
                 files.push(OutputFile {
-                    name: format!("proposed-network/{name}"),
+                    name: format!("{PROPOSED_NETWORK}/{name}"),
                     bytes,
                 });
             }
         }
         files.push(OutputFile {
-            name: "proposed-network/pipes.csv".into(),
+            name: format!("{PROPOSED_NETWORK}/pipes.csv"),
             bytes: pipes_csv(&self.plan.proposed)?,
         });
         Ok(files)

@@ -44,10 +44,15 @@ fn listing(diags: &Diagnostics, shown: usize, more_hint: &str) -> String {
         }
     }
     s.push_str(&format!(
-        "{} error(s), {} warning(s), {} note(s). Plausibility warnings are common practice, not a published standard.\n",
+        "{} error(s), {} warning(s), {} note(s).{}\n",
         diags.count(Severity::Error),
         diags.count(Severity::Warning),
-        diags.count(Severity::Note)
+        diags.count(Severity::Note),
+        if diags.count(Severity::Warning) > 0 {
+            " Plausibility warnings are common practice, not a published standard."
+        } else {
+            ""
+        }
     ));
     s
 }
