@@ -394,16 +394,55 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
 
     // The hydrant-limited flow, from one solve with the hydrant held at the floor.
     let mut answer: Option<LimitedBy> = None;
-    // Start near the hydrant-limited flow, estimated from the static and residual pressures as
-    // a field flow test would be (NFPA 291 §4.13: Q = Q_t·((S − floor)/(S − R))^0.54).
-    let start = match (&at_required_copy, result.residual_kpa, result.static_kpa) {
-        (Some(p), Some(r), Some(st)) if st - r > 1e-6 && st > floor => {
-            let q_est = p.q * ((st - floor) / (st - r)).powf(1.0 / SUPPLY_CURVE_EXPONENT);
-            predict(&base_copy, p, q_est.min(4.0 * p.q))
+    // Start near the hydrant-limited flow. Its estimate is the supply-curve projection a field
+    // flow test would make from the static and residual pressures (NFPA 291 §4.13:
+    // Q = Q_t·((S − floor)/(S − R))^(1/n)), with the exponent n of this hydrant's own supply
+    // curve, S − R = k·Q^n, fitted to the slope dH/dQ at the required flow (from the
+    // factorization already made there) instead of the fixed 1/0.54. The start state extends
+    // the required-flow state along the same curve: each head's fire-induced drop scaled by
+    // (Q/Q_t)^n, flows by their linear response to the extra draw.
+    let response = at_required_copy
+        .as_ref()
+        .and_then(|_| s.setup.hydraulics.demand_response(s.ws, at));
+    let estimate = match (&at_required_copy, response) {
+        (Some(p), Some((dh, dq))) => {
+            let drop = base_copy.sol.heads_m[at] - p.sol.heads_m[at];
+            let to_floor = base_copy.sol.heads_m[at] - s.setup.floor_head_m(at);
+            let slope = -dh[at] * p.q;
+            let n = if drop > 1e-9 && slope > 0.0 {
+                (slope / drop).clamp(1.2, 2.5)
+            } else {
+                SUPPLY_CURVE_EXPONENT
+            };
+            (drop > 1e-9 && to_floor > drop).then(|| (p.q * (to_floor / drop).powf(1.0 / n), n, dq))
         }
-        _ => nearest(&lo, hi.as_ref(), lo.q).clone(),
+        _ => None,
     };
-    match s.hydrant_limited(&start) {
+    let fallback = nearest(&lo, hi.as_ref(), lo.q).clone();
+    let predicted = |q: f64| -> Solution {
+        match (&at_required_copy, &estimate) {
+            (Some(p), Some((_, n, dq))) => {
+                let scale = (q / p.q).powf(*n) - 1.0;
+                let mut sol = p.sol.clone();
+                for (h, (hb, hr)) in sol
+                    .heads_m
+                    .iter_mut()
+                    .zip(base_copy.sol.heads_m.iter().zip(&p.sol.heads_m))
+                {
+                    *h = hr + (hr - hb) * scale;
+                }
+                for (f, d) in sol.flows_m3s.iter_mut().zip(dq) {
+                    *f += d * (q - p.q);
+                }
+                sol
+            }
+            (Some(p), None) => p.sol.clone(),
+            _ => fallback.clone(),
+        }
+    };
+    let start = predicted(estimate.as_ref().map_or(0.0, |e| e.0.min(cap)));
+    let held = s.hydrant_limited(&start);
+    match held {
         Ok(p) if p.q <= lo.q => {
             // Already past the hydrant's floor at a passing flow: only round-off; keep lo.
             answer = Some(LimitedBy::HydrantPressure);

@@ -21,8 +21,14 @@ pub const ZERO_FLOW_M3S: f64 = 1.0e-4;
 
 /// φ and dφ/dQ of c·|Q|^(p−1)·Q, smoothed below [`ZERO_FLOW_M3S`].
 fn smoothed_power(c: f64, p: f64, q: f64) -> (f64, f64) {
+    if c == 0.0 {
+        return (0.0, 0.0);
+    }
     let e = ZERO_FLOW_M3S;
     let a = q.abs();
+    if a >= e && p == 2.0 {
+        return (c * a * q, 2.0 * c * a);
+    }
     if a < e {
         let lin = c * e.powf(p - 1.0) * (3.0 - p) / 2.0;
         let cub = c * e.powf(p - 3.0) * (p - 1.0) / 2.0;
@@ -35,6 +41,9 @@ fn smoothed_power(c: f64, p: f64, q: f64) -> (f64, f64) {
 
 /// ∫₀^q of [`smoothed_power`].
 fn smoothed_power_content(c: f64, p: f64, q: f64) -> f64 {
+    if c == 0.0 {
+        return 0.0;
+    }
     let e = ZERO_FLOW_M3S;
     let a = q.abs();
     let lin = c * e.powf(p - 1.0) * (3.0 - p) / 2.0;

@@ -117,8 +117,10 @@ pub struct Workspace {
     /// Per node: the fixed step of pinned junctions while assembling, then every junction's
     /// head change (0 at sources).
     node_step: Vec<f64>,
-    /// Head response to a unit draw at a held junction (matrix order).
+    /// Head response to a unit draw at a held junction (matrix order), for the current
+    /// factorization and the junction in `border_of`.
     border: Vec<f64>,
+    border_of: Option<usize>,
     demand: Vec<f64>,
     /// Fixed head of a junction in the current state (sources are always fixed).
     pinned: Vec<Option<f64>>,
@@ -150,6 +152,7 @@ impl Workspace {
 
     /// Makes `snapshot` the current factorization.
     pub fn restore(&mut self, snapshot: &FactorSnapshot) {
+        self.border_of = None;
         self.factor.set_values(&snapshot.l_values);
         self.g_factored.copy_from_slice(&snapshot.g_factored);
         self.factor_key = Some(snapshot.key.clone());
@@ -166,6 +169,7 @@ impl Workspace {
     /// number of threads.)
     pub fn forget_factor(&mut self) {
         self.factor_key = None;
+        self.border_of = None;
     }
 }
 
@@ -326,6 +330,7 @@ impl<'n> Hydraulics<'n> {
             flow_step: vec![0.0; nl],
             node_step: vec![0.0; self.net.nodes.len()],
             border: vec![0.0; nj],
+            border_of: None,
             demand: vec![0.0; nj],
             pinned: vec![None; nj],
             factor_key: None,
@@ -339,6 +344,31 @@ impl<'n> Hydraulics<'n> {
     }
 
     /// The link law (for reports of head loss).
+    /// The linearised response of heads (per node, m) and link flows (m³/s) to one more m³/s
+    /// drawn at junction `node`, from the workspace's current factorization (that of the last
+    /// solve); `None` when there is none. This is the sensitivity of the last state to a
+    /// demand: one solve with the factorization already made.
+    pub fn demand_response(&self, ws: &mut Workspace, node: usize) -> Option<(Vec<f64>, Vec<f64>)> {
+        if ws.factor_key.is_none() || node >= self.n_junctions || ws.pinned[node].is_some() {
+            return None;
+        }
+        ws.border.iter_mut().for_each(|v| *v = 0.0);
+        ws.border[self.row_of[node]] = -1.0;
+        ws.factor.solve_in_place(&mut ws.border);
+        ws.border_of = Some(node);
+        let mut heads = vec![0.0; self.net.nodes.len()];
+        for j in 0..self.n_junctions {
+            heads[j] = ws.border[self.row_of[j]];
+        }
+        let flows = self
+            .ends
+            .iter()
+            .zip(&ws.g_factored)
+            .map(|(&(a, b), g)| g * (heads[a] - heads[b]))
+            .collect();
+        Some((heads, flows))
+    }
+
     pub fn law(&self, link: usize) -> &LinkLaw {
         &self.laws[link]
     }
@@ -537,6 +567,7 @@ impl<'n> Hydraulics<'n> {
             let factored_now = need_factor;
             if need_factor {
                 ws.factor_key = None;
+                ws.border_of = None;
                 ws.factor
                     .refactor(&ws.values)
                     .map_err(|_| self.singular_error(ws))?;
@@ -558,9 +589,13 @@ impl<'n> Hydraulics<'n> {
             // δH = y + δQ·x puts it exactly at its head.
             let mut drawn_step = 0.0;
             if let Some((held, target)) = request.fixed_head {
-                ws.border.iter_mut().for_each(|v| *v = 0.0);
-                ws.border[self.row_of[held]] = -1.0;
-                ws.factor.solve_in_place(&mut ws.border);
+                // The response to a unit draw depends only on the factorization: renewed with it.
+                if factored_now || ws.border_of != Some(held) {
+                    ws.border.iter_mut().for_each(|v| *v = 0.0);
+                    ws.border[self.row_of[held]] = -1.0;
+                    ws.factor.solve_in_place(&mut ws.border);
+                    ws.border_of = Some(held);
+                }
                 let x_held = ws.border[self.row_of[held]];
                 if x_held.abs() > 0.0 && x_held.is_finite() {
                     drawn_step = (target - heads[held] - ws.node_step[held]) / x_held;
@@ -583,21 +618,24 @@ impl<'n> Hydraulics<'n> {
                 ws.flow_step[i] =
                     ws.known[i] + ws.g_factored[i] * (ws.node_step[a] - ws.node_step[b]);
             }
-            let alpha = if !continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M {
-                match self.line_search(ws, &flows, &states, factored_now, request.fixed_head) {
-                    Some(alpha) => alpha,
-                    None => {
-                        // A chord step on a stale factorization that does not descend:
-                        // discard it and take a Newton step instead.
-                        need_factor = true;
-                        previous_step = f64::INFINITY;
-                        previous_flow_step = f64::INFINITY;
-                        continue;
+            // Steps that shrink at least twofold need no line search: the iteration contracts.
+            let contracting = full_step_h < 0.5 * previous_step;
+            let alpha =
+                if !continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M && !contracting {
+                    match self.line_search(ws, &flows, &states, factored_now, request.fixed_head) {
+                        Some(alpha) => alpha,
+                        None => {
+                            // A chord step on a stale factorization that does not descend:
+                            // discard it and take a Newton step instead.
+                            need_factor = true;
+                            previous_step = f64::INFINITY;
+                            previous_flow_step = f64::INFINITY;
+                            continue;
+                        }
                     }
-                }
-            } else {
-                1.0
-            };
+                } else {
+                    1.0
+                };
             continuity_pending = false;
             if let (Some((held, _)), Some(q)) = (request.fixed_head, drawn.as_mut()) {
                 *q += alpha * drawn_step;
