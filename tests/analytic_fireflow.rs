@@ -32,10 +32,10 @@ fn flow_for_head(r: f64, head_m: f64) -> f64 {
 
 /// The search's promise: the answer is a verified passing flow, so not above the exact
 /// limit, and within max(0.5 %, 1 gpm) of it. "Not above" is up to the floor tolerance the
-/// search accepts as passing (`FLOOR_TOLERANCE_KPA`) plus the search solves' head tolerance, turned
+/// search accepts as passing (`FLOOR_TOLERANCE_KPA`) plus the head tolerance of the solves that place a flow (`Tolerance::BRACKET`), turned
 /// into flow by the closed form `exact_at(extra head)`.
 fn assert_within_promise(id: &str, got: f64, exact: f64, exact_at: impl Fn(f64) -> f64) {
-    let slack = FLOOR_TOLERANCE_KPA / KPA_PER_M + Tolerance::SEARCH.head_m;
+    let slack = FLOOR_TOLERANCE_KPA / KPA_PER_M + Tolerance::BRACKET.head_m;
     let upper = exact_at(slack);
     let tolerance = (0.005 * exact).max(M3S_PER_GPM);
     assert!(

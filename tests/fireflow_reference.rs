@@ -28,11 +28,13 @@ fn sweep_town_matches_independent_bisection_sweep() {
         assert_eq!(&row["hydrant"], id);
         let exact: f64 = row["available_gpm"].parse().unwrap();
         let got = r.available_m3s.expect("available") / M3S_PER_GPM;
-        // Accuracy promised: max(0.5 %, 1 gpm), and the answer is a verified passing flow, so
-        // never above the exact value (plus the reference's own 0.01 gpm bracket).
+        // Accuracy promised: max(0.5 %, 1 gpm), and the answer is a passing flow verified by a
+        // solve, so not above the exact value beyond that solve's own accuracy (0.1 %: a head
+        // tolerance of 2e-3 m over the metres between static head and floor) and the
+        // reference's 0.01 gpm bracket.
         let tol = (0.005 * exact).max(1.0);
         assert!(
-            got <= exact + 0.02 && got >= exact - tol,
+            got <= exact * 1.001 + 0.01 && got >= exact - tol,
             "{id}: available {got:.2} gpm vs exact {exact:.2}"
         );
         let static_psi: f64 = row["static_psi"].parse().unwrap();

@@ -18,7 +18,7 @@ use super::{
     ConstraintCheck, FireFlowSetup, HydrantNote, HydrantResult, LimitedBy, Outcome,
     FLOOR_TOLERANCE_KPA,
 };
-use crate::hydraulics::{Solution, SolveError, SolveRequest, Workspace};
+use crate::hydraulics::{Solution, SolveError, SolveRequest, Tolerance, Workspace};
 use crate::units::{UnitSystem, M3S_PER_GPM};
 
 /// Exponent of the supply-curve model used by the secant step (Hazen-Williams, 1/0.54).
@@ -54,7 +54,23 @@ struct Search<'s, 'a> {
 }
 
 impl Search<'_, '_> {
+    /// A solve at fire flow `q`, to the tolerance of reported pressures.
     fn evaluate(&mut self, q: f64, start: &Solution) -> Result<Point, SolveError> {
+        self.solve_at(q, start, Tolerance::SEARCH)
+    }
+
+    /// A solve at fire flow `q` whose use is to place a flow (bracket probes, samples).
+    fn probe(&mut self, q: f64, start: &Solution) -> Result<Point, SolveError> {
+        self.solve_at(q, start, Tolerance::BRACKET)
+    }
+
+    fn solve_at(
+        &mut self,
+        q: f64,
+        start: &Solution,
+        tolerance: Tolerance,
+    ) -> Result<Point, SolveError> {
+        self.ws.set_tolerance(tolerance);
         let extra = [(self.at, q)];
         let request = SolveRequest {
             demand_factor: self.setup.demand_factor,
@@ -80,13 +96,16 @@ impl Search<'_, '_> {
         // The start is an extrapolation to a larger flow, where the pipes near the hydrant are
         // stiffer than in the last factorization: a fresh one serves the first step better.
         self.ws.forget_factor();
+        self.ws.set_tolerance(Tolerance::BRACKET);
         let request = SolveRequest {
             demand_factor: self.setup.demand_factor,
             extra_demand: &[],
             fixed_head: Some((self.at, self.setup.floor_head_m(self.at))),
         };
         self.solves += 1;
-        let sol = self.setup.hydraulics.solve(self.ws, &request, start)?;
+        let sol = self.setup.hydraulics.solve(self.ws, &request, start);
+        self.ws.set_tolerance(Tolerance::SEARCH);
+        let sol = sol?;
         self.factorizations += sol.factorizations;
         self.iterations += sol.iterations;
         if std::env::var("FM_TRACE2").is_ok() {
@@ -248,7 +267,7 @@ pub fn analyse_hydrant(
     // Each hydrant starts from the max-day factorization, so that its result does not depend
     // on which thread analysed it or what that thread analysed before.
     ws.forget_factor();
-    ws.set_tolerance(crate::hydraulics::Tolerance::SEARCH);
+    ws.set_tolerance(Tolerance::SEARCH);
     if let Some(snapshot) = &setup.base_factor {
         ws.restore(snapshot);
     }
@@ -449,7 +468,7 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
         }
         Ok(p) if p.q >= cap => {
             if hi.as_ref().is_none_or(|h| h.q > cap) {
-                match s.evaluate(cap, &p.sol) {
+                match s.probe(cap, &p.sol) {
                     Ok(c) if c.check.feasible() => {
                         lo = c;
                         answer = Some(LimitedBy::Cap);
@@ -479,7 +498,7 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
                 break;
             }
             let start = lo.sol.clone();
-            match s.evaluate(upper, &start) {
+            match s.probe(upper, &start) {
                 Ok(p) if p.check.feasible() => {
                     let is_cap = p.q >= cap;
                     lo = p;
@@ -528,7 +547,7 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
         };
         for k in 1..samples {
             let q = top * f64::from(k) / f64::from(samples);
-            match s.evaluate(q, &previous.sol) {
+            match s.probe(q, &previous.sol) {
                 Ok(p) if p.check.feasible() => previous = p,
                 Ok(p) => {
                     result.notes.push(HydrantNote::NonMonotone {
@@ -650,7 +669,7 @@ fn bracket_search(
             (0.5 * (lo.q + h.q), None)
         };
         let start = predict(lo, h, q);
-        let passed = match s.evaluate(q, &start) {
+        let passed = match s.probe(q, &start) {
             Ok(p) if p.check.feasible() => {
                 third = Some(std::mem::replace(lo, p));
                 true
@@ -699,7 +718,7 @@ fn locate_state_changes(s: &mut Search<'_, '_>, at_answer: &Point, result: &mut 
         let mut start = base.clone();
         for _ in 0..STATE_CHANGE_STEPS {
             let mid = 0.5 * (a + b);
-            match s.evaluate(mid, &start) {
+            match s.probe(mid, &start) {
                 Ok(p) => {
                     if p.sol.states[i] == base.states[i] {
                         a = mid;
