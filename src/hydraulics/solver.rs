@@ -64,6 +64,8 @@ pub const MAX_ITERATIONS: u32 = 200;
 const CHORD_MAX_STEP_M: f64 = 0.1;
 /// ... and each step shrinks the previous one at least by this factor.
 const CHORD_MAX_RATIO: f64 = 0.45;
+/// Marks "no matrix row or slot" in the per-link index arrays.
+const NO_ROW: u32 = u32::MAX;
 /// Head steps above this (m) are checked by a line search on the content merit function.
 const LINE_SEARCH_MIN_STEP_M: f64 = 0.1;
 /// Relative round-off allowed in the line search's merit comparison.
@@ -103,8 +105,10 @@ pub struct Hydraulics<'n> {
     row_of: Vec<usize>,
     /// Diagonal slot of each junction.
     diag_slot: Vec<usize>,
-    /// Off-diagonal slot of each link joining two different junctions.
-    off_slot: Vec<Option<usize>>,
+    /// Matrix rows of each link's ends ([`NO_ROW`] at a source or on a self-loop).
+    link_rows: Vec<[u32; 2]>,
+    /// Diagonal slots of each link's ends and its off-diagonal slot ([`NO_ROW`] where none).
+    link_slots: Vec<[u32; 3]>,
     /// Links at each node: `adj_links[adj_ptr[n]..adj_ptr[n+1]]`.
     adj_ptr: Vec<usize>,
     adj_links: Vec<usize>,
@@ -125,6 +129,8 @@ pub struct Workspace {
     /// Per node: the fixed step of pinned junctions while assembling, then every junction's
     /// head change (0 at sources).
     node_step: Vec<f64>,
+    /// Per link: the last exact (|Q|, |Q|^0.852) of a Hazen-Williams pipe.
+    memo: Vec<(f64, f64)>,
     /// Head response to a unit draw at a held junction (matrix order), for the current
     /// factorization and the junction in `border_of`.
     border: Vec<f64>,
@@ -264,7 +270,7 @@ impl<'n> Hydraulics<'n> {
             .map(|l| (l.from, l.to))
             .collect();
         let pattern = OrderedPattern::new(nj, &pairs).map_err(SolveError::Internal)?;
-        let off_slot = net
+        let off_slot: Vec<Option<usize>> = net
             .links
             .iter()
             .map(|l| {
@@ -275,7 +281,40 @@ impl<'n> Hydraulics<'n> {
             .collect();
         let row_of = (0..nj).map(|j| pattern.position(j)).collect();
         let diag_slot = (0..nj).map(|j| pattern.diagonal_slot(j)).collect();
-        let ends = net.links.iter().map(|l| (l.from, l.to)).collect();
+        let ends: Vec<(usize, usize)> = net.links.iter().map(|l| (l.from, l.to)).collect();
+        let row = |n: usize| {
+            if n < nj {
+                u32::try_from(pattern.position(n)).unwrap_or(NO_ROW)
+            } else {
+                NO_ROW
+            }
+        };
+        let slot = |n: usize| {
+            if n < nj {
+                u32::try_from(pattern.diagonal_slot(n)).unwrap_or(NO_ROW)
+            } else {
+                NO_ROW
+            }
+        };
+        let link_rows = ends
+            .iter()
+            .map(|&(a, b)| if a == b { [NO_ROW; 2] } else { [row(a), row(b)] })
+            .collect();
+        let link_slots = ends
+            .iter()
+            .zip(&off_slot)
+            .map(|(&(a, b), off): (&(usize, usize), &Option<usize>)| {
+                if a == b {
+                    [NO_ROW; 3]
+                } else {
+                    [
+                        slot(a),
+                        slot(b),
+                        off.and_then(|o| u32::try_from(o).ok()).unwrap_or(NO_ROW),
+                    ]
+                }
+            })
+            .collect();
         let valve_kinds = net
             .links
             .iter()
@@ -311,10 +350,11 @@ impl<'n> Hydraulics<'n> {
             source_grade,
             ends,
             valve_kinds,
+            link_rows,
+            link_slots,
             pattern,
             row_of,
             diag_slot,
-            off_slot,
             adj_ptr,
             adj_links,
             analysis,
@@ -339,6 +379,7 @@ impl<'n> Hydraulics<'n> {
             node_step: vec![0.0; self.net.nodes.len()],
             border: vec![0.0; nj],
             border_of: None,
+            memo: vec![(0.0, 0.0); nl],
             demand: vec![0.0; nj],
             pinned: vec![None; nj],
             factor_key: None,
@@ -519,7 +560,7 @@ impl<'n> Hydraulics<'n> {
                 } else {
                     match states[i] {
                         st if st.conducts() => {
-                            let (phi, slope) = self.laws[i].evaluate(q);
+                            let (phi, slope) = self.laws[i].evaluate_with(q, &mut ws.memo[i]);
                             let g = if need_factor {
                                 1.0 / slope
                             } else {
@@ -541,26 +582,26 @@ impl<'n> Hydraulics<'n> {
                 if a == b {
                     continue;
                 }
+                // Rows and slots of pinned junctions are overwritten below, so only the
+                // off-diagonal entry needs both ends free.
                 let carried = q + k;
-                let free_a = a < nj && ws.pinned[a].is_none();
-                let free_b = b < nj && ws.pinned[b].is_none();
-                if a < nj {
-                    ws.rhs[self.row_of[a]] += g * ws.node_step[b] - carried;
+                let [row_a, row_b] = self.link_rows[i];
+                if row_a != NO_ROW {
+                    ws.rhs[row_a as usize] += g * ws.node_step[b] - carried;
                 }
-                if b < nj {
-                    ws.rhs[self.row_of[b]] += g * ws.node_step[a] + carried;
+                if row_b != NO_ROW {
+                    ws.rhs[row_b as usize] += g * ws.node_step[a] + carried;
                 }
                 if need_factor {
-                    if free_a {
-                        ws.values[self.diag_slot[a]] += g;
+                    let [diag_a, diag_b, off] = self.link_slots[i];
+                    if diag_a != NO_ROW {
+                        ws.values[diag_a as usize] += g;
                     }
-                    if free_b {
-                        ws.values[self.diag_slot[b]] += g;
+                    if diag_b != NO_ROW {
+                        ws.values[diag_b as usize] += g;
                     }
-                    if free_a && free_b {
-                        if let Some(slot) = self.off_slot[i] {
-                            ws.values[slot] -= g;
-                        }
+                    if off != NO_ROW && ws.pinned[a].is_none() && ws.pinned[b].is_none() {
+                        ws.values[off as usize] -= g;
                     }
                 }
             }
