@@ -468,7 +468,13 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
         }
         Ok(p) if p.q >= cap => {
             if hi.as_ref().is_none_or(|h| h.q > cap) {
-                match s.probe(cap, &p.sol) {
+                // Between the required-flow state and the held one, the cap is best reached
+                // by interpolation.
+                let start = match &at_required_copy {
+                    Some(r) if r.q < p.q => predict(r, &p, cap),
+                    _ => p.sol.clone(),
+                };
+                match s.probe(cap, &start) {
                     Ok(c) if c.check.feasible() => {
                         lo = c;
                         answer = Some(LimitedBy::Cap);
