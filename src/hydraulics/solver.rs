@@ -298,7 +298,13 @@ impl<'n> Hydraulics<'n> {
         };
         let link_rows = ends
             .iter()
-            .map(|&(a, b)| if a == b { [NO_ROW; 2] } else { [row(a), row(b)] })
+            .map(|&(a, b)| {
+                if a == b {
+                    [NO_ROW; 2]
+                } else {
+                    [row(a), row(b)]
+                }
+            })
             .collect();
         let link_slots = ends
             .iter()
