@@ -23,7 +23,7 @@ use thiserror::Error;
 use crate::criteria::Criteria;
 use crate::fireflow::{sweep, FireFlowSetup, HydrantNote, HydrantResult, Outcome};
 use crate::hydraulics::{Hydraulics, SolveError};
-use crate::model::{HeadlossFormula, LinkKind, Network, Pipe};
+use crate::model::{HeadlossFormula, Network, Pipe};
 use crate::units::{Quantity, UnitSystem, KPA_PER_M_OF_HEAD};
 
 /// Default candidate sizes, US: 6-24 in nominal (ductile-iron sizes of AWWA C151).
@@ -592,19 +592,4 @@ pub fn apply(net: &Network, plan: &BTreeMap<usize, f64>, new_roughness: f64) -> 
         })
         .collect();
     net.with_pipes_replaced(&replacements)
-}
-
-/// The pipes of `net` that differ from `original`, for the proposed network's files.
-pub fn changed_pipes(original: &Network, proposed: &Network) -> Vec<usize> {
-    original
-        .links
-        .iter()
-        .zip(&proposed.links)
-        .enumerate()
-        .filter(|(_, (a, b))| match (&a.kind, &b.kind) {
-            (LinkKind::Pipe(p), LinkKind::Pipe(q)) => p != q,
-            _ => false,
-        })
-        .map(|(i, _)| i)
-        .collect()
 }

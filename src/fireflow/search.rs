@@ -82,9 +82,6 @@ impl Search<'_, '_> {
         if let Ok(s) = &sol {
             self.factorizations += s.factorizations;
             self.iterations += s.iterations;
-            if std::env::var("FM_TRACE2").is_ok() {
-                eprintln!("EVAL{} {} {}", self.solves, s.iterations, s.factorizations);
-            }
         }
         let sol = sol?;
         let check = self.setup.constraints(&sol, self.at);
@@ -108,9 +105,6 @@ impl Search<'_, '_> {
         let sol = sol?;
         self.factorizations += sol.factorizations;
         self.iterations += sol.iterations;
-        if std::env::var("FM_TRACE2").is_ok() {
-            eprintln!("PIN {} {}", sol.iterations, sol.factorizations);
-        }
         let q = sol.fixed_head_outflow_m3s.unwrap_or(0.0);
         let check = self.setup.constraints(&sol, self.at);
         Ok(Point { q, sol, check })

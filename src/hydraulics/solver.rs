@@ -738,9 +738,6 @@ impl<'n> Hydraulics<'n> {
                     continuity_pending = true;
                 }
             }
-            if std::env::var("FM_TRACE").is_ok() {
-                eprintln!("    it {iteration} alpha {alpha:.3} step_h {step_h:.3e} step_q {step_q:.3e} factored {need_factor}");
-            }
             let ratio = step_h / previous_step;
             let flow_ratio = step_q / previous_flow_step;
             previous_step = step_h;
@@ -784,9 +781,6 @@ impl<'n> Hydraulics<'n> {
                     }
                 }
                 if !changed {
-                    if std::env::var("FM_TRACE").is_ok() {
-                        eprintln!("  solved: {iteration} it {factorizations} fact");
-                    }
                     let fixed_head_outflow_m3s = drawn;
                     return Ok(Solution {
                         heads_m: heads,
