@@ -283,6 +283,42 @@ fn solve_command(
     ExitStatus::Success
 }
 
+/// Reads the criteria for `net`, printing their warnings or errors; `None` on errors.
+fn criteria_for(
+    path: &std::path::Path,
+    net: &firemain::model::Network,
+) -> Option<firemain::criteria::Criteria> {
+    match firemain::criteria::load_criteria(path, net) {
+        Ok(c) => {
+            if !c.warnings.is_empty() {
+                eprint!("{}", report::validate::diagnostics_brief(&c.warnings));
+            }
+            Some(c)
+        }
+        Err(diags) => {
+            eprint!("{}", report::validate::diagnostics(&diags));
+            eprintln!("firemain: the criteria have errors; nothing was analysed");
+            None
+        }
+    }
+}
+
+/// The hydrants named by `--hydrant` (each once), or `None` after reporting an unknown id.
+fn selected_hydrants(net: &firemain::model::Network, ids: &[String]) -> Option<Vec<usize>> {
+    let mut selected = Vec::new();
+    for id in ids {
+        match net.hydrant_by_id(id) {
+            Some(h) if selected.contains(&h) => {}
+            Some(h) => selected.push(h),
+            None => {
+                eprintln!("firemain: --hydrant {id}: no hydrant with this id in hydrants.csv (ids are compared exactly)");
+                return None;
+            }
+        }
+    }
+    Some(selected)
+}
+
 struct CheckArgs {
     network: PathBuf,
     criteria: PathBuf,
@@ -324,7 +360,6 @@ fn progress_bar(total: usize, quiet: bool) -> Option<indicatif::ProgressBar> {
 }
 
 fn check_command(args: &CheckArgs) -> ExitStatus {
-    use firemain::criteria::load_criteria;
     use firemain::fireflow::{sweep, FireFlowSetup, Outcome};
     use firemain::report::check::CheckReport;
     use firemain::service::service_check;
@@ -336,30 +371,12 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
         return ExitStatus::InputError;
     };
     let net = &loaded.network;
-    let criteria = match load_criteria(&args.criteria, net) {
-        Ok(c) => {
-            if !c.warnings.is_empty() {
-                eprint!("{}", report::validate::diagnostics_brief(&c.warnings));
-            }
-            c
-        }
-        Err(diags) => {
-            eprint!("{}", report::validate::diagnostics(&diags));
-            eprintln!("firemain: the criteria have errors; nothing was analysed");
-            return ExitStatus::InputError;
-        }
+    let Some(criteria) = criteria_for(&args.criteria, net) else {
+        return ExitStatus::InputError;
     };
-    let mut indices = Vec::new();
-    for id in &args.hydrants {
-        match net.hydrant_by_id(id) {
-            Some(h) if indices.contains(&h) => {}
-            Some(h) => indices.push(h),
-            None => {
-                eprintln!("firemain: --hydrant {id}: no hydrant with this id in hydrants.csv (ids are compared exactly)");
-                return ExitStatus::InputError;
-            }
-        }
-    }
+    let Some(mut indices) = selected_hydrants(net, &args.hydrants) else {
+        return ExitStatus::InputError;
+    };
     let partial = !indices.is_empty();
     if !partial {
         indices = (0..net.hydrants.len()).collect();
@@ -500,7 +517,6 @@ fn network_files(dir: &std::path::Path) -> std::io::Result<Vec<(String, Vec<u8>)
 }
 
 fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
-    use firemain::criteria::load_criteria;
     use firemain::fireflow::Outcome;
     use firemain::model::costs::load_cost_table;
     use firemain::report::check::CheckReport;
@@ -522,30 +538,12 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
         return ExitStatus::InputError;
     };
     let net = &loaded.network;
-    let criteria = match load_criteria(&args.criteria, net) {
-        Ok(c) => {
-            if !c.warnings.is_empty() {
-                eprint!("{}", report::validate::diagnostics_brief(&c.warnings));
-            }
-            c
-        }
-        Err(diags) => {
-            eprint!("{}", report::validate::diagnostics(&diags));
-            eprintln!("firemain: the criteria have errors; nothing was analysed");
-            return ExitStatus::InputError;
-        }
+    let Some(criteria) = criteria_for(&args.criteria, net) else {
+        return ExitStatus::InputError;
     };
-    let mut selected = Vec::new();
-    for id in &args.hydrants {
-        match net.hydrant_by_id(id) {
-            Some(h) if selected.contains(&h) => {}
-            Some(h) => selected.push(h),
-            None => {
-                eprintln!("firemain: --hydrant {id}: no hydrant with this id in hydrants.csv (ids are compared exactly)");
-                return ExitStatus::InputError;
-            }
-        }
-    }
+    let Some(selected) = selected_hydrants(net, &args.hydrants) else {
+        return ExitStatus::InputError;
+    };
     if args.threads == Some(0) {
         eprintln!("firemain: --threads must be at least 1");
         return ExitStatus::InputError;

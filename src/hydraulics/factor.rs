@@ -50,20 +50,7 @@ impl OrderedPattern {
     /// pair (a, b), a ≠ b (duplicates allowed).
     pub fn new(n: usize, pairs: &[(usize, usize)]) -> Result<Self, String> {
         // Natural-order lower triangle, for the ordering.
-        let mut columns: Vec<Vec<usize>> = (0..n).map(|j| vec![j]).collect();
-        for &(a, b) in pairs {
-            if a != b {
-                columns[a.min(b)].push(a.max(b));
-            }
-        }
-        let mut col_ptr = vec![0usize];
-        let mut row_idx = Vec::new();
-        for col in &mut columns {
-            col.sort_unstable();
-            col.dedup();
-            row_idx.extend_from_slice(col);
-            col_ptr.push(row_idx.len());
-        }
+        let (col_ptr, row_idx) = compressed_columns(n, pairs, |a, b| (a.min(b), a.max(b)));
         let natural = SymbolicSparseColMat::<usize>::new_checked(n, n, col_ptr, None, row_idx);
         let mut perm = vec![0usize; n];
         let mut perm_inv = vec![0usize; n];
@@ -79,21 +66,11 @@ impl OrderedPattern {
         .map_err(|e| format!("fill-reducing ordering failed: {e:?}"))?;
         // perm[new] = old, so the position of original index i is perm_inv[i].
         let position = perm_inv;
-        let mut columns: Vec<Vec<usize>> = (0..n).map(|j| vec![j]).collect();
-        for &(a, b) in pairs {
-            if a != b {
-                let (p, q) = (position[a], position[b]);
-                columns[p.max(q)].push(p.min(q));
-            }
-        }
-        let mut col_ptr = vec![0usize];
-        let mut row_idx = Vec::new();
-        for col in &mut columns {
-            col.sort_unstable();
-            col.dedup();
-            row_idx.extend_from_slice(col);
-            col_ptr.push(row_idx.len());
-        }
+        // Ordered upper triangle: the entry of (a, b) in the column of the later position.
+        let (col_ptr, row_idx) = compressed_columns(n, pairs, |a, b| {
+            let (p, q) = (position[a], position[b]);
+            (p.max(q), p.min(q))
+        });
         Ok(OrderedPattern {
             n,
             col_ptr,
@@ -126,6 +103,32 @@ impl OrderedPattern {
             .ok()
             .map(|k| range.start + k)
     }
+}
+
+/// Compressed sparse columns of an n × n pattern with every diagonal entry and, for each pair
+/// (a, b) with a ≠ b, the entry `place(a, b)` = (column, row); rows sorted and unique.
+fn compressed_columns(
+    n: usize,
+    pairs: &[(usize, usize)],
+    place: impl Fn(usize, usize) -> (usize, usize),
+) -> (Vec<usize>, Vec<usize>) {
+    let mut columns: Vec<Vec<usize>> = (0..n).map(|j| vec![j]).collect();
+    for &(a, b) in pairs {
+        if a != b {
+            let (col, row) = place(a, b);
+            columns[col].push(row);
+        }
+    }
+    let mut col_ptr = Vec::with_capacity(n + 1);
+    col_ptr.push(0);
+    let mut row_idx = Vec::new();
+    for col in &mut columns {
+        col.sort_unstable();
+        col.dedup();
+        row_idx.extend_from_slice(col);
+        col_ptr.push(row_idx.len());
+    }
+    (col_ptr, row_idx)
 }
 
 /// The shared, immutable part: the ordered pattern and its symbolic factorization.

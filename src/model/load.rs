@@ -50,18 +50,21 @@ const SOURCES: TableSpec<'static> = TableSpec {
     known: &["id", "kind", "grade", "x", "y"],
     required: &["id", "kind", "grade"],
 };
+/// The columns of pipes.csv (`material` is an optional extra that firemain keeps).
+pub const PIPE_COLUMNS: &[&str] = &[
+    "id",
+    "from",
+    "to",
+    "length",
+    "diameter",
+    "roughness",
+    "minor_loss",
+    "status",
+    "material",
+];
+
 const PIPES: TableSpec<'static> = TableSpec {
-    known: &[
-        "id",
-        "from",
-        "to",
-        "length",
-        "diameter",
-        "roughness",
-        "minor_loss",
-        "status",
-        "material",
-    ],
+    known: PIPE_COLUMNS,
     required: &["id", "from", "to", "length", "diameter", "roughness"],
 };
 const HYDRANTS: TableSpec<'static> = TableSpec {

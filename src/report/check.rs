@@ -468,14 +468,7 @@ impl CheckReport<'_> {
     fn weak_main_row(&self, w: &WeakMain) -> Vec<String> {
         let o = self.out();
         let link = &self.network.links[w.link];
-        let (d, len, material) = match &link.kind {
-            LinkKind::Pipe(p) => (
-                p.diameter_m,
-                p.length_m,
-                p.material.clone().unwrap_or_default(),
-            ),
-            _ => (0.0, 0.0, String::new()),
-        };
+        let (d, len, material) = pipe_facts(link);
         vec![
             link.id.clone(),
             num(o.diameter(d), 1),
@@ -549,14 +542,7 @@ impl CheckReport<'_> {
             .iter()
             .map(|w| {
                 let link = &self.network.links[w.link];
-                let (dia, len, material) = match &link.kind {
-                    LinkKind::Pipe(p) => (
-                        p.diameter_m,
-                        p.length_m,
-                        p.material.clone().unwrap_or_default(),
-                    ),
-                    _ => (0.0, 0.0, String::new()),
-                };
+                let (dia, len, material) = pipe_facts(link);
                 vec![
                     link.id.clone(),
                     o.fmt(Quantity::Diameter, dia),
@@ -926,6 +912,18 @@ impl CheckReport<'_> {
                 bytes: self.json(stats)?,
             },
         ])
+    }
+}
+
+/// Diameter (m), length (m) and material text of a pipe; zeros for other links.
+fn pipe_facts(link: &crate::model::Link) -> (f64, f64, String) {
+    match &link.kind {
+        LinkKind::Pipe(p) => (
+            p.diameter_m,
+            p.length_m,
+            p.material.clone().unwrap_or_default(),
+        ),
+        _ => (0.0, 0.0, String::new()),
     }
 }
 

@@ -375,20 +375,10 @@ impl UpsizeReport<'_> {
 /// A network's pipes.csv in its own units.
 pub fn pipes_csv(net: &Network) -> Result<Vec<u8>, ReportError> {
     let u = net.units;
-    let header: Vec<String> = [
-        "id",
-        "from",
-        "to",
-        "length",
-        "diameter",
-        "roughness",
-        "minor_loss",
-        "status",
-        "material",
-    ]
-    .iter()
-    .map(|s| s.to_string())
-    .collect();
+    let header: Vec<String> = crate::model::load::PIPE_COLUMNS
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
     let rows: Vec<Vec<String>> = net
         .links
         .iter()
