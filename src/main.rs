@@ -268,16 +268,8 @@ fn solve_command(
     if let Some(out) = out {
         let written = report::solve::files(&result, net.units)
             .and_then(|files| write_outputs(out, dir, &files));
-        match written {
-            Ok(paths) => {
-                for p in paths {
-                    eprintln!("wrote {}", p.display());
-                }
-            }
-            Err(e) => {
-                eprintln!("firemain: {e}");
-                return ExitStatus::AnalysisError;
-            }
+        if !report_written(written, false) {
+            return ExitStatus::AnalysisError;
         }
     }
     ExitStatus::Success
@@ -317,6 +309,24 @@ fn selected_hydrants(net: &firemain::model::Network, ids: &[String]) -> Option<V
         }
     }
     Some(selected)
+}
+
+/// Reports the files written (unless quiet), or the error; `false` on error.
+fn report_written(written: Result<Vec<PathBuf>, report::ReportError>, quiet: bool) -> bool {
+    match written {
+        Ok(paths) => {
+            if !quiet {
+                for p in paths {
+                    eprintln!("wrote {}", p.display());
+                }
+            }
+            true
+        }
+        Err(e) => {
+            eprintln!("firemain: {e}");
+            false
+        }
+    }
 }
 
 struct CheckArgs {
@@ -461,18 +471,8 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
         let written = report
             .files(args.stats.then_some(&stats))
             .and_then(|files| write_outputs(out, &args.network, &files));
-        match written {
-            Ok(paths) => {
-                if !args.quiet {
-                    for p in paths {
-                        eprintln!("wrote {}", p.display());
-                    }
-                }
-            }
-            Err(e) => {
-                eprintln!("firemain: {e}");
-                return ExitStatus::AnalysisError;
-            }
+        if !report_written(written, args.quiet) {
+            return ExitStatus::AnalysisError;
         }
     }
     let findings =
@@ -675,18 +675,8 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
             })
             .and_then(|files| report.files(files))
             .and_then(|files| write_outputs(out, &args.network, &files));
-        match written {
-            Ok(paths) => {
-                if !args.quiet {
-                    for p in paths {
-                        eprintln!("wrote {}", p.display());
-                    }
-                }
-            }
-            Err(e) => {
-                eprintln!("firemain: {e}");
-                return ExitStatus::AnalysisError;
-            }
+        if !report_written(written, args.quiet) {
+            return ExitStatus::AnalysisError;
         }
     }
     let all_pass = plan.after.iter().all(|r| r.outcome == Outcome::Pass)
