@@ -7,8 +7,8 @@ use firemain::fireflow::{HydrantResult, LimitedBy, FLOOR_TOLERANCE_KPA};
 use firemain::hydraulics::Tolerance;
 use firemain::model::Network;
 use netkit::{
-    criteria, fire_sweep, hw_resistance, NetFiles, KPA_PER_M, KPA_PER_PSI, M3S_PER_GPM, M_PER_FT,
-    M_PER_IN,
+    criteria, criteria_with_scope, fire_sweep, hw_resistance, NetFiles, KPA_PER_M, KPA_PER_PSI,
+    M3S_PER_GPM, M_PER_FT, M_PER_IN,
 };
 
 /// The residual floor, psi: hydrants are rated at 20 psi residual (NFPA 291, Recommended
@@ -222,4 +222,45 @@ fn hydrant_limit_above_the_cap_gives_the_cap() {
     let res = fire_sweep(&net, &c, 1).pop().unwrap();
     assert_eq!(res.limited_by, Some(LimitedBy::Cap), "{res:#?}");
     assert!((res.available_m3s.unwrap() - cap).abs() < 1e-12);
+}
+
+#[test]
+fn zone_scope_and_exempt_junctions_leave_other_junctions_unconstrained() {
+    // A reservoir feeds junction A (zone "low", the hydrant's) and, beyond it on a dead end
+    // with no demand, junction B 30 m higher (zone "high"). With the fire at A, B's head equals
+    // A's, so B reaches the floor first when it is constrained: system scope gives
+    // Q = ((H_R − z_B − floor)/r)^(1/1.852); zone scope, or B exempt, leaves A itself binding,
+    // Q = ((H_R − z_A − floor)/r)^(1/1.852) (Hazen-Williams, Williams & Hazen 1920, SI form;
+    // the scope rules are firemain's criteria definitions, docs/criteria-format.md).
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 60.0)
+        .junction_in_zone("A", 0.0, 0.0, "low")
+        .junction_in_zone("B", 30.0, 0.0, "high")
+        .pipe("P1", "R", "A", 500.0, 300.0, 120.0)
+        .pipe("P2", "A", "B", 400.0, 200.0, 120.0)
+        .hydrant("HA", "A", None);
+    let net = f.load();
+    let floor_kpa = 140.0;
+    let floor_m = floor_kpa / KPA_PER_M;
+    let r = hw_resistance(500.0, 0.3, 120.0);
+    let exact = |z: f64| ((60.0 - z - floor_m) / r).powf(1.0 / 1.852);
+    let cases = [
+        ("system", vec![], exact(30.0), LimitedBy::SystemPressure),
+        ("zone", vec![], exact(0.0), LimitedBy::HydrantPressure),
+        ("system", vec!["B"], exact(0.0), LimitedBy::HydrantPressure),
+    ];
+    for (scope, exempt, q, limit) in cases {
+        let c = criteria_with_scope(&net, floor_kpa, 2000.0, 10.0, scope, &exempt);
+        let r = &fire_sweep(&net, &c, 1)[0];
+        let got = r.available_m3s.expect("available");
+        assert!(
+            got <= q * 1.001 && got >= q * 0.995,
+            "scope {scope}, exempt {exempt:?}: {got} vs {q} m³/s"
+        );
+        assert_eq!(
+            r.limited_by,
+            Some(limit),
+            "scope {scope}, exempt {exempt:?}"
+        );
+    }
 }

@@ -75,7 +75,20 @@ impl NetFiles {
     }
 
     pub fn junction(&mut self, id: &str, elevation: f64, demand: f64) -> &mut Self {
-        self.junctions.push(format!("{id},{elevation},{demand}"));
+        self.junctions.push(format!("{id},{elevation},{demand},"));
+        self
+    }
+
+    /// A junction of pressure zone `zone`.
+    pub fn junction_in_zone(
+        &mut self,
+        id: &str,
+        elevation: f64,
+        demand: f64,
+        zone: &str,
+    ) -> &mut Self {
+        self.junctions
+            .push(format!("{id},{elevation},{demand},{zone}"));
         self
     }
 
@@ -169,7 +182,7 @@ impl NetFiles {
         );
         std::fs::write(dir.join("model.toml"), model).expect("write model.toml");
         let tables: [(&str, &str, &[String]); 6] = [
-            ("junctions.csv", "id,elevation,demand", &self.junctions),
+            ("junctions.csv", "id,elevation,demand,zone", &self.junctions),
             ("sources.csv", "id,kind,grade", &self.sources),
             (
                 "pipes.csv",
@@ -219,6 +232,20 @@ pub fn load_dir(dir: &Path) -> Network {
 /// A criteria set in the network's units: `floor` residual pressure (psi | kPa) at every
 /// junction, search cap and default required flow (gpm | L/s), no velocity limit.
 pub fn criteria(net: &Network, floor: f64, cap: f64, default_required: f64) -> Criteria {
+    criteria_with_scope(net, floor, cap, default_required, "system", &[])
+}
+
+/// As [`criteria`], with the `scope` ("system" | "zone") and `exempt` junctions given.
+pub fn criteria_with_scope(
+    net: &Network,
+    floor: f64,
+    cap: f64,
+    default_required: f64,
+    scope: &str,
+    exempt: &[&str],
+) -> Criteria {
+    let exempt: Vec<String> = exempt.iter().map(|e| format!("\"{e}\"")).collect();
+    let exempt = exempt.join(", ");
     let (units, service_min, service_max) = match net.units {
         firemain::units::UnitSystem::Us => ("us", 40.0, 100.0),
         firemain::units::UnitSystem::Si => ("si", 280.0, 700.0),
@@ -226,7 +253,7 @@ pub fn criteria(net: &Network, floor: f64, cap: f64, default_required: f64) -> C
     let text = format!(
         "name = \"analytic test criteria\"\nreference = \"tests\"\nunits = \"{units}\"\n\
          [service]\nmin_pressure = {service_min}\nmax_pressure = {service_max}\n\
-         [fire]\nresidual_floor = {floor}\nscope = \"system\"\nexempt = []\nmax_velocity = 0\n\
+         [fire]\nresidual_floor = {floor}\nscope = \"{scope}\"\nexempt = [{exempt}]\nmax_velocity = 0\n\
          search_cap = {cap}\ndefault_required_flow = {default_required}\n"
     );
     let dir = tempfile::tempdir().expect("tempdir");
