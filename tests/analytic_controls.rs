@@ -290,3 +290,55 @@ fn check_valve_pipe_closes_against_reverse_head() {
         }
     }
 }
+
+#[test]
+fn fire_flow_notes_the_flow_at_which_the_prv_goes_wide_open() {
+    // A fire at the PRV's downstream junction B draws more through the valve until the
+    // upstream grade can no longer hold the set head plus the open valve's loss: the valve
+    // then runs wide open (device definition, notes/format.md). The valve flow Q* at that
+    // point solves 100 − r1 Q*^1.852 − K v²/(2g) = H_set (bisection here); the fire flow then is
+    // Q* minus the downstream demands (30 + 10 L/s). The search locates it by bisection to
+    // 1/32 of the available flow (docs/fire-flow-method.md §2).
+    let mut f = NetFiles::si_hw();
+    f.reservoir("UP", 100.0)
+        .junction("A", 20.0, 0.0)
+        .junction("B", 10.0, 30.0)
+        .junction("C", 5.0, 10.0)
+        .pipe("P1", "UP", "A", 500.0, 300.0, 120.0)
+        .valve("V", "A", "B", "prv", 200.0, 300.0, 3.0)
+        .pipe("P2", "B", "C", 400.0, 150.0, 110.0)
+        .hydrant("HB", "B", None);
+    let net = f.load();
+    let r1 = hw_resistance(500.0, 0.3, 120.0);
+    let q_star = bisect(0.04, 1.0, |q| {
+        100.0 - r1 * q.powf(1.852) - minor_loss(3.0, 0.2, q) - prv_set_head()
+    });
+    let fire_at_opening = q_star - 0.040;
+    let c = netkit::criteria(&net, 140.0, 500.0, 10.0);
+    let r = &netkit::fire_sweep(&net, &c, 1)[0];
+    let available = r.available_m3s.expect("available");
+    assert!(
+        available > fire_at_opening,
+        "the valve opens below the available flow"
+    );
+    let v = link(&net, "V");
+    let note = r
+        .notes
+        .iter()
+        .find_map(|n| match n {
+            firemain::fireflow::HydrantNote::StateChanged {
+                link,
+                from,
+                to,
+                at_flow_m3s,
+            } if *link == v => Some((*from, *to, *at_flow_m3s)),
+            _ => None,
+        })
+        .expect("a note on the valve's state change");
+    assert_eq!((note.0, note.1), (LinkState::Regulating, LinkState::Open));
+    assert!(
+        (note.2 - fire_at_opening).abs() <= available / 32.0 + 1e-6,
+        "noted at {} m³/s, opens at {fire_at_opening} m³/s",
+        note.2
+    );
+}
