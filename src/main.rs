@@ -36,61 +36,10 @@ enum Command {
     },
     /// Screen every hydrant's available fire flow and every junction's service pressure.
     #[command(after_help = EXIT_CODES)]
-    Check {
-        /// Network folder.
-        network: PathBuf,
-        /// Criteria set (TOML), e.g. criteria/common-practice-us.toml.
-        #[arg(long)]
-        criteria: PathBuf,
-        /// Also write fireflow.csv, service.csv, weak_mains.csv, report.md and report.json here.
-        #[arg(long)]
-        out: Option<PathBuf>,
-        /// Analyse only this hydrant (repeatable).
-        #[arg(long = "hydrant", value_name = "ID")]
-        hydrants: Vec<String>,
-        /// Worker threads (default: all cores).
-        #[arg(long)]
-        threads: Option<usize>,
-        /// No progress bar or messages on stderr.
-        #[arg(long)]
-        quiet: bool,
-        /// Print the work done by the sweep (solves, factorizations, wall time).
-        #[arg(long)]
-        stats: bool,
-    },
+    Check(CheckArgs),
     /// Propose the cheapest main upsizings that make failing hydrants pass.
     #[command(after_help = EXIT_CODES)]
-    Upsize {
-        /// Network folder.
-        network: PathBuf,
-        /// Criteria set (TOML).
-        #[arg(long)]
-        criteria: PathBuf,
-        /// Candidate diameters in the network's diameter unit, comma-separated
-        /// (default: 6,8,10,12,14,16,18,20,24 in, or 150,...,600 mm).
-        #[arg(long, value_delimiter = ',')]
-        sizes: Option<Vec<f64>>,
-        /// Cost table: CSV with columns diameter, cost_per_length (network units). Without it,
-        /// length x diameter is used as a cost proxy.
-        #[arg(long)]
-        costs: Option<PathBuf>,
-        /// Consider only this hydrant (repeatable).
-        #[arg(long = "hydrant", value_name = "ID")]
-        hydrants: Vec<String>,
-        /// Largest total cost (cost-table units, or the proxy's units).
-        #[arg(long)]
-        budget: Option<f64>,
-        /// Write upsize_plan.csv, upsize_hydrants.csv, weak_mains_after.csv, upsize_report.md and
-        /// proposed-network/ here.
-        #[arg(long)]
-        out: Option<PathBuf>,
-        /// Worker threads (default: all cores).
-        #[arg(long)]
-        threads: Option<usize>,
-        /// No progress messages on stderr.
-        #[arg(long)]
-        quiet: bool,
-    },
+    Upsize(UpsizeArgs),
     /// Solve the steady state at one demand condition.
     #[command(after_help = EXIT_CODES)]
     Solve {
@@ -153,44 +102,8 @@ fn main() -> ExitCode {
             condition,
             out,
         } => solve_command(&network, condition.into(), out.as_deref()),
-        Command::Upsize {
-            network,
-            criteria,
-            sizes,
-            costs,
-            hydrants,
-            budget,
-            out,
-            threads,
-            quiet,
-        } => upsize_command(&UpsizeArgs {
-            network,
-            criteria,
-            sizes,
-            costs,
-            hydrants,
-            budget,
-            out,
-            threads,
-            quiet,
-        }),
-        Command::Check {
-            network,
-            criteria,
-            out,
-            hydrants,
-            threads,
-            quiet,
-            stats,
-        } => check_command(&CheckArgs {
-            network,
-            criteria,
-            out,
-            hydrants,
-            threads,
-            quiet,
-            stats,
-        }),
+        Command::Upsize(args) => upsize_command(&args),
+        Command::Check(args) => check_command(&args),
     };
     ExitCode::from(status as u8)
 }
@@ -329,13 +242,28 @@ fn report_written(written: Result<Vec<PathBuf>, report::ReportError>, quiet: boo
     }
 }
 
+/// Arguments of `firemain check`.
+#[derive(clap::Args)]
 struct CheckArgs {
+    /// Network folder.
     network: PathBuf,
+    /// Criteria set (TOML), e.g. criteria/common-practice-us.toml.
+    #[arg(long)]
     criteria: PathBuf,
+    /// Also write fireflow.csv, service.csv, weak_mains.csv, report.md and report.json here.
+    #[arg(long)]
     out: Option<PathBuf>,
+    /// Analyse only this hydrant (repeatable).
+    #[arg(long = "hydrant", value_name = "ID")]
     hydrants: Vec<String>,
+    /// Worker threads (default: all cores).
+    #[arg(long)]
     threads: Option<usize>,
+    /// No progress bar or messages on stderr.
+    #[arg(long)]
     quiet: bool,
+    /// Print the work done by the sweep (solves, factorizations, wall time).
+    #[arg(long)]
     stats: bool,
 }
 
@@ -484,15 +412,37 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
     }
 }
 
+/// Arguments of `firemain upsize`.
+#[derive(clap::Args)]
 struct UpsizeArgs {
+    /// Network folder.
     network: PathBuf,
+    /// Criteria set (TOML).
+    #[arg(long)]
     criteria: PathBuf,
+    /// Candidate diameters in the network's diameter unit, comma-separated
+    /// (default: 6,8,10,12,14,16,18,20,24 in, or 150,...,600 mm).
+    #[arg(long, value_delimiter = ',')]
     sizes: Option<Vec<f64>>,
+    /// Cost table: CSV with columns diameter, cost_per_length (network units). Without it,
+    /// length x diameter is used as a cost proxy.
+    #[arg(long)]
     costs: Option<PathBuf>,
+    /// Consider only this hydrant (repeatable).
+    #[arg(long = "hydrant", value_name = "ID")]
     hydrants: Vec<String>,
+    /// Largest total cost (cost-table units, or the proxy's units).
+    #[arg(long)]
     budget: Option<f64>,
+    /// Write upsize_plan.csv, upsize_hydrants.csv, weak_mains_after.csv, upsize_report.md and
+    /// proposed-network/ here.
+    #[arg(long)]
     out: Option<PathBuf>,
+    /// Worker threads (default: all cores).
+    #[arg(long)]
     threads: Option<usize>,
+    /// No progress messages on stderr.
+    #[arg(long)]
     quiet: bool,
 }
 

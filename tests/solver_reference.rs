@@ -2,8 +2,7 @@
 
 mod common;
 
-use common::{load, read_kind_id_value};
-use firemain::hydraulics::{Hydraulics, SolveRequest};
+use common::{load, read_kind_id_value, solve_average};
 
 fn compare_loop_grid(network: &str, fixture: &str) {
     // Reference: tests/reference/loop_grid/solve_loop_grid.py — the node-head formulation
@@ -11,16 +10,7 @@ fn compare_loop_grid(network: &str, fixture: &str) {
     // Colebrook), a different formulation from firemain's gradient algorithm.
     let net = load(network);
     let expected = read_kind_id_value(fixture);
-    let hydraulics = Hydraulics::new(&net).expect("prepare");
-    let mut ws = hydraulics.workspace();
-    let request = SolveRequest {
-        demand_factor: 1.0,
-        extra_demand: &[],
-        fixed_head: None,
-    };
-    let sol = hydraulics
-        .solve(&mut ws, &request, &hydraulics.cold_start())
-        .expect("solve");
+    let sol = solve_average(&net);
     let mut checked = 0;
     for (j, node) in net.junctions().iter().enumerate() {
         let head: f64 = expected[&("head_m".to_string(), node.id.clone())]
@@ -82,16 +72,7 @@ fn compare_two_zone(fixture: &str, low_zone_factor: f64, expect_state: &str) {
         }
     }
     let expected = read_kind_id_value(fixture);
-    let hydraulics = Hydraulics::new(&net).expect("prepare");
-    let mut ws = hydraulics.workspace();
-    let request = SolveRequest {
-        demand_factor: 1.0,
-        extra_demand: &[],
-        fixed_head: None,
-    };
-    let sol = hydraulics
-        .solve(&mut ws, &request, &hydraulics.cold_start())
-        .expect("solve");
+    let sol = solve_average(&net);
     let ft = firemain::units::M_PER_FT;
     let gpm = firemain::units::M3S_PER_GPM;
     for (j, node) in net.junctions().iter().enumerate() {

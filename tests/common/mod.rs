@@ -4,6 +4,7 @@
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
+use firemain::hydraulics::{Hydraulics, Solution, SolveRequest};
 use firemain::model::{load_network, Network};
 
 /// Path of a file or folder under `tests/`.
@@ -55,4 +56,18 @@ pub fn read_rows(relative: &str) -> Vec<HashMap<String, String>> {
                 .collect()
         })
         .collect()
+}
+
+/// Solves `net` at average-day demand from a cold start, panicking on a solver error.
+pub fn solve_average(net: &Network) -> Solution {
+    let hydraulics = Hydraulics::new(net).expect("prepare");
+    let mut ws = hydraulics.workspace();
+    let request = SolveRequest {
+        demand_factor: 1.0,
+        extra_demand: &[],
+        fixed_head: None,
+    };
+    hydraulics
+        .solve(&mut ws, &request, &hydraulics.cold_start())
+        .expect("solve")
 }
