@@ -30,12 +30,32 @@ fn smoothed_power(c: f64, p: f64, q: f64) -> (f64, f64) {
         return (c * a * q, 2.0 * c * a);
     }
     if a < e {
-        let lin = c * e.powf(p - 1.0) * (3.0 - p) / 2.0;
-        let cub = c * e.powf(p - 3.0) * (p - 1.0) / 2.0;
+        let (e_p1, e_p3) = zero_flow_powers(p);
+        let lin = c * e_p1 * (3.0 - p) / 2.0;
+        let cub = c * e_p3 * (p - 1.0) / 2.0;
         (lin * q + cub * q * q * q, lin + 3.0 * cub * q * q)
     } else {
         let k = c * a.powf(p - 1.0);
         (k * q, p * k)
+    }
+}
+
+/// (ε^(p−1), ε^(p−3)) for ε = [`ZERO_FLOW_M3S`]: constants for the two exponents in use
+/// (Hazen-Williams and quadratic losses), computed once, since links below ε are common in
+/// a fire-flow sweep (dead ends, quiet loops) and `powf` would dominate their evaluation.
+fn zero_flow_powers(p: f64) -> (f64, f64) {
+    static HAZEN_WILLIAMS: std::sync::LazyLock<(f64, f64)> = std::sync::LazyLock::new(|| {
+        (
+            ZERO_FLOW_M3S.powf(HW_FLOW_EXPONENT - 1.0),
+            ZERO_FLOW_M3S.powf(HW_FLOW_EXPONENT - 3.0),
+        )
+    });
+    if p == HW_FLOW_EXPONENT {
+        *HAZEN_WILLIAMS
+    } else if p == 2.0 {
+        (ZERO_FLOW_M3S, 1.0 / ZERO_FLOW_M3S)
+    } else {
+        (ZERO_FLOW_M3S.powf(p - 1.0), ZERO_FLOW_M3S.powf(p - 3.0))
     }
 }
 
