@@ -222,6 +222,22 @@ fn hydrant_limit_above_the_cap_gives_the_cap() {
     let res = fire_sweep(&net, &c, 1).pop().unwrap();
     assert_eq!(res.limited_by, Some(LimitedBy::Cap), "{res:#?}");
     assert!((res.available_m3s.unwrap() - cap).abs() < 1e-12);
+    // A cap just below the limit (the search then places the held flow first and verifies
+    // the cap after it), and one just above (the hydrant's pressure binds, at the closed form).
+    for (cap, binds) in [
+        (0.95 * limit, LimitedBy::Cap),
+        (1.05 * limit, LimitedBy::HydrantPressure),
+    ] {
+        let c = criteria(&net, floor_kpa, cap * 1000.0, 30.0);
+        let res = fire_sweep(&net, &c, 1).pop().unwrap();
+        assert_eq!(res.limited_by, Some(binds), "{res:#?}");
+        let expected = if binds == LimitedBy::Cap { cap } else { limit };
+        let available = res.available_m3s.unwrap();
+        assert!(
+            (available - expected).abs() < 0.001 * expected,
+            "{available} vs {expected}"
+        );
+    }
 }
 
 #[test]

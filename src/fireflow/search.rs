@@ -4,7 +4,9 @@
 //! 2. One solve at the required flow: residual pressure, and a first bracket point.
 //! 3. One solve with the hydrant's junction held at the floor pressure: the flow it draws is
 //!    the hydrant-limited flow, exactly. If no other constraint fails there, that is the
-//!    answer.
+//!    answer. When the supply curve fitted at the required flow reaches the floor well beyond
+//!    the search cap (by [`CAP_FIRST_RATIO`]), the cap is verified first instead: if it passes
+//!    it is the answer, and the held solve, which would place a flow far beyond it, is saved.
 //! 4. Otherwise a safeguarded secant search between the largest flow known to pass and the
 //!    smallest known to fail, on the binding constraint's margin modelled as A − K·Q^1.852 (the
 //!    Hazen-Williams shape of a supply curve, which makes the secant nearly exact): each step
@@ -23,6 +25,11 @@ use crate::units::{UnitSystem, M3S_PER_GPM};
 
 /// Exponent of the supply-curve model used by the secant step (Hazen-Williams, 1/0.54).
 const SUPPLY_CURVE_EXPONENT: f64 = 1.852;
+/// The cap is probed before the hydrant-limited flow when the supply-curve estimate of the
+/// latter exceeds the cap by this factor. Measured on the 10k synthetic network (673 of 2,500
+/// hydrants limited by the cap): 1.0 misdirects 209 hydrants whose held flow is below the cap,
+/// 1.3 only 26, and from 1.2 to 1.5 the sweep's factorizations stay within 0.5 % of each other.
+const CAP_FIRST_RATIO: f64 = 1.3;
 /// Relative accuracy of the available flow (0.5 %).
 const RELATIVE_ACCURACY: f64 = 0.005;
 /// Offset of a probe from the estimated root, as a fraction of the accuracy: two probes at
@@ -454,13 +461,38 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
         }
     };
     let start = predicted(estimate.as_ref().map_or(0.0, |e| e.0.min(cap)));
-    let held = s.hydrant_limited(&start);
+    // A supply curve that reaches the floor well beyond the cap: the cap itself is the flow
+    // to verify (one solve, where the held solve would place a flow far beyond it and a
+    // probe of the cap would follow).
+    let cap_first = hi.is_none()
+        && lo.q < cap
+        && estimate
+            .as_ref()
+            .is_some_and(|e| e.0 > CAP_FIRST_RATIO * cap);
+    if cap_first {
+        // The required-flow factorization is far from the cap's state: start afresh.
+        s.ws.forget_factor();
+        match s.probe(cap, &predicted(cap)) {
+            Ok(c) if c.check.feasible() => {
+                lo = c;
+                answer = Some(LimitedBy::Cap);
+            }
+            Ok(c) => hi = Some(c),
+            Err(e) => failed_above = Some((cap, e.to_string())),
+        }
+    }
+    let held = if answer.is_none() {
+        Some(s.hydrant_limited(&start))
+    } else {
+        None
+    };
     match held {
-        Ok(p) if p.q <= lo.q => {
+        None => {}
+        Some(Ok(p)) if p.q <= lo.q => {
             // Already past the hydrant's floor at a passing flow: only round-off; keep lo.
             answer = Some(LimitedBy::HydrantPressure);
         }
-        Ok(p) if p.q >= cap => {
+        Some(Ok(p)) if p.q >= cap => {
             if hi.as_ref().is_none_or(|h| h.q > cap) {
                 // Between the required-flow state and the held one, the cap is best reached
                 // by interpolation.
@@ -478,7 +510,7 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
                 }
             }
         }
-        Ok(p) => {
+        Some(Ok(p)) => {
             if p.check.feasible() {
                 lo = p;
                 answer = Some(LimitedBy::HydrantPressure);
@@ -486,7 +518,7 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
                 hi = Some(p);
             }
         }
-        Err(e) => failed_above = Some((lo.q, e.to_string())),
+        Some(Err(e)) => failed_above = Some((lo.q, e.to_string())),
     }
     if answer.is_none() && hi.is_none() {
         // No failing point known: try the cap; where a flow cannot be solved, bisect between
