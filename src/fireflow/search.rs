@@ -481,44 +481,40 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
             Err(e) => failed_above = Some((cap, e.to_string())),
         }
     }
-    let held = if answer.is_none() {
-        Some(s.hydrant_limited(&start))
-    } else {
-        None
-    };
-    match held {
-        None => {}
-        Some(Ok(p)) if p.q <= lo.q => {
-            // Already past the hydrant's floor at a passing flow: only round-off; keep lo.
-            answer = Some(LimitedBy::HydrantPressure);
-        }
-        Some(Ok(p)) if p.q >= cap => {
-            if hi.as_ref().is_none_or(|h| h.q > cap) {
-                // Between the required-flow state and the held one, the cap is best reached
-                // by interpolation.
-                let start = match &at_required_copy {
-                    Some(r) if r.q < p.q => predict(r, &p, cap),
-                    _ => p.sol.clone(),
-                };
-                match s.probe(cap, &start) {
-                    Ok(c) if c.check.feasible() => {
-                        lo = c;
-                        answer = Some(LimitedBy::Cap);
+    if answer.is_none() {
+        match s.hydrant_limited(&start) {
+            Ok(p) if p.q <= lo.q => {
+                // Already past the hydrant's floor at a passing flow: only round-off; keep lo.
+                answer = Some(LimitedBy::HydrantPressure);
+            }
+            Ok(p) if p.q >= cap => {
+                if hi.as_ref().is_none_or(|h| h.q > cap) {
+                    // Between the required-flow state and the held one, the cap is best reached
+                    // by interpolation.
+                    let start = match &at_required_copy {
+                        Some(r) if r.q < p.q => predict(r, &p, cap),
+                        _ => p.sol.clone(),
+                    };
+                    match s.probe(cap, &start) {
+                        Ok(c) if c.check.feasible() => {
+                            lo = c;
+                            answer = Some(LimitedBy::Cap);
+                        }
+                        Ok(c) => hi = Some(c),
+                        Err(e) => failed_above = Some((cap, e.to_string())),
                     }
-                    Ok(c) => hi = Some(c),
-                    Err(e) => failed_above = Some((cap, e.to_string())),
                 }
             }
-        }
-        Some(Ok(p)) => {
-            if p.check.feasible() {
-                lo = p;
-                answer = Some(LimitedBy::HydrantPressure);
-            } else if hi.as_ref().is_none_or(|h| p.q < h.q) {
-                hi = Some(p);
+            Ok(p) => {
+                if p.check.feasible() {
+                    lo = p;
+                    answer = Some(LimitedBy::HydrantPressure);
+                } else if hi.as_ref().is_none_or(|h| p.q < h.q) {
+                    hi = Some(p);
+                }
             }
+            Err(e) => failed_above = Some((lo.q, e.to_string())),
         }
-        Some(Err(e)) => failed_above = Some((lo.q, e.to_string())),
     }
     if answer.is_none() && hi.is_none() {
         // No failing point known: try the cap; where a flow cannot be solved, bisect between

@@ -157,7 +157,6 @@ impl std::fmt::Debug for SymbolicAnalysis {
     }
 }
 
-
 impl SymbolicAnalysis {
     /// Analyses the ordered pattern (done once per network).
     pub fn new(pattern: &OrderedPattern) -> Result<Arc<Self>, String> {
