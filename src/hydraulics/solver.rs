@@ -100,6 +100,8 @@ pub struct Hydraulics<'n> {
     ends: Vec<(usize, usize)>,
     /// Regulating role of each link, for the hot loops.
     valve_kinds: Vec<Option<ValveKind>>,
+    /// The PRVs and PSVs (links that may hold a junction's head).
+    pressure_valves: Vec<usize>,
     pattern: OrderedPattern,
     /// Matrix row of each junction.
     row_of: Vec<usize>,
@@ -321,13 +323,19 @@ impl<'n> Hydraulics<'n> {
                 }
             })
             .collect();
-        let valve_kinds = net
+        let valve_kinds: Vec<Option<ValveKind>> = net
             .links
             .iter()
             .map(|l| match &l.kind {
                 LinkKind::Valve(v) => Some(v.kind),
                 _ => None,
             })
+            .collect();
+        let pressure_valves = valve_kinds
+            .iter()
+            .enumerate()
+            .filter(|(_, k)| matches!(k, Some(ValveKind::Prv | ValveKind::Psv)))
+            .map(|(i, _)| i)
             .collect();
         let mut degree = vec![0usize; nn + 1];
         for l in &net.links {
@@ -356,6 +364,7 @@ impl<'n> Hydraulics<'n> {
             source_grade,
             ends,
             valve_kinds,
+            pressure_valves,
             link_rows,
             link_slots,
             pattern,
@@ -668,29 +677,28 @@ impl<'n> Hydraulics<'n> {
             // Update heads and flows, with a line search on large steps once continuity holds
             // (a Newton step from far away can overshoot, e.g. when a fire flow is added to a
             // state with near-zero flows in the pipes around the hydrant).
-            for i in 0..nl {
-                let (a, b) = self.ends[i];
-                ws.flow_step[i] =
-                    ws.known[i] + ws.g_factored[i] * (ws.node_step[a] - ws.node_step[b]);
-            }
             // Steps that shrink at least twofold need no line search: the iteration contracts.
             let contracting = full_step_h < 0.5 * previous_step;
-            let alpha =
-                if !continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M && !contracting {
-                    match self.line_search(ws, &flows, &states, factored_now, request.fixed_head) {
-                        Some(alpha) => alpha,
-                        None => {
-                            // A chord step on a stale factorization that does not descend:
-                            // discard it and take a Newton step instead.
-                            need_factor = true;
-                            previous_step = f64::INFINITY;
-                            previous_flow_step = f64::INFINITY;
-                            continue;
-                        }
+            let search =
+                !continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M && !contracting;
+            if search {
+                self.compute_flow_step(ws);
+            }
+            let alpha = if search {
+                match self.line_search(ws, &flows, &states, factored_now, request.fixed_head) {
+                    Some(alpha) => alpha,
+                    None => {
+                        // A chord step on a stale factorization that does not descend:
+                        // discard it and take a Newton step instead.
+                        need_factor = true;
+                        previous_step = f64::INFINITY;
+                        previous_flow_step = f64::INFINITY;
+                        continue;
                     }
-                } else {
-                    1.0
-                };
+                }
+            } else {
+                1.0
+            };
             continuity_pending = false;
             if let (Some((held, _)), Some(q)) = (request.fixed_head, drawn.as_mut()) {
                 *q += alpha * drawn_step;
@@ -707,13 +715,23 @@ impl<'n> Hydraulics<'n> {
                 }
             }
             let mut step_q = (alpha * drawn_step).abs();
-            for i in 0..nl {
-                let dq = alpha * ws.flow_step[i];
-                flows[i] += dq;
-                step_q = step_q.max(dq.abs());
+            if search {
+                for i in 0..nl {
+                    let dq = alpha * ws.flow_step[i];
+                    flows[i] += dq;
+                    step_q = step_q.max(dq.abs());
+                }
+            } else {
+                // The full step, computed as it is applied (one pass over the links).
+                for i in 0..nl {
+                    let (a, b) = self.ends[i];
+                    let dq = ws.known[i] + ws.g_factored[i] * (ws.node_step[a] - ws.node_step[b]);
+                    flows[i] += dq;
+                    step_q = step_q.max(dq.abs());
+                }
             }
             // Regulating PRV/PSV: flow from continuity at the junction they hold.
-            for i in 0..nl {
+            for &i in &self.pressure_valves {
                 if states[i] != LinkState::Regulating {
                     continue;
                 }
@@ -808,6 +826,14 @@ impl<'n> Hydraulics<'n> {
     /// estimate of a linearly converging iteration; it ends a solve one step earlier).
     fn within(step: f64, ratio: f64, tolerance: f64) -> bool {
         step < tolerance || (ratio > 0.0 && ratio < 0.5 && step * ratio / (1.0 - ratio) < tolerance)
+    }
+
+    /// The flow change of every link in the current step (for the line search).
+    fn compute_flow_step(&self, ws: &mut Workspace) {
+        for i in 0..self.ends.len() {
+            let (a, b) = self.ends[i];
+            ws.flow_step[i] = ws.known[i] + ws.g_factored[i] * (ws.node_step[a] - ws.node_step[b]);
+        }
     }
 
     /// Step length in (0, 1] along `ws.flow_step` that does not increase the content merit
