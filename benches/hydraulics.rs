@@ -17,7 +17,7 @@ use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion};
 use firemain::criteria::load_criteria;
 use firemain::fireflow::{sweep, FireFlowSetup};
 use firemain::hydraulics::factor::{
-    OrderedPattern, SimplicialCholesky, SpdFactorization, SymbolicAnalysis,
+    OrderedPattern, SparseCholesky, SpdFactorization, SymbolicAnalysis,
 };
 use firemain::hydraulics::{Hydraulics, SolveRequest};
 use firemain::model::{load_network, Network};
@@ -117,7 +117,7 @@ fn refactorization(c: &mut Criterion) {
             values[pattern.diagonal_slot(j)] += 1e-3;
         }
         let analysis = SymbolicAnalysis::new(&pattern).expect("symbolic");
-        let mut factor = SimplicialCholesky::new(analysis);
+        let mut factor = SparseCholesky::new(analysis);
         g.bench_with_input(BenchmarkId::from_parameter(n), &values, |b, values| {
             b.iter(|| factor.refactor(values).expect("positive definite"))
         });

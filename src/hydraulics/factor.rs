@@ -4,7 +4,9 @@
 //! and the symbolic factorization are computed once and shared by every thread; each thread
 //! owns only the numeric values of L and a scratch buffer, and refactorizes without allocating.
 //! faer was measured against nalgebra-sparse and sprs on network-like matrices and chosen for
-//! its built-in ordering, shareable symbolic object and allocation-free refactorization.
+//! its built-in ordering and shareable symbolic object; it also supplies the triangular solves
+//! and the dense Cholesky of the factor's trailing block. The sparse numeric phase is ours (see
+//! [`SparseCholesky`]): the sweep refactors one pattern thousands of times.
 
 use std::sync::Arc;
 
@@ -279,10 +281,11 @@ fn dense_block_size(l_col_ptr: &[u32]) -> usize {
 
 /// Sparse LLᵀ with a fixed pattern: faer's ordering, symbolic analysis and triangular solves,
 /// and our own up-looking numeric phase (the row-by-row algorithm of Davis, *Direct Methods
-/// for Sparse Linear Systems*, SIAM 2006, §4.2) on a row structure of L computed once. The
+/// for Sparse Linear Systems*, SIAM 2006, §4.2) on a row structure of L computed once, the
+/// trailing block that is at least half full being finished by faer's dense Cholesky. The
 /// sweep refactors the same pattern thousands of times, so finding each row's structure again
 /// (as a general-purpose factorization must, 20 % of its time here) is work saved.
-pub struct SimplicialCholesky {
+pub struct SparseCholesky {
     analysis: Arc<SymbolicAnalysis>,
     l_values: Vec<f64>,
     /// 1 / L(j, j).
@@ -294,7 +297,7 @@ pub struct SimplicialCholesky {
     mem: MemBuffer,
 }
 
-impl SimplicialCholesky {
+impl SparseCholesky {
     pub fn new(analysis: Arc<SymbolicAnalysis>) -> Self {
         let s = &analysis.symbolic;
         let n = analysis.n;
@@ -303,7 +306,7 @@ impl SimplicialCholesky {
             s.solve_in_place_scratch::<f64>(1, Par::Seq),
             cholesky_in_place_scratch::<f64>(m, Par::Seq, Default::default()),
         ]);
-        SimplicialCholesky {
+        SparseCholesky {
             l_values: vec![0.0; s.len_val()],
             inverse_diagonal: vec![0.0; n],
             work: vec![0.0; n],
@@ -443,7 +446,7 @@ impl SimplicialCholesky {
     }
 }
 
-impl SpdFactorization for SimplicialCholesky {
+impl SpdFactorization for SparseCholesky {
     fn refactor(&mut self, values: &[f64]) -> Result<(), NotPositiveDefinite> {
         for k in 0..self.analysis.dense_start {
             if let Err(e) = self.factor_row(k, values) {
@@ -480,7 +483,7 @@ mod tests {
         // [4 -1 0; -1 4 -1; 0 -1 4] x = [3, 2, 3] has x = [1, 1, 1]: a linear-algebra identity.
         let pattern = OrderedPattern::new(3, &[(0, 1), (1, 2), (2, 1)]).expect("pattern");
         let analysis = SymbolicAnalysis::new(&pattern).expect("symbolic");
-        let mut f = SimplicialCholesky::new(analysis);
+        let mut f = SparseCholesky::new(analysis);
         let mut values = vec![0.0; pattern.nnz()];
         for i in 0..3 {
             values[pattern.diagonal_slot(i)] = 4.0;
@@ -546,7 +549,7 @@ mod tests {
             for i in 0..n {
                 b[pattern.position(i)] = ax[i];
             }
-            let mut f = SimplicialCholesky::new(analysis);
+            let mut f = SparseCholesky::new(analysis);
             // Twice: the second factorization must not see the first one's leftovers.
             for _ in 0..2 {
                 f.refactor(&values).expect("spd");

@@ -20,7 +20,7 @@
 use std::sync::Arc;
 
 use super::controls::{self, LinkState, LinkView, MAX_SWITCHES};
-use super::factor::{OrderedPattern, SimplicialCholesky, SpdFactorization, SymbolicAnalysis};
+use super::factor::{OrderedPattern, SparseCholesky, SpdFactorization, SymbolicAnalysis};
 use super::laws::LinkLaw;
 use super::SolveError;
 use crate::model::{LinkKind, Network, ValveKind};
@@ -119,7 +119,7 @@ pub struct Hydraulics<'n> {
 
 /// Per-thread mutable state of the solver: matrix values, factorization and scratch vectors.
 pub struct Workspace {
-    factor: SimplicialCholesky,
+    factor: SparseCholesky,
     values: Vec<f64>,
     rhs: Vec<f64>,
     /// Conductances 1/D with which the current factorization was made.
@@ -385,7 +385,7 @@ impl<'n> Hydraulics<'n> {
         let nl = self.net.links.len();
         let nj = self.n_junctions;
         Workspace {
-            factor: SimplicialCholesky::new(self.analysis.clone()),
+            factor: SparseCholesky::new(self.analysis.clone()),
             values: vec![0.0; self.pattern.nnz()],
             rhs: vec![0.0; nj],
             g_factored: vec![0.0; nl],
