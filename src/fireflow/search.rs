@@ -30,6 +30,15 @@ const SUPPLY_CURVE_EXPONENT: f64 = 1.852;
 /// hydrants limited by the cap): 1.0 misdirects 209 hydrants whose held flow is below the cap,
 /// 1.3 only 26, and from 1.2 to 1.5 the sweep's factorizations stay within 0.5 % of each other.
 const CAP_FIRST_RATIO: f64 = 1.3;
+/// Tolerance of a solve made only for its verdict at the cap: 0.05 m (0.07 psi) on the estimated
+/// remaining head error, 0.005 m³/s on flows (which enter no verdict without velocity limits).
+const VERDICT_TOLERANCE: Tolerance = Tolerance {
+    head_m: 0.05,
+    flow_m3s: 5.0e-3,
+};
+/// Pressure margin over the floor that a verdict at [`VERDICT_TOLERANCE`] needs to stand: 20
+/// times the tolerance (0.05 m ≈ 0.49 kPa), about 1.4 psi.
+const CLEAR_MARGIN_KPA: f64 = 10.0;
 /// Relative accuracy of the available flow (0.5 %).
 const RELATIVE_ACCURACY: f64 = 0.005;
 /// Offset of a probe from the estimated root, as a fraction of the accuracy: two probes at
@@ -93,6 +102,23 @@ impl Search<'_, '_> {
         let sol = sol?;
         let check = self.setup.constraints(&sol, self.at);
         Ok(Point { q, sol, check })
+    }
+
+    /// A solve at the cap whose only use is its verdict (pass or fail). Without velocity
+    /// limits or controls, it is first made to [`VERDICT_TOLERANCE`]: if every constrained
+    /// pressure clears the floor by [`CLEAR_MARGIN_KPA`], twenty times that tolerance, the
+    /// verdict stands; otherwise the solve continues to the bracket tolerance.
+    fn verify_cap(&mut self, cap: f64, start: &Solution) -> Result<Point, SolveError> {
+        let criteria = self.setup.criteria;
+        if criteria.max_velocity_m_per_s.is_some() || self.setup.has_controls {
+            return self.probe(cap, start);
+        }
+        let coarse = self.solve_at(cap, start, VERDICT_TOLERANCE)?;
+        if coarse.check.pressure_margin_kpa >= CLEAR_MARGIN_KPA {
+            Ok(coarse)
+        } else {
+            self.probe(cap, &coarse.sol)
+        }
     }
 
     /// Solves with the hydrant's junction held at the floor; returns the flow it draws.
@@ -472,7 +498,7 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
     if cap_first {
         // The required-flow factorization is far from the cap's state: start afresh.
         s.ws.forget_factor();
-        match s.probe(cap, &predicted(cap)) {
+        match s.verify_cap(cap, &predicted(cap)) {
             Ok(c) if c.check.feasible() => {
                 lo = c;
                 answer = Some(LimitedBy::Cap);
