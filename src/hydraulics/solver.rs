@@ -9,6 +9,9 @@
 //! Continuity holds exactly after every step. Near convergence the factorization is reused
 //! for a few steps (the chord method) and renewed as soon as the steps stop shrinking fast.
 //!
+//! A junction held at a head by the request (the fire-flow search's hydrant at the floor) is
+//! pinned there; the flow it draws is what continuity leaves at it after each step.
+//!
 //! Control devices: a regulating PRV fixes the head of its downstream junction (a PSV, of its
 //! upstream junction); the valve's flow is then recovered from continuity at that junction and
 //! acts as a known withdrawal at the other end in the next step. A regulating FCV carries its
@@ -133,10 +136,8 @@ pub struct Workspace {
     node_step: Vec<f64>,
     /// Per link: the last exact (|Q|, |Q|^0.852) of a Hazen-Williams pipe.
     memo: Vec<(f64, f64)>,
-    /// Head response to a unit draw at a held junction (matrix order), for the current
-    /// factorization and the junction in `border_of`.
-    border: Vec<f64>,
-    border_of: Option<usize>,
+    /// Scratch for the head response to a unit draw (matrix order).
+    response: Vec<f64>,
     demand: Vec<f64>,
     /// Fixed head of a junction in the current state (sources are always fixed).
     pinned: Vec<Option<f64>>,
@@ -168,7 +169,6 @@ impl Workspace {
 
     /// Makes `snapshot` the current factorization.
     pub fn restore(&mut self, snapshot: &FactorSnapshot) {
-        self.border_of = None;
         self.factor.set_values(&snapshot.l_values);
         self.g_factored.copy_from_slice(&snapshot.g_factored);
         self.factor_key = Some(snapshot.key.clone());
@@ -185,7 +185,6 @@ impl Workspace {
     /// number of threads.)
     pub fn forget_factor(&mut self) {
         self.factor_key = None;
-        self.border_of = None;
     }
 }
 
@@ -392,8 +391,7 @@ impl<'n> Hydraulics<'n> {
             known: vec![0.0; nl],
             flow_step: vec![0.0; nl],
             node_step: vec![0.0; self.net.nodes.len()],
-            border: vec![0.0; nj],
-            border_of: None,
+            response: vec![0.0; nj],
             memo: vec![(0.0, 0.0); nl],
             demand: vec![0.0; nj],
             pinned: vec![None; nj],
@@ -416,13 +414,12 @@ impl<'n> Hydraulics<'n> {
         if ws.factor_key.is_none() || node >= self.n_junctions || ws.pinned[node].is_some() {
             return None;
         }
-        ws.border.iter_mut().for_each(|v| *v = 0.0);
-        ws.border[self.row_of[node]] = -1.0;
-        ws.factor.solve_in_place(&mut ws.border);
-        ws.border_of = Some(node);
+        ws.response.iter_mut().for_each(|v| *v = 0.0);
+        ws.response[self.row_of[node]] = -1.0;
+        ws.factor.solve_in_place(&mut ws.response);
         let mut heads = vec![0.0; self.net.nodes.len()];
         for j in 0..self.n_junctions {
-            heads[j] = ws.border[self.row_of[j]];
+            heads[j] = ws.response[self.row_of[j]];
         }
         let flows = self
             .ends
@@ -516,15 +513,10 @@ impl<'n> Hydraulics<'n> {
         for &(j, q) in request.extra_demand {
             ws.demand[j] += q;
         }
-        // A junction held at a head draws an unknown flow: it is carried as one more unknown
-        // (a bordered system solved with the same factorization, two solves per step), so that
-        // the matrix, and any factorization of it, stays the one of the plain problem.
-        let mut drawn = request
-            .fixed_head
-            .map(|(j, _)| self.imbalance(j, &start.flows_m3s, &ws.demand));
-        if let (Some((j, _)), Some(q)) = (request.fixed_head, drawn) {
-            ws.demand[j] += q;
-        }
+        // A junction held at a head is pinned there like the junction a PRV regulates; the
+        // flow it draws beyond its demand follows from continuity after every step.
+        let held = request.fixed_head.map(|(j, _)| j);
+        let mut drawn = held.map(|j| self.imbalance(j, &start.flows_m3s, &ws.demand));
         let mut heads = start.heads_m.clone();
         let mut flows = start.flows_m3s.clone();
         let mut states = start.states.clone();
@@ -544,12 +536,13 @@ impl<'n> Hydraulics<'n> {
         for iteration in 1..=MAX_ITERATIONS {
             if dirty {
                 self.pin_junctions(ws, request, &mut states);
-                isolated = self.find_isolated(ws, &states)?;
+                isolated = self.find_isolated(ws, &states, held)?;
                 for &j in &isolated {
                     ws.pinned[j] = Some(heads[j]);
                 }
                 dirty = false;
-                need_factor = !matches!(&ws.factor_key, Some((None, st)) if st == &states);
+                need_factor =
+                    !matches!(&ws.factor_key, Some((key, st)) if *key == held && st == &states);
             }
 
             // The step of every fixed node: a pinned junction moves to its target in this step,
@@ -631,11 +624,10 @@ impl<'n> Hydraulics<'n> {
             let factored_now = need_factor;
             if need_factor {
                 ws.factor_key = None;
-                ws.border_of = None;
                 ws.factor
                     .refactor(&ws.values)
                     .map_err(|_| self.singular_error(ws))?;
-                ws.factor_key = Some((None, states.clone()));
+                ws.factor_key = Some((held, states.clone()));
                 factorizations += 1;
             }
             ws.factor.solve_in_place(&mut ws.rhs);
@@ -648,25 +640,6 @@ impl<'n> Hydraulics<'n> {
                     ));
                 }
                 ws.node_step[j] = d;
-            }
-            // The held junction: with x the head response to a unit draw there, the step
-            // δH = y + δQ·x puts it exactly at its head.
-            let mut drawn_step = 0.0;
-            if let Some((held, target)) = request.fixed_head {
-                // The response to a unit draw depends only on the factorization: renewed with it.
-                if factored_now || ws.border_of != Some(held) {
-                    ws.border.iter_mut().for_each(|v| *v = 0.0);
-                    ws.border[self.row_of[held]] = -1.0;
-                    ws.factor.solve_in_place(&mut ws.border);
-                    ws.border_of = Some(held);
-                }
-                let x_held = ws.border[self.row_of[held]];
-                if x_held.abs() > 0.0 && x_held.is_finite() {
-                    drawn_step = (target - heads[held] - ws.node_step[held]) / x_held;
-                    for j in 0..nj {
-                        ws.node_step[j] += drawn_step * ws.border[self.row_of[j]];
-                    }
-                }
             }
             for j in 0..nj {
                 if ws.pinned[j].is_none() {
@@ -685,7 +658,7 @@ impl<'n> Hydraulics<'n> {
                 self.compute_flow_step(ws);
             }
             let alpha = if search {
-                match self.line_search(ws, &flows, &states, factored_now, request.fixed_head) {
+                match self.line_search(ws, &flows, &states, factored_now) {
                     Some(alpha) => alpha,
                     None => {
                         // A chord step on a stale factorization that does not descend:
@@ -700,10 +673,6 @@ impl<'n> Hydraulics<'n> {
                 1.0
             };
             continuity_pending = false;
-            if let (Some((held, _)), Some(q)) = (request.fixed_head, drawn.as_mut()) {
-                *q += alpha * drawn_step;
-                ws.demand[held] += alpha * drawn_step;
-            }
             let mut step_h = 0.0_f64;
             for j in 0..nj {
                 let d = ws.node_step[j];
@@ -714,7 +683,7 @@ impl<'n> Hydraulics<'n> {
                     heads[j] += d;
                 }
             }
-            let mut step_q = (alpha * drawn_step).abs();
+            let mut step_q = 0.0_f64;
             if search {
                 for i in 0..nl {
                     let dq = alpha * ws.flow_step[i];
@@ -755,6 +724,11 @@ impl<'n> Hydraulics<'n> {
                 if (flows[i] - old).abs() > 1e-12 {
                     continuity_pending = true;
                 }
+            }
+            if let (Some(j), Some(q)) = (held, drawn.as_mut()) {
+                let now = self.imbalance(j, &flows, &ws.demand);
+                step_q = step_q.max((now - *q).abs());
+                *q = now;
             }
             let ratio = step_h / previous_step;
             let flow_ratio = step_q / previous_flow_step;
@@ -845,12 +819,8 @@ impl<'n> Hydraulics<'n> {
         flows: &[f64],
         states: &[LinkState],
         newton: bool,
-        held: Option<(usize, f64)>,
     ) -> Option<f64> {
-        let fixed_head = |node: usize| match held {
-            Some((j, h)) if j == node => Some(h),
-            _ => self.fixed_head(node, ws),
-        };
+        let fixed_head = |node: usize| self.fixed_head(node, ws);
         let merit = |alpha: f64| -> f64 {
             let mut total = 0.0;
             for (i, l) in self.net.links.iter().enumerate() {
@@ -924,6 +894,9 @@ impl<'n> Hydraulics<'n> {
         states: &mut [LinkState],
     ) {
         ws.pinned.iter_mut().for_each(|p| *p = None);
+        if let Some((j, head)) = request.fixed_head {
+            ws.pinned[j] = Some(head);
+        }
         for (i, l) in self.net.links.iter().enumerate() {
             if states[i] != LinkState::Regulating {
                 continue;
@@ -946,6 +919,7 @@ impl<'n> Hydraulics<'n> {
         &self,
         ws: &Workspace,
         states: &[LinkState],
+        held: Option<usize>,
     ) -> Result<Vec<usize>, SolveError> {
         let nj = self.n_junctions;
         // When every element that can change state conducts, the conducting links are the
@@ -957,8 +931,10 @@ impl<'n> Hydraulics<'n> {
         }
         let mut reached = vec![false; nj];
         let mut stack: Vec<usize> = Vec::new();
+        // Junctions held by a regulating valve are fixed grades fed through it; a junction
+        // held by the request is not: it draws, and must itself be reached.
         for j in 0..nj {
-            if ws.pinned[j].is_some() {
+            if ws.pinned[j].is_some() && Some(j) != held {
                 reached[j] = true;
                 stack.push(j);
             }
@@ -987,6 +963,7 @@ impl<'n> Hydraulics<'n> {
         // delivers or draws a flow), has no steady state in a demand-driven model.
         let fed = |j: usize| {
             ws.demand[j] != 0.0
+                || Some(j) == held
                 || self
                     .links_at(j)
                     .iter()
