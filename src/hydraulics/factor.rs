@@ -330,8 +330,10 @@ impl SparseCholesky {
         }
     }
 
-    /// Computes row k of L from column k of A's upper triangle and the rows before it.
-    fn factor_row(&mut self, k: usize, values: &[f64]) -> Result<(), NotPositiveDefinite> {
+    /// Scatters column k of A's upper triangle into the work vector and computes row k of L
+    /// in the columns before `end` (L(k, j) = x_j / L(j, j), then column j's entries above row
+    /// k update x). Returns the pivot left, A(k, k) − Σ L(k, j)², with x[k] cleared.
+    fn eliminate_row(&mut self, k: usize, values: &[f64], end: usize) -> f64 {
         let s = &*self.analysis;
         let x = &mut self.work;
         let (a_start, a_end) = (s.a_col_ptr[k] as usize, s.a_col_ptr[k + 1] as usize);
@@ -346,6 +348,9 @@ impl SparseCholesky {
         let (r_start, r_end) = (s.row_ptr[k] as usize, s.row_ptr[k + 1] as usize);
         for &(j, slot) in &s.row_entries[r_start..r_end] {
             let j = j as usize;
+            if j >= end {
+                break;
+            }
             let slot = slot as usize;
             let lkj = x[j] * self.inverse_diagonal[j];
             x[j] = 0.0;
@@ -360,11 +365,17 @@ impl SparseCholesky {
             d -= lkj * lkj;
             self.l_values[slot] = lkj;
         }
+        d
+    }
+
+    /// Computes row k of L from column k of A's upper triangle and the rows before it.
+    fn factor_row(&mut self, k: usize, values: &[f64]) -> Result<(), NotPositiveDefinite> {
+        let d = self.eliminate_row(k, values, k);
         if !(d > 0.0 && d.is_finite()) {
             return Err(NotPositiveDefinite);
         }
         let diagonal = d.sqrt();
-        self.l_values[s.l_col_ptr[k] as usize] = diagonal;
+        self.l_values[self.analysis.l_col_ptr[k] as usize] = diagonal;
         self.inverse_diagonal[k] = 1.0 / diagonal;
         Ok(())
     }
@@ -376,46 +387,20 @@ impl SparseCholesky {
     /// zero in S's factor, as they are in exact arithmetic: every product forming them has a
     /// structurally zero factor).
     fn factor_dense_block(&mut self, values: &[f64]) -> Result<(), NotPositiveDefinite> {
-        let s = &*self.analysis;
+        let analysis = Arc::clone(&self.analysis);
+        let s = &*analysis;
         let (ds, n) = (s.dense_start, s.n);
         let m = n - ds;
-        let x = &mut self.work;
         for k in ds..n {
-            let (a_start, a_end) = (s.a_col_ptr[k] as usize, s.a_col_ptr[k + 1] as usize);
-            for (&i, &v) in s.a_row_idx[a_start..a_end]
-                .iter()
-                .zip(&values[a_start..a_end])
-            {
-                x[i as usize] = v;
-            }
-            let (r_start, r_end) = (s.row_ptr[k] as usize, s.row_ptr[k + 1] as usize);
-            for &(j, slot) in &s.row_entries[r_start..r_end] {
-                let j = j as usize;
-                if j >= ds {
-                    break;
-                }
-                let slot = slot as usize;
-                let lkj = x[j] * self.inverse_diagonal[j];
-                x[j] = 0.0;
-                let first = s.l_col_ptr[j] as usize + 1;
-                for (&i, &lij) in s.l_row_idx[first..slot]
-                    .iter()
-                    .zip(&self.l_values[first..slot])
-                {
-                    x[i as usize] -= lij * lkj;
-                }
-                x[k] -= lkj * lkj;
-                self.l_values[slot] = lkj;
-            }
+            let pivot = self.eliminate_row(k, values, ds);
             // Row k of S (its lower triangle, column-major: S[row + m·col]).
             let row = k - ds;
-            for (col, xi) in x[ds..=k].iter_mut().enumerate() {
+            for (col, xi) in self.work[ds..k].iter_mut().enumerate() {
                 self.dense[row + m * col] = *xi;
                 *xi = 0.0;
             }
+            self.dense[row + m * row] = pivot;
         }
-        // faer's dense Cholesky reads and writes the lower triangle only (checked by filling
-        // the upper one with NaN: results unchanged), so nothing needs clearing here.
         let block = MatMut::from_column_major_slice_mut(&mut self.dense, m, m);
         cholesky_in_place(
             block,
