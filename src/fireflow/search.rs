@@ -293,10 +293,10 @@ pub fn analyse_hydrant(
 ) -> HydrantResult {
     // Each hydrant starts from the max-day factorization, so that its result does not depend
     // on which thread analysed it or what that thread analysed before.
-    ws.forget_factor();
     ws.set_tolerance(Tolerance::SEARCH);
-    if let Some(snapshot) = &setup.base_factor {
-        ws.restore(snapshot);
+    match &setup.base_factor {
+        Some(snapshot) => ws.restore(snapshot),
+        None => ws.forget_history(),
     }
     let net = setup.network();
     let hydrant = &net.hydrants[index];

@@ -169,6 +169,9 @@ pub struct Workspace {
 pub struct FactorSnapshot {
     l_values: Vec<f64>,
     g_factored: Vec<f64>,
+    /// The memo of powers too: a power continued by its series from another anchor differs
+    /// in the last bits, and results must not depend on what a workspace solved before.
+    memo: Vec<(f64, f64)>,
     key: (Option<usize>, Vec<LinkState>),
 }
 
@@ -178,6 +181,7 @@ impl Workspace {
         self.factor_key.as_ref().map(|key| FactorSnapshot {
             l_values: self.factor.values().to_vec(),
             g_factored: self.g_factored.clone(),
+            memo: self.memo.clone(),
             key: key.clone(),
         })
     }
@@ -186,7 +190,15 @@ impl Workspace {
     pub fn restore(&mut self, snapshot: &FactorSnapshot) {
         self.factor.set_values(&snapshot.l_values);
         self.g_factored.copy_from_slice(&snapshot.g_factored);
+        self.memo.copy_from_slice(&snapshot.memo);
         self.factor_key = Some(snapshot.key.clone());
+    }
+
+    /// Forgets everything earlier solves left that could shape later ones: the factorization
+    /// and the memo of powers (see [`FactorSnapshot`]).
+    pub fn forget_history(&mut self) {
+        self.forget_factor();
+        self.memo.iter_mut().for_each(|m| *m = (0.0, 0.0));
     }
 
     /// Sets the convergence tolerance of later solves (default [`Tolerance::STEADY`]).
