@@ -69,18 +69,6 @@ const CHORD_MAX_STEP_M: f64 = 0.1;
 const CHORD_MAX_RATIO: f64 = 0.45;
 /// Marks "no matrix row or slot" in the per-link index arrays.
 const NO_ROW: u32 = u32::MAX;
-/// Flow at which a link's slope floors its slope in the Newton matrix of the fire-flow search's
-/// solves, m³/s (3e-4 m³/s, about 5 gpm). Near zero flow the head-loss laws are nearly flat, so
-/// a pipe carrying almost nothing enters the matrix with an enormous conductance, and a tiny
-/// head change swings its flow by orders of magnitude, back and forth between iterations (seen
-/// as Newton steps that stop shrinking at millimetres). Flooring the slope damps those swings;
-/// the residual, and so the converged solution, is the exact law's. On the 10k synthetic
-/// network's sweep: 4 % fewer factorizations and 5 % fewer iterations, the worst hydrant 10
-/// factorizations instead of 12, available flows within 0.3 % and pressures within 0.001 psi
-/// of the exact-slope sweep, no verdict changed; floors from 1e-3 m³/s up slow the sweep
-/// instead (the matrix then misstates too many real flows). Steady states reported as such
-/// (tolerance [`Tolerance::STEADY`]) take the exact slopes.
-const JACOBIAN_FLOW_FLOOR_M3S: f64 = 3.0e-4;
 /// Head steps above this (m) are checked by a line search on the content merit function.
 const LINE_SEARCH_MIN_STEP_M: f64 = 0.1;
 /// Relative round-off allowed in the line search's merit comparison.
@@ -117,9 +105,6 @@ pub struct Hydraulics<'n> {
     valve_kinds: Vec<Option<ValveKind>>,
     /// The PRVs and PSVs (links that may hold a junction's head).
     pressure_valves: Vec<usize>,
-    /// Smallest slope dφ/dQ a link enters the Newton matrix with: its slope at
-    /// [`JACOBIAN_FLOW_FLOOR_M3S`] (0 for pumps).
-    slope_floor: Vec<f64>,
     pattern: OrderedPattern,
     /// Matrix row of each junction.
     row_of: Vec<usize>,
@@ -381,15 +366,6 @@ impl<'n> Hydraulics<'n> {
             fill[l.to] += 1;
         }
         let analysis = SymbolicAnalysis::new(&pattern).map_err(SolveError::Internal)?;
-        let slope_floor = laws
-            .iter()
-            .map(|law| match law {
-                LinkLaw::HazenWilliams { .. }
-                | LinkLaw::DarcyWeisbach { .. }
-                | LinkLaw::MinorLoss { .. } => law.evaluate(JACOBIAN_FLOW_FLOOR_M3S).1,
-                LinkLaw::Pump { .. } | LinkLaw::None => 0.0,
-            })
-            .collect();
         Ok(Hydraulics {
             net,
             n_junctions: nj,
@@ -400,7 +376,6 @@ impl<'n> Hydraulics<'n> {
             ends,
             valve_kinds,
             pressure_valves,
-            slope_floor,
             link_rows,
             link_slots,
             pattern,
@@ -594,10 +569,6 @@ impl<'n> Hydraulics<'n> {
             if need_factor {
                 ws.values.iter_mut().for_each(|v| *v = 0.0);
             }
-            // The slope floor serves the fire-flow search's solves; a reported steady state
-            // (to STEADY) takes the exact slopes, so that a pipe whose flow tends to zero
-            // converges quadratically and the error estimate of `within` stays sound to 1e-6 m.
-            let floored = ws.tolerance.head_m > Tolerance::STEADY.head_m;
             // One pass over the links: conductance g, the known part k of the flow change, the
             // continuity residual and the known changes into the right-hand side, and (when
             // refactoring) the matrix values.
@@ -611,11 +582,7 @@ impl<'n> Hydraulics<'n> {
                         st if st.conducts() => {
                             let (phi, slope) = self.laws[i].evaluate_with(q, &mut ws.memo[i]);
                             let g = if need_factor {
-                                if floored {
-                                    1.0 / slope.max(self.slope_floor[i])
-                                } else {
-                                    1.0 / slope
-                                }
+                                1.0 / slope
                             } else {
                                 ws.g_factored[i]
                             };
