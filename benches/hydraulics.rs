@@ -19,6 +19,7 @@ use firemain::fireflow::{sweep, FireFlowSetup};
 use firemain::hydraulics::factor::{
     OrderedPattern, SparseCholesky, SpdFactorization, SymbolicAnalysis,
 };
+use firemain::hydraulics::solver::junction_pairs;
 use firemain::hydraulics::{Hydraulics, SolveRequest};
 use firemain::model::{load_network, Network};
 
@@ -95,12 +96,7 @@ fn refactorization(c: &mut Criterion) {
     for n in sizes() {
         let net = load(n);
         let nj = net.n_junctions;
-        let pairs: Vec<(usize, usize)> = net
-            .links
-            .iter()
-            .filter(|l| l.from != l.to && l.from < nj && l.to < nj)
-            .map(|l| (l.from, l.to))
-            .collect();
+        let pairs = junction_pairs(&net);
         let pattern = OrderedPattern::new(nj, &pairs).expect("pattern");
         // A weighted Laplacian plus a positive shift: the junction matrix's structure and
         // definiteness, with values that do not depend on a solve.

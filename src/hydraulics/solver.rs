@@ -236,6 +236,17 @@ pub struct Solution {
     pub unsettled: Vec<usize>,
 }
 
+/// The (from, to) junctions of every link joining two different junctions: the off-diagonal
+/// entries of the junction matrix (links to a source only touch its diagonal).
+pub fn junction_pairs(net: &Network) -> Vec<(usize, usize)> {
+    let nj = net.n_junctions;
+    net.links
+        .iter()
+        .filter(|l| l.from != l.to && l.from < nj && l.to < nj)
+        .map(|l| (l.from, l.to))
+        .collect()
+}
+
 impl<'n> Hydraulics<'n> {
     /// Prepares the solver for `net`: link laws, matrix pattern, and the symbolic
     /// factorization (once per network).
@@ -280,12 +291,7 @@ impl<'n> Hydraulics<'n> {
         if nj == 0 {
             return Err(SolveError::Internal("the network has no junctions".into()));
         }
-        let pairs: Vec<(usize, usize)> = net
-            .links
-            .iter()
-            .filter(|l| l.from != l.to && l.from < nj && l.to < nj)
-            .map(|l| (l.from, l.to))
-            .collect();
+        let pairs = junction_pairs(net);
         let pattern = OrderedPattern::new(nj, &pairs).map_err(SolveError::Internal)?;
         let off_slot: Vec<Option<usize>> = net
             .links
