@@ -10,6 +10,7 @@
 //!   constraints (the first crossing, the safe reading for a fire flow that ramps up).
 
 mod search;
+pub mod supply_paths;
 mod sweep;
 
 pub use search::analyse_hydrant;
@@ -125,7 +126,7 @@ pub struct HydrantResult {
     pub notes: Vec<HydrantNote>,
     /// For a failing hydrant: the pipes on the supply paths of the lowest constrained junction
     /// at the required flow, largest share of the head loss first (weak mains).
-    pub supply_paths: Vec<crate::weakmains::PipeShare>,
+    pub supply_paths: Vec<supply_paths::PipeShare>,
     /// Hydraulic solves, solver iterations and numeric factorizations spent on this hydrant.
     pub solves: u32,
     pub iterations: u32,

@@ -375,11 +375,11 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
     // Weak mains, for a hydrant that fails at its required flow.
     if let Some(p) = &at_required {
         if !p.check.feasible() || required > cap {
-            result.supply_paths = crate::weakmains::supply_path_shares(
+            result.supply_paths = super::supply_paths::supply_path_shares(
                 net,
                 &p.sol,
                 p.check.pressure_junction,
-                crate::weakmains::PIPES_PER_HYDRANT,
+                super::supply_paths::PIPES_PER_HYDRANT,
             );
         }
     }
