@@ -97,6 +97,12 @@ pub enum HydrantNote {
     ResidualUnavailable { reason: String },
     /// The constraints fail at some flow below a larger flow that meets them (first crossing).
     NonMonotone { passes_again_at_m3s: f64 },
+    /// The required flow is above the criteria's search cap: the search went up to the
+    /// required flow instead, so that pass or fail is decided.
+    RequiredAboveCap { cap_m3s: f64 },
+    /// Controls that switched back and forth without settling in a solve of this hydrant's
+    /// search: no answer can be verified (link indices).
+    UnsettledControls { links: Vec<usize> },
     /// The analysis failed.
     Error { reason: String },
 }

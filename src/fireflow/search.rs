@@ -1,27 +1,34 @@
-//! The search for one hydrant's available fire flow.
+//! The search for one hydrant's available fire flow, in named steps ([`run`]):
 //!
-//! 1. Static state: the shared max-day solution (no solve).
-//! 2. One solve at the required flow: residual pressure, and a first bracket point.
-//! 3. One solve with the hydrant's junction held at the floor pressure: the flow it draws is
-//!    the hydrant-limited flow, exactly. If no other constraint fails there, that is the
-//!    answer. When the supply curve fitted at the required flow reaches the floor well beyond
-//!    the search cap (by [`CAP_FIRST_RATIO`]), the cap is verified first instead: if it passes
-//!    it is the answer, and the held solve, which would place a flow far beyond it, is saved.
-//! 4. Otherwise a safeguarded secant search between the largest flow known to pass and the
-//!    smallest known to fail, on the binding constraint's margin modelled as A − K·Q^1.852 (the
-//!    Hazen-Williams shape of a supply curve, which makes the secant nearly exact): each step
-//!    probes just below and just above the estimate, so that two probes usually close the
-//!    bracket to the required accuracy. Every answer is a flow verified by a full solve.
-//! 5. With check valves, pumps or regulating valves whose state changed between static and
-//!    fire conditions, flows below the answer are sampled to find an earlier crossing, and the
-//!    flow at which each element changed state is located.
+//! 1. **Static state**: the shared max-day solution (no solve). If it already violates a
+//!    constraint, the available flow is zero.
+//! 2. **Required flow** ([`Search::at_required_flow`]): one ordinary solve there gives the
+//!    residual pressure, and a first bracket point.
+//! 3. **Held solve** ([`Search::hydrant_limited_or_cap`]): one solve with the hydrant's junction
+//!    held at the floor places the hydrant-limited flow; an ordinary solve just below it
+//!    verifies it. When the supply curve fitted at the required flow reaches the floor well
+//!    beyond the search cap (by [`CAP_FIRST_RATIO`]), the cap is verified first instead.
+//! 4. **Failing point** ([`Search::find_failing_point`]): with no failing flow known yet, the
+//!    cap is probed, bisecting below flows that cannot be solved.
+//! 5. **Bracket** ([`bracket_search`]): a safeguarded secant search between the largest flow
+//!    known to pass and the smallest known to fail, on the binding constraint's margin modelled
+//!    as A − K·Q^1.852 (the Hazen-Williams shape of a supply curve).
+//! 6. **First crossing** ([`Search::first_crossing`]): with elements that can change state, the
+//!    flows below the answer are checked (see the guarantee there).
+//! 7. **Binding constraint** ([`classify`]).
+//!
+//! The answer is always the flow of an ordinary solve (no junction held, every control settled
+//! by its own rules) at exactly that flow, on the reporting grid ([`on_grid`]), whose every
+//! constrained pressure clears the floor by the solve's own tolerance: a held solve only places
+//! a flow, it never is the answer. A solve whose controls do not settle makes the hydrant an
+//! `error` row.
 
 use super::{
     ConstraintCheck, FireFlowSetup, HydrantNote, HydrantResult, LimitedBy, Outcome,
     FLOOR_TOLERANCE_KPA,
 };
-use crate::hydraulics::{Solution, SolveError, SolveRequest, Tolerance, Workspace};
-use crate::units::{UnitSystem, M3S_PER_GPM};
+use crate::hydraulics::{LinkState, Solution, SolveError, SolveRequest, Tolerance, Workspace};
+use crate::units::{pressure_kpa_from_head_m, UnitSystem, M3S_PER_GPM};
 
 /// Exponent of the supply-curve model used by the secant step (Hazen-Williams, 1/0.54).
 const SUPPLY_CURVE_EXPONENT: f64 = 1.852;
@@ -46,46 +53,95 @@ const RELATIVE_ACCURACY: f64 = 0.005;
 const PROBE_OFFSET: f64 = 0.25;
 /// Probes allowed in the bracket search before it stops with the verified lower end.
 const MAX_PROBES: u32 = 40;
-/// Samples below the answer when controls changed state (first-crossing check).
-const FIRST_CROSSING_SAMPLES: u32 = 8;
-/// Bisection steps locating the flow at which an element changed state (1/32 of the range).
-const STATE_CHANGE_STEPS: u32 = 5;
-/// Elements whose state-change flow is located per hydrant.
-const STATE_CHANGES_LOCATED: usize = 3;
+/// The flow verified after a held solve lies this fraction below the flow it placed (0.1 %):
+/// enough for the hydrant's pressure to clear the floor by the verifying solve's tolerance
+/// when the static pressure is at least about 1 kPa above the floor, and a fifth of the
+/// accuracy promised.
+const HELD_VERIFY_OFFSET: f64 = 0.001;
+/// Intervals of the first-crossing grid between zero and the answer.
+const FIRST_CROSSING_INTERVALS: u32 = 32;
+/// Bisections locating a state change inside a grid interval (to 1/2¹⁰ of the answer).
+const STATE_CHANGE_BISECTIONS: u32 = 5;
+/// Factor on the pressure drop extrapolated across the gap left by locating a state change:
+/// the supply curve steepens with flow, so the secant slope of the last two flows before the
+/// change is doubled (common practice, no source).
+const GAP_SLOPE_FACTOR: f64 = 2.0;
+/// State-change notes kept per hydrant.
+const STATE_CHANGES_NOTED: usize = 3;
 
-/// A flow with its verified solution.
+/// A flow with the solution of an ordinary solve there, and whether it meets every constraint
+/// by at least that solve's tolerance (`fails`: `None`), or which constraint it violates.
+#[derive(Clone)]
 struct Point {
     q: f64,
     sol: Solution,
     check: ConstraintCheck,
+    passes: bool,
+    fails: Option<Binding>,
+}
+
+/// What is known above the largest passing flow.
+enum Above {
+    /// An ordinary solve (or a held one) that violates a constraint.
+    Failing(Point),
+    /// A flow the hydraulics could not solve.
+    Unsolved { q: f64, reason: String },
+}
+
+impl Above {
+    fn q(&self) -> f64 {
+        match self {
+            Above::Failing(p) => p.q,
+            Above::Unsolved { q, .. } => *q,
+        }
+    }
+}
+
+/// The search interval: `lo` passes (an ordinary solve), `hi` is the smallest flow known not
+/// to.
+struct Bracket {
+    lo: Point,
+    hi: Option<Above>,
+}
+
+impl Bracket {
+    /// Takes a failing point or an unsolved flow as the upper end when it lowers it.
+    fn lower_hi(&mut self, above: Above) {
+        if self.hi.as_ref().is_none_or(|h| above.q() < h.q()) {
+            self.hi = Some(above);
+        }
+    }
+}
+
+/// Why a solve did not give a usable point.
+enum ProbeError {
+    Solve(SolveError),
+    /// Controls that switched too often and were frozen (link indices).
+    Unsettled(Vec<usize>),
 }
 
 struct Search<'s, 'a> {
     setup: &'s FireFlowSetup<'a>,
     ws: &'s mut Workspace,
     at: usize,
+    /// The search's upper limit: the criteria's cap, or the required flow when that is larger.
+    cap: f64,
+    /// Elements whose control did not settle in any solve of this hydrant.
+    unsettled: Vec<usize>,
     solves: u32,
     iterations: u32,
     factorizations: u32,
 }
 
 impl Search<'_, '_> {
-    /// A solve at fire flow `q`, to the tolerance of reported pressures.
-    fn evaluate(&mut self, q: f64, start: &Solution) -> Result<Point, SolveError> {
-        self.solve_at(q, start, Tolerance::SEARCH)
-    }
-
-    /// A solve at fire flow `q` whose use is to place a flow (bracket probes, samples).
-    fn probe(&mut self, q: f64, start: &Solution) -> Result<Point, SolveError> {
-        self.solve_at(q, start, Tolerance::BRACKET)
-    }
-
+    /// An ordinary solve at fire flow `q` (taken onto the reporting grid) to `tolerance`.
     fn solve_at(
         &mut self,
         q: f64,
         start: &Solution,
         tolerance: Tolerance,
-    ) -> Result<Point, SolveError> {
+    ) -> Result<Point, ProbeError> {
+        let q = on_grid(q, self.setup.network().units);
         self.ws.set_tolerance(tolerance);
         let extra = [(self.at, q)];
         let request = SolveRequest {
@@ -93,22 +149,91 @@ impl Search<'_, '_> {
             extra_demand: &extra,
             fixed_head: None,
         };
-        self.solves += 1;
-        let sol = self.setup.hydraulics.solve(self.ws, &request, start);
-        if let Ok(s) = &sol {
-            self.factorizations += s.factorizations;
-            self.iterations += s.iterations;
-        }
-        let sol = sol?;
+        let sol = self.run_solve(&request, start)?;
         let check = self.setup.constraints(&sol, self.at);
-        Ok(Point { q, sol, check })
+        let fails = self.verdict(&check, tolerance);
+        Ok(Point {
+            q,
+            sol,
+            check,
+            passes: fails.is_none(),
+            fails,
+        })
+    }
+
+    /// Runs one solve and counts its work; frozen controls are an error, and those of an
+    /// ordinary solve (no junction held) make the hydrant an `error` row.
+    fn run_solve(
+        &mut self,
+        request: &SolveRequest<'_>,
+        start: &Solution,
+    ) -> Result<Solution, ProbeError> {
+        self.solves += 1;
+        let sol = self
+            .setup
+            .hydraulics
+            .solve(self.ws, request, start)
+            .map_err(ProbeError::Solve)?;
+        self.factorizations += sol.factorizations;
+        self.iterations += sol.iterations;
+        if !sol.unsettled.is_empty() {
+            let ordinary = request.fixed_head.is_none();
+            for &i in sol.unsettled.iter().filter(|_| ordinary) {
+                if !self.unsettled.contains(&i) {
+                    self.unsettled.push(i);
+                }
+            }
+            return Err(ProbeError::Unsettled(sol.unsettled));
+        }
+        Ok(sol)
+    }
+
+    /// Whether a solution converged to `tolerance` meets every constraint with room for the
+    /// solve's own error (`None`), or which constraint it violates: each constrained pressure
+    /// must be at least the head tolerance above the floor, each velocity at least the flow
+    /// tolerance's share below the limit. A pressure violation is named before a velocity one.
+    fn verdict(&self, check: &ConstraintCheck, tolerance: Tolerance) -> Option<Binding> {
+        let pressure_room = pressure_kpa_from_head_m(tolerance.head_m).max(FLOOR_TOLERANCE_KPA);
+        if check.pressure_margin_kpa < pressure_room {
+            return Some(Binding::Pressure(check.pressure_junction));
+        }
+        let (margin, link) = check.velocity?;
+        let area = self.setup.network().links[link]
+            .diameter_m()
+            .map_or(f64::INFINITY, |d| std::f64::consts::PI * d * d / 4.0);
+        (margin < tolerance.flow_m3s / area).then_some(Binding::Velocity(link))
+    }
+
+    /// A point for the static state (a steady solve).
+    fn static_point(&self) -> Point {
+        let sol = self.setup.base.clone();
+        let check = self.setup.constraints(&sol, self.at);
+        let fails = self.verdict(&check, Tolerance::STEADY);
+        Point {
+            q: 0.0,
+            sol,
+            check,
+            passes: fails.is_none(),
+            fails,
+        }
+    }
+
+    /// A solve at fire flow `q` to the tolerance of reported pressures.
+    fn evaluate(&mut self, q: f64, start: &Solution) -> Result<Point, ProbeError> {
+        self.solve_at(q, start, Tolerance::SEARCH)
+    }
+
+    /// A solve at fire flow `q` whose use is to place a flow (bracket probes, samples).
+    fn probe(&mut self, q: f64, start: &Solution) -> Result<Point, ProbeError> {
+        self.solve_at(q, start, Tolerance::BRACKET)
     }
 
     /// A solve at the cap whose only use is its verdict (pass or fail). Without velocity
     /// limits or controls, it is first made to [`VERDICT_TOLERANCE`]: if every constrained
     /// pressure clears the floor by [`CLEAR_MARGIN_KPA`], twenty times that tolerance, the
     /// verdict stands; otherwise the solve continues to the bracket tolerance.
-    fn verify_cap(&mut self, cap: f64, start: &Solution) -> Result<Point, SolveError> {
+    fn verify_cap(&mut self, start: &Solution) -> Result<Point, ProbeError> {
+        let cap = self.cap;
         let criteria = self.setup.criteria;
         if criteria.max_velocity_m_per_s.is_some() || self.setup.has_controls {
             return self.probe(cap, start);
@@ -121,8 +246,9 @@ impl Search<'_, '_> {
         }
     }
 
-    /// Solves with the hydrant's junction held at the floor; returns the flow it draws.
-    fn hydrant_limited(&mut self, start: &Solution) -> Result<Point, SolveError> {
+    /// Solves with the hydrant's junction held at the floor; returns the flow it draws and the
+    /// constraint check of that state (a point that places a flow, never an answer).
+    fn held_solve(&mut self, start: &Solution) -> Result<(f64, Point), ProbeError> {
         // The start is an extrapolation to a larger flow, where the pipes near the hydrant are
         // stiffer than in the last factorization: a fresh one serves the first step better.
         self.ws.forget_factor();
@@ -132,15 +258,427 @@ impl Search<'_, '_> {
             extra_demand: &[],
             fixed_head: Some((self.at, self.setup.floor_head_m(self.at))),
         };
-        self.solves += 1;
-        let sol = self.setup.hydraulics.solve(self.ws, &request, start);
-        self.ws.set_tolerance(Tolerance::SEARCH);
-        let sol = sol?;
-        self.factorizations += sol.factorizations;
-        self.iterations += sol.iterations;
-        let q = sol.fixed_head_outflow_m3s.unwrap_or(0.0);
+        let sol = self.run_solve(&request, start)?;
+        let q = sol.fixed_head_outflow_m3s.unwrap_or(0.0).max(0.0);
         let check = self.setup.constraints(&sol, self.at);
-        Ok(Point { q, sol, check })
+        // The hydrant sits at the floor by construction: what counts is every other
+        // constraint, without room for tolerance (this point only places a flow).
+        let fails = (!check.feasible()).then(|| binding_of(&check));
+        Ok((
+            q,
+            Point {
+                q,
+                sol,
+                check,
+                passes: fails.is_none(),
+                fails,
+            },
+        ))
+    }
+
+    /// Step 2: the ordinary solve at the required flow; records the residual pressure, the
+    /// lowest constrained pressure and, for a failing hydrant, its supply-path shares.
+    fn at_required_flow(&mut self, required: f64, result: &mut HydrantResult) -> Option<Point> {
+        let setup = self.setup;
+        let net = setup.network();
+        match self.evaluate(required, &setup.base) {
+            Ok(p) => {
+                result.residual_kpa = Some(p.sol.pressure_kpa(net, self.at));
+                result.min_pressure_kpa =
+                    Some(p.check.pressure_margin_kpa + setup.criteria.residual_floor_kpa);
+                result.min_pressure_junction = Some(p.check.pressure_junction);
+                if !p.passes || required > setup.criteria.search_cap_m3s {
+                    result.supply_paths = super::supply_paths::supply_path_shares(
+                        net,
+                        &p.sol,
+                        p.check.pressure_junction,
+                        super::supply_paths::PIPES_PER_HYDRANT,
+                    );
+                }
+                Some(p)
+            }
+            Err(e) => {
+                result.notes.push(HydrantNote::ResidualUnavailable {
+                    reason: self.reason(&e),
+                });
+                None
+            }
+        }
+    }
+
+    /// Step 3: the hydrant-limited flow placed by a held solve and verified by an ordinary
+    /// solve just below it, or the cap when the supply curve reaches the floor well beyond it.
+    /// Returns what binds when the answer is found here.
+    fn hydrant_limited_or_cap(
+        &mut self,
+        b: &mut Bracket,
+        at_required: Option<&Point>,
+    ) -> Option<LimitedBy> {
+        let cap = self.cap;
+        let setup = self.setup;
+        let estimate = at_required.and_then(|p| self.supply_curve_estimate(p));
+        let fallback = b.lo.sol.clone();
+        let predicted = |q: f64| -> Solution {
+            match (at_required, &estimate) {
+                (Some(p), Some(e)) => e.extend(&setup.base, p, q),
+                (Some(p), None) => p.sol.clone(),
+                _ => fallback.clone(),
+            }
+        };
+        // A supply curve that reaches the floor well beyond the cap: the cap itself is the flow
+        // to verify (one solve, where the held solve would place a flow far beyond it).
+        let cap_first = b.hi.is_none()
+            && b.lo.q < cap
+            && estimate
+                .as_ref()
+                .is_some_and(|e| e.flow > CAP_FIRST_RATIO * cap);
+        if cap_first {
+            // The required-flow factorization is far from the cap's state: start afresh.
+            self.ws.forget_factor();
+            let start = predicted(cap);
+            match self.verify_cap(&start) {
+                Ok(c) if c.passes => {
+                    b.lo = c;
+                    return Some(LimitedBy::Cap);
+                }
+                Ok(c) => b.lower_hi(Above::Failing(c)),
+                Err(e) => b.lower_hi(self.unsolved(cap, &e)),
+            }
+        }
+        let start = predicted(estimate.as_ref().map_or(0.0, |e| e.flow.min(cap)));
+        let (q_held, held) = match self.held_solve(&start) {
+            Ok(h) => h,
+            Err(ProbeError::Unsettled(_)) => return None,
+            // The held state could not be solved: the ordinary search takes over.
+            Err(ProbeError::Solve(_)) => return None,
+        };
+        if q_held <= b.lo.q {
+            // Already at the hydrant's floor at a verified passing flow: only round-off.
+            return Some(LimitedBy::HydrantPressure);
+        }
+        if q_held >= cap {
+            if b.hi.as_ref().is_none_or(|h| h.q() > cap) {
+                // Between the required-flow state and the held one, the cap is best reached by
+                // interpolation.
+                let start = match at_required {
+                    Some(r) if r.q < q_held => predict(r, &held, cap),
+                    _ => held.sol.clone(),
+                };
+                match self.probe(cap, &start) {
+                    Ok(c) if c.passes => {
+                        b.lo = c;
+                        return Some(LimitedBy::Cap);
+                    }
+                    Ok(c) => b.lower_hi(Above::Failing(c)),
+                    Err(e) => b.lower_hi(self.unsolved(cap, &e)),
+                }
+            }
+            return None;
+        }
+        if !held.passes {
+            // Another constraint fails before the hydrant reaches its floor.
+            b.lower_hi(Above::Failing(held));
+            return None;
+        }
+        let q = q_held * (1.0 - HELD_VERIFY_OFFSET);
+        if q <= b.lo.q || b.hi.as_ref().is_some_and(|h| q >= h.q()) {
+            return None;
+        }
+        match self.evaluate(q, &held.sol) {
+            Ok(p) if p.passes => {
+                b.lo = p;
+                // Above the held flow the hydrant itself is below the floor.
+                Some(LimitedBy::HydrantPressure)
+            }
+            Ok(p) => {
+                b.lower_hi(Above::Failing(p));
+                None
+            }
+            Err(e) => {
+                b.lower_hi(self.unsolved(q, &e));
+                None
+            }
+        }
+    }
+
+    /// The flow at which the hydrant's supply curve, fitted at the required flow, reaches the
+    /// floor. It is the projection a field flow test would make from the static and residual
+    /// pressures (NFPA 291 §4.13: Q = Q_t·((S − floor)/(S − R))^(1/n)), with the exponent n of
+    /// this hydrant's own supply curve, S − R = k·Q^n, fitted to the slope dH/dQ at the
+    /// required flow (from the factorization already made there) instead of the fixed 1/0.54.
+    fn supply_curve_estimate(&mut self, at_required: &Point) -> Option<SupplyCurve> {
+        let at = self.at;
+        let (dh, dq) = self.setup.hydraulics.demand_response(self.ws, at)?;
+        let base = &self.setup.base;
+        let drop = base.heads_m[at] - at_required.sol.heads_m[at];
+        let to_floor = base.heads_m[at] - self.setup.floor_head_m(at);
+        let slope = -dh[at] * at_required.q;
+        let n = if drop > 1e-9 && slope > 0.0 {
+            (slope / drop).clamp(1.2, 2.5)
+        } else {
+            SUPPLY_CURVE_EXPONENT
+        };
+        (drop > 1e-9 && to_floor > drop).then(|| SupplyCurve {
+            flow: at_required.q * (to_floor / drop).powf(1.0 / n),
+            exponent: n,
+            flow_response: dq,
+        })
+    }
+
+    /// Step 4: with no failing flow known, probes the cap; where a flow cannot be solved,
+    /// bisects between the largest verified flow and the smallest unsolvable one.
+    fn find_failing_point(&mut self, b: &mut Bracket) -> Option<LimitedBy> {
+        let cap = self.cap;
+        let units = self.setup.network().units;
+        let mut upper = cap;
+        let mut unsolvable = f64::INFINITY;
+        for _ in 0..MAX_PROBES {
+            if upper - b.lo.q <= tolerance(b.lo.q, units) {
+                break;
+            }
+            let start = b.lo.sol.clone();
+            match self.probe(upper, &start) {
+                Ok(p) if p.passes => {
+                    let is_cap = p.q >= on_grid(cap, units);
+                    b.lo = p;
+                    if is_cap {
+                        return Some(LimitedBy::Cap);
+                    }
+                    upper = 0.5 * (b.lo.q + unsolvable.min(cap));
+                }
+                Ok(p) => {
+                    b.lower_hi(Above::Failing(p));
+                    return None;
+                }
+                Err(e) => {
+                    b.lower_hi(self.unsolved(upper, &e));
+                    unsolvable = upper;
+                    upper = 0.5 * (b.lo.q + upper);
+                }
+            }
+        }
+        None
+    }
+
+    /// Step 6: the first crossing.
+    ///
+    /// Guarantee: when the network has elements that can change state (check valves, pumps,
+    /// regulating valves), the constraints are checked by ordinary solves at every flow of a
+    /// grid of [`FIRST_CROSSING_INTERVALS`] equal steps from zero to the answer, and around
+    /// every state change found between two grid flows, located by bisection to 1/1024 of the
+    /// answer. Between state changes the heads fall monotonically as the fire flow rises (the
+    /// Newton matrix is a grounded weighted Laplacian, a nonsingular M-matrix whose inverse is
+    /// entrywise non-negative, so every head falls with a junction's demand: Berman &
+    /// Plemmons, *Nonnegative Matrices in the Mathematical Sciences*, 1994, ch. 6 — from
+    /// memory), so each stretch of constant states is at its lowest at its upper end: a grid
+    /// flow, or the last flow located before a change. Across the small gap between that flow
+    /// and the change, the pressure drop is bounded by [`GAP_SLOPE_FACTOR`] times the local
+    /// secant slope; where that bound reaches the floor, the flow before the gap is taken as
+    /// the answer (the safe side). Velocities are checked at the same flows. The first failing
+    /// flow found becomes the new upper end of the bracket, which is then narrowed again.
+    fn first_crossing(&mut self, b: &mut Bracket, answer: &mut Option<LimitedBy>) -> Vec<Change> {
+        let mut changes = Vec::new();
+        if !self.setup.has_controls || b.lo.q <= 0.0 {
+            return changes;
+        }
+        let top = b.lo.q;
+        let units = self.setup.network().units;
+        let mut previous = self.static_point();
+        let mut before_previous: Option<Point> = None;
+        for k in 1..=FIRST_CROSSING_INTERVALS {
+            let q = if k == FIRST_CROSSING_INTERVALS {
+                top
+            } else {
+                on_grid(
+                    top * f64::from(k) / f64::from(FIRST_CROSSING_INTERVALS),
+                    units,
+                )
+            };
+            if q <= previous.q {
+                continue;
+            }
+            let next = if k == FIRST_CROSSING_INTERVALS {
+                b.lo.clone()
+            } else {
+                match self.probe(q, &previous.sol) {
+                    Ok(p) => p,
+                    Err(e) => {
+                        let above = self.unsolved(q, &e);
+                        self.restart_below(b, previous, above, answer);
+                        return changes;
+                    }
+                }
+            };
+            if !next.passes {
+                self.restart_below(b, previous, Above::Failing(next), answer);
+                return changes;
+            }
+            if next.sol.states != previous.sol.states {
+                match self.locate_change(&previous, before_previous.as_ref(), &next, &mut changes) {
+                    Located::Clear => {}
+                    Located::Fails(failed) => {
+                        let (lo, above) = *failed;
+                        self.restart_below(b, lo, above, answer);
+                        return changes;
+                    }
+                    Located::GapUnsafe(lo) => {
+                        b.lo = *lo;
+                        b.hi = None;
+                        *answer = Some(LimitedBy::SystemPressure);
+                        return changes;
+                    }
+                }
+            }
+            before_previous = Some(previous);
+            previous = next;
+        }
+        changes
+    }
+
+    /// Bisects a grid interval whose ends differ in element states, checking the constraints
+    /// at every flow solved, down to 1/2^[`STATE_CHANGE_BISECTIONS`] of the interval; then
+    /// bounds the pressure drop across the gap left before the change.
+    fn locate_change(
+        &mut self,
+        below: &Point,
+        before_below: Option<&Point>,
+        above: &Point,
+        changes: &mut Vec<Change>,
+    ) -> Located {
+        let mut a = below.clone();
+        let mut a_before = before_below.cloned();
+        let mut c_q = above.q;
+        for _ in 0..STATE_CHANGE_BISECTIONS {
+            let mid = 0.5 * (a.q + c_q);
+            let p = match self.probe(mid, &a.sol) {
+                Ok(p) => p,
+                Err(e) => return Located::Fails(Box::new((a, self.unsolved(mid, &e)))),
+            };
+            if p.q <= a.q {
+                break;
+            }
+            if !p.passes {
+                return Located::Fails(Box::new((a, Above::Failing(p))));
+            }
+            if p.sol.states == below.sol.states {
+                a_before = Some(std::mem::replace(&mut a, p));
+            } else {
+                c_q = p.q;
+            }
+        }
+        for (i, (&from, &to)) in below.sol.states.iter().zip(&above.sol.states).enumerate() {
+            if from != to && !changes.iter().any(|c| c.link == i) {
+                changes.push(Change {
+                    link: i,
+                    from,
+                    to,
+                    at_flow_m3s: 0.5 * (a.q + c_q),
+                });
+            }
+        }
+        // The drop across the gap (a, c): the secant slope of the margin over the last two
+        // flows with the old states, doubled.
+        let slope = match &a_before {
+            Some(p) if a.q > p.q => {
+                ((p.check.pressure_margin_kpa - a.check.pressure_margin_kpa) / (a.q - p.q)).max(0.0)
+            }
+            _ => 0.0,
+        };
+        let bound = a.check.pressure_margin_kpa - GAP_SLOPE_FACTOR * slope * (c_q - a.q);
+        if a_before.is_none() || bound < 0.0 {
+            Located::GapUnsafe(Box::new(a))
+        } else {
+            Located::Clear
+        }
+    }
+
+    /// A failure found below the answer: the bracket restarts from the last flow checked.
+    fn restart_below(
+        &mut self,
+        b: &mut Bracket,
+        lo: Point,
+        above: Above,
+        answer: &mut Option<LimitedBy>,
+    ) {
+        b.lo = lo;
+        b.hi = Some(above);
+        *answer = None;
+        let checked = b.lo.clone();
+        bracket_search(self, b, None);
+        if b.lo.sol.states != checked.sol.states {
+            // The narrowed answer lies past a state change the grid has not examined; keep
+            // the flow checked before it (the safe side).
+            b.lo = checked;
+        }
+    }
+
+    fn unsolved(&self, q: f64, e: &ProbeError) -> Above {
+        Above::Unsolved {
+            q: on_grid(q, self.setup.network().units),
+            reason: self.reason(e),
+        }
+    }
+
+    fn reason(&self, e: &ProbeError) -> String {
+        match e {
+            ProbeError::Solve(e) => e.to_string(),
+            ProbeError::Unsettled(links) => format!(
+                "controls did not settle: {}",
+                links
+                    .iter()
+                    .map(|&i| self.setup.network().links[i].id.as_str())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
+        }
+    }
+}
+
+/// A state change located by the first-crossing check.
+struct Change {
+    link: usize,
+    from: LinkState,
+    to: LinkState,
+    at_flow_m3s: f64,
+}
+
+/// What the location of a state change found.
+enum Located {
+    /// Every flow checked passes and the gap before the change cannot reach the floor.
+    Clear,
+    /// A flow in the interval fails: the last passing flow, and the failing one.
+    Fails(Box<(Point, Above)>),
+    /// The pressure may reach the floor in the gap before the change: the last passing flow.
+    GapUnsafe(Box<Point>),
+}
+
+/// The hydrant's supply curve fitted at the required flow (see
+/// [`Search::supply_curve_estimate`]).
+struct SupplyCurve {
+    /// Flow at which it reaches the floor, m³/s.
+    flow: f64,
+    exponent: f64,
+    /// Linear response of every link flow to the fire flow, at the required flow.
+    flow_response: Vec<f64>,
+}
+
+impl SupplyCurve {
+    /// A start for a solve at flow q: the required-flow state extended along the curve, each
+    /// head's fire-induced drop scaled by (Q/Q_t)^n, flows by their linear response.
+    fn extend(&self, base: &Solution, at_required: &Point, q: f64) -> Solution {
+        let scale = (q / at_required.q).powf(self.exponent) - 1.0;
+        let mut sol = at_required.sol.clone();
+        for (h, (hb, hr)) in sol
+            .heads_m
+            .iter_mut()
+            .zip(base.heads_m.iter().zip(&at_required.sol.heads_m))
+        {
+            *h = hr + (hr - hb) * scale;
+        }
+        for (f, d) in sol.flows_m3s.iter_mut().zip(&self.flow_response) {
+            *f += d * (q - at_required.q);
+        }
+        sol
     }
 }
 
@@ -152,6 +690,26 @@ fn absolute_accuracy_m3s(units: UnitSystem) -> f64 {
     }
 }
 
+/// The reporting grid of flows: 0.001 gpm or 0.0001 L/s, the finest resolution any output
+/// shows. Every flow the search solves is on it, so that the figure written is exactly the
+/// flow solved.
+fn flow_resolution_m3s(units: UnitSystem) -> f64 {
+    match units {
+        UnitSystem::Us => 1.0e-3 * M3S_PER_GPM,
+        UnitSystem::Si => 1.0e-7,
+    }
+}
+
+/// `q` rounded down onto the reporting grid (a relative 1e-9 forgives the round-off of a unit
+/// conversion, so that 1,500 gpm stays 1,500 gpm).
+pub(super) fn on_grid(q: f64, units: UnitSystem) -> f64 {
+    let step = flow_resolution_m3s(units);
+    if q <= 0.0 {
+        return 0.0;
+    }
+    ((q / step) * (1.0 + 1e-9)).floor() * step
+}
+
 /// Which constraint a failing point violates: a junction's pressure or a pipe's velocity.
 #[derive(Clone, Copy, PartialEq)]
 enum Binding {
@@ -159,14 +717,14 @@ enum Binding {
     Velocity(usize),
 }
 
+/// The violated constraint of a failing check without a tolerance of its own (a held solve):
+/// the pressure when it is below the floor, else the velocity.
 fn binding_of(check: &ConstraintCheck) -> Binding {
-    if check.pressure_margin_kpa < -FLOOR_TOLERANCE_KPA {
-        Binding::Pressure(check.pressure_junction)
-    } else {
-        match check.velocity {
-            Some((_, link)) => Binding::Velocity(link),
-            None => Binding::Pressure(check.pressure_junction),
+    match check.velocity {
+        Some((_, link)) if check.pressure_margin_kpa >= -FLOOR_TOLERANCE_KPA => {
+            Binding::Velocity(link)
         }
+        _ => Binding::Pressure(check.pressure_junction),
     }
 }
 
@@ -327,346 +885,179 @@ pub fn analyse_hydrant(
         });
         return result;
     };
+    let required = on_grid(required, net.units);
     result.required_m3s = required;
     result.required_source = source;
+    let cap = setup.criteria.search_cap_m3s;
     let mut search = Search {
         setup,
         ws,
         at,
+        cap: if required > cap {
+            on_grid(required, net.units)
+        } else {
+            on_grid(cap, net.units)
+        },
+        unsettled: Vec::new(),
         solves: 0,
         iterations: 0,
         factorizations: 0,
     };
+    if required > cap {
+        // The search must reach the required flow for pass/fail to be decided.
+        result
+            .notes
+            .push(HydrantNote::RequiredAboveCap { cap_m3s: cap });
+    }
     run(&mut search, required, &mut result);
+    if !search.unsettled.is_empty() {
+        unsettled_row(&search, &mut result);
+    }
     result.solves = search.solves;
     result.iterations = search.iterations;
     result.factorizations = search.factorizations;
     result
 }
 
+/// A hydrant whose solves met controls that did not settle has no verified answer: an `error`
+/// row that names them.
+fn unsettled_row(search: &Search<'_, '_>, result: &mut HydrantResult) {
+    result.available_m3s = None;
+    result.limited_by = None;
+    result.critical_junction = None;
+    result.critical_link = None;
+    result.outcome = Outcome::Error;
+    result.notes.push(HydrantNote::UnsettledControls {
+        links: search.unsettled.clone(),
+    });
+}
+
+/// The steps of one hydrant's search (see the module documentation).
 fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
-    let setup = s.setup;
-    let net = setup.network();
-    let at = s.at;
-    let cap = setup.criteria.search_cap_m3s;
-    let floor = setup.criteria.residual_floor_kpa;
-    let base = Point {
-        q: 0.0,
-        sol: setup.base.clone(),
-        check: setup.constraints(&setup.base, at),
-    };
-
-    // Residual pressure at the required flow.
-    let at_required = match s.evaluate(required, &base.sol) {
-        Ok(p) => {
-            result.residual_kpa = Some(p.sol.pressure_kpa(net, at));
-            result.min_pressure_kpa = Some(p.check.pressure_margin_kpa + floor);
-            result.min_pressure_junction = Some(p.check.pressure_junction);
-            Some(p)
-        }
-        Err(e) => {
-            result.notes.push(HydrantNote::ResidualUnavailable {
-                reason: e.to_string(),
-            });
-            None
-        }
-    };
-
-    // Weak mains, for a hydrant that fails at its required flow.
-    if let Some(p) = &at_required {
-        if !p.check.feasible() || required > cap {
-            result.supply_paths = super::supply_paths::supply_path_shares(
-                net,
-                &p.sol,
-                p.check.pressure_junction,
-                super::supply_paths::PIPES_PER_HYDRANT,
-            );
-        }
-    }
-
-    // Constraints already violated without fire flow.
-    if !base.check.feasible() {
-        result.available_m3s = Some(0.0);
-        result.outcome = Outcome::Fail;
-        match binding_of(&base.check) {
-            Binding::Pressure(j) => {
-                result.limited_by = Some(if j == at {
-                    LimitedBy::HydrantPressure
-                } else {
-                    LimitedBy::SystemPressure
-                });
-                result.critical_junction = Some(j);
-                result
-                    .notes
-                    .push(HydrantNote::FloorViolatedWithoutFireFlow {
-                        junction: j,
-                        pressure_kpa: base.sol.pressure_kpa(net, j),
-                    });
-            }
-            Binding::Velocity(i) => {
-                result.limited_by = Some(LimitedBy::Velocity);
-                result.critical_link = Some(i);
-                result
-                    .notes
-                    .push(HydrantNote::VelocityExceededWithoutFireFlow {
-                        link: i,
-                        velocity_m_per_s: base.sol.velocity_m_per_s(net, i).abs(),
-                    });
-            }
-        }
+    let base = s.static_point();
+    let at_required = s.at_required_flow(required, result);
+    if !base.passes {
+        static_failure(s, &base, result);
         return;
     }
-
-    let base_copy = Point {
-        q: 0.0,
-        sol: base.sol.clone(),
-        check: base.check,
-    };
-    let at_required_copy = at_required.as_ref().map(|p| Point {
-        q: p.q,
-        sol: p.sol.clone(),
-        check: p.check,
-    });
-    let mut lo = base;
-    let mut hi: Option<Point> = None;
-    let mut failed_above: Option<(f64, String)> = None;
-    if let Some(p) = at_required {
-        if p.check.feasible() && p.q <= cap {
-            lo = p;
-        } else if !p.check.feasible() {
-            hi = Some(p);
+    let mut b = Bracket { lo: base, hi: None };
+    if let Some(p) = &at_required {
+        if p.passes {
+            b.lo = p.clone();
+        } else {
+            b.hi = Some(Above::Failing(p.clone()));
         }
     }
-
-    // The hydrant-limited flow, from one solve with the hydrant held at the floor.
-    let mut answer: Option<LimitedBy> = None;
-    // Start near the hydrant-limited flow. Its estimate is the supply-curve projection a field
-    // flow test would make from the static and residual pressures (NFPA 291 §4.13:
-    // Q = Q_t·((S − floor)/(S − R))^(1/n)), with the exponent n of this hydrant's own supply
-    // curve, S − R = k·Q^n, fitted to the slope dH/dQ at the required flow (from the
-    // factorization already made there) instead of the fixed 1/0.54. The start state extends
-    // the required-flow state along the same curve: each head's fire-induced drop scaled by
-    // (Q/Q_t)^n, flows by their linear response to the extra draw.
-    let response = at_required_copy
-        .as_ref()
-        .and_then(|_| s.setup.hydraulics.demand_response(s.ws, at));
-    let estimate = match (&at_required_copy, response) {
-        (Some(p), Some((dh, dq))) => {
-            let drop = base_copy.sol.heads_m[at] - p.sol.heads_m[at];
-            let to_floor = base_copy.sol.heads_m[at] - s.setup.floor_head_m(at);
-            let slope = -dh[at] * p.q;
-            let n = if drop > 1e-9 && slope > 0.0 {
-                (slope / drop).clamp(1.2, 2.5)
-            } else {
-                SUPPLY_CURVE_EXPONENT
-            };
-            (drop > 1e-9 && to_floor > drop).then(|| (p.q * (to_floor / drop).powf(1.0 / n), n, dq))
-        }
-        _ => None,
-    };
-    let fallback = nearest(&lo, hi.as_ref(), lo.q).clone();
-    let predicted = |q: f64| -> Solution {
-        match (&at_required_copy, &estimate) {
-            (Some(p), Some((_, n, dq))) => {
-                let scale = (q / p.q).powf(*n) - 1.0;
-                let mut sol = p.sol.clone();
-                for (h, (hb, hr)) in sol
-                    .heads_m
-                    .iter_mut()
-                    .zip(base_copy.sol.heads_m.iter().zip(&p.sol.heads_m))
-                {
-                    *h = hr + (hr - hb) * scale;
-                }
-                for (f, d) in sol.flows_m3s.iter_mut().zip(dq) {
-                    *f += d * (q - p.q);
-                }
-                sol
-            }
-            (Some(p), None) => p.sol.clone(),
-            _ => fallback.clone(),
-        }
-    };
-    let start = predicted(estimate.as_ref().map_or(0.0, |e| e.0.min(cap)));
-    // A supply curve that reaches the floor well beyond the cap: the cap itself is the flow
-    // to verify (one solve, where the held solve would place a flow far beyond it and a
-    // probe of the cap would follow).
-    let cap_first = hi.is_none()
-        && lo.q < cap
-        && estimate
-            .as_ref()
-            .is_some_and(|e| e.0 > CAP_FIRST_RATIO * cap);
-    if cap_first {
-        // The required-flow factorization is far from the cap's state: start afresh.
-        s.ws.forget_factor();
-        match s.verify_cap(cap, &predicted(cap)) {
-            Ok(c) if c.check.feasible() => {
-                lo = c;
-                answer = Some(LimitedBy::Cap);
-            }
-            Ok(c) => hi = Some(c),
-            Err(e) => failed_above = Some((cap, e.to_string())),
-        }
+    let mut answer = s.hydrant_limited_or_cap(&mut b, at_required.as_ref());
+    if answer.is_none() && b.hi.is_none() {
+        answer = s.find_failing_point(&mut b);
     }
-    if answer.is_none() {
-        match s.hydrant_limited(&start) {
-            Ok(p) if p.q <= lo.q => {
-                // Already past the hydrant's floor at a passing flow: only round-off; keep lo.
-                answer = Some(LimitedBy::HydrantPressure);
-            }
-            Ok(p) if p.q >= cap => {
-                if hi.as_ref().is_none_or(|h| h.q > cap) {
-                    // Between the required-flow state and the held one, the cap is best reached
-                    // by interpolation.
-                    let start = match &at_required_copy {
-                        Some(r) if r.q < p.q => predict(r, &p, cap),
-                        _ => p.sol.clone(),
-                    };
-                    match s.probe(cap, &start) {
-                        Ok(c) if c.check.feasible() => {
-                            lo = c;
-                            answer = Some(LimitedBy::Cap);
-                        }
-                        Ok(c) => hi = Some(c),
-                        Err(e) => failed_above = Some((cap, e.to_string())),
-                    }
-                }
-            }
-            Ok(p) => {
-                if p.check.feasible() {
-                    lo = p;
-                    answer = Some(LimitedBy::HydrantPressure);
-                } else if hi.as_ref().is_none_or(|h| p.q < h.q) {
-                    hi = Some(p);
-                }
-            }
-            Err(e) => failed_above = Some((lo.q, e.to_string())),
-        }
-    }
-    if answer.is_none() && hi.is_none() {
-        // No failing point known: try the cap; where a flow cannot be solved, bisect between
-        // the largest verified flow and the smallest unsolvable one.
-        let mut upper = cap;
-        let mut unsolvable = f64::INFINITY;
-        for _ in 0..MAX_PROBES {
-            if upper - lo.q <= tolerance(lo.q, net.units) {
-                break;
-            }
-            let start = lo.sol.clone();
-            match s.probe(upper, &start) {
-                Ok(p) if p.check.feasible() => {
-                    let is_cap = p.q >= cap;
-                    lo = p;
-                    if is_cap {
-                        answer = Some(LimitedBy::Cap);
-                        break;
-                    }
-                    upper = 0.5 * (lo.q + unsolvable.min(cap));
-                }
-                Ok(p) => {
-                    hi = Some(p);
-                    break;
-                }
-                Err(e) => {
-                    failed_above = Some((upper, e.to_string()));
-                    unsolvable = upper;
-                    upper = 0.5 * (lo.q + upper);
-                }
-            }
-        }
-    }
-
     if answer.is_none() {
         // The static point or the required-flow point is a useful third point for the first
         // estimate, whichever is not already an end of the bracket.
-        let third = [Some(&base_copy), at_required_copy.as_ref()]
+        let third = [Some(s.static_point()), at_required]
             .into_iter()
             .flatten()
-            .find(|p| p.q != lo.q && hi.as_ref().is_none_or(|h| h.q != p.q))
-            .map(|p| Point {
-                q: p.q,
-                sol: p.sol.clone(),
-                check: p.check,
-            });
-        bracket_search(s, &mut lo, &mut hi, third, &mut failed_above);
+            .find(|p| p.q != b.lo.q && b.hi.as_ref().is_none_or(|h| h.q() != p.q));
+        bracket_search(s, &mut b, third);
     }
-
-    // First crossing: with controls that changed state, look for an earlier failure.
-    if setup.has_controls && lo.q > 0.0 && states_differ(&setup.base, &lo, hi.as_ref()) {
-        let samples = FIRST_CROSSING_SAMPLES;
-        let top = lo.q;
-        let mut previous = Point {
-            q: 0.0,
-            sol: setup.base.clone(),
-            check: setup.constraints(&setup.base, at),
-        };
-        for k in 1..samples {
-            let q = top * f64::from(k) / f64::from(samples);
-            match s.probe(q, &previous.sol) {
-                Ok(p) if p.check.feasible() => previous = p,
-                Ok(p) => {
-                    result.notes.push(HydrantNote::NonMonotone {
-                        passes_again_at_m3s: top,
-                    });
-                    let mut new_lo = previous;
-                    let mut new_hi = Some(p);
-                    bracket_search(s, &mut new_lo, &mut new_hi, None, &mut failed_above);
-                    lo = new_lo;
-                    hi = new_hi;
-                    answer = None;
-                    break;
-                }
-                Err(e) => {
-                    failed_above = Some((q, e.to_string()));
-                    lo = previous;
-                    hi = None;
-                    answer = None;
-                    break;
-                }
-            }
-        }
+    let changes = s.first_crossing(&mut b, &mut answer);
+    for c in changes.into_iter().take(STATE_CHANGES_NOTED) {
+        result.notes.push(HydrantNote::StateChanged {
+            link: c.link,
+            from: c.from,
+            to: c.to,
+            at_flow_m3s: c.at_flow_m3s,
+        });
     }
-
-    // What binds, and where.
-    let limited_by = match answer {
-        Some(LimitedBy::Cap) => LimitedBy::Cap,
-        Some(LimitedBy::HydrantPressure) => {
-            result.critical_junction = Some(at);
-            LimitedBy::HydrantPressure
-        }
-        _ => match hi.as_ref().map(|h| binding_of(&h.check)) {
-            Some(Binding::Velocity(i)) => {
-                result.critical_link = Some(i);
-                result.notes.push(HydrantNote::VelocityLimit { link: i });
-                LimitedBy::Velocity
-            }
-            Some(Binding::Pressure(j)) => {
-                result.critical_junction = Some(j);
-                if j == at {
-                    LimitedBy::HydrantPressure
-                } else {
-                    LimitedBy::SystemPressure
-                }
-            }
-            // Only a flow that could not be solved is known above the answer.
-            None => LimitedBy::NoSolution,
-        },
-    };
-    if let Some((q, reason)) = failed_above {
-        if q > lo.q && hi.as_ref().is_none_or(|h| h.q > q) {
-            result.notes.push(HydrantNote::SolveFailedAbove {
-                flow_m3s: q,
-                reason,
-            });
-        }
-    }
-    locate_state_changes(s, &lo, result);
-    result.available_m3s = Some(lo.q);
-    result.limited_by = Some(limited_by);
-    result.outcome = if lo.q >= required - 1e-12 {
+    classify(s, &b, answer, result);
+    result.available_m3s = Some(b.lo.q);
+    result.outcome = if b.lo.q >= required {
         Outcome::Pass
     } else {
         Outcome::Fail
     };
+}
+
+/// Step 1's failure: a constraint violated with no fire flow.
+fn static_failure(s: &Search<'_, '_>, base: &Point, result: &mut HydrantResult) {
+    let net = s.setup.network();
+    result.available_m3s = Some(0.0);
+    result.outcome = Outcome::Fail;
+    match base
+        .fails
+        .unwrap_or(Binding::Pressure(base.check.pressure_junction))
+    {
+        Binding::Pressure(j) => {
+            result.limited_by = Some(if j == s.at {
+                LimitedBy::HydrantPressure
+            } else {
+                LimitedBy::SystemPressure
+            });
+            result.critical_junction = Some(j);
+            result
+                .notes
+                .push(HydrantNote::FloorViolatedWithoutFireFlow {
+                    junction: j,
+                    pressure_kpa: base.sol.pressure_kpa(net, j),
+                });
+        }
+        Binding::Velocity(i) => {
+            result.limited_by = Some(LimitedBy::Velocity);
+            result.critical_link = Some(i);
+            result
+                .notes
+                .push(HydrantNote::VelocityExceededWithoutFireFlow {
+                    link: i,
+                    velocity_m_per_s: base.sol.velocity_m_per_s(net, i).abs(),
+                });
+        }
+    }
+}
+
+/// Step 7: what binds at the answer, and where.
+fn classify(
+    s: &Search<'_, '_>,
+    b: &Bracket,
+    answer: Option<LimitedBy>,
+    result: &mut HydrantResult,
+) {
+    let limited_by = match (answer, &b.hi) {
+        (Some(LimitedBy::HydrantPressure), _) => {
+            result.critical_junction = Some(s.at);
+            LimitedBy::HydrantPressure
+        }
+        (Some(LimitedBy::SystemPressure), _) => {
+            result.critical_junction = Some(b.lo.check.pressure_junction);
+            LimitedBy::SystemPressure
+        }
+        (Some(other), _) => other,
+        (None, Some(Above::Failing(h))) => match h.fails.unwrap_or_else(|| binding_of(&h.check)) {
+            Binding::Velocity(i) => {
+                result.critical_link = Some(i);
+                result.notes.push(HydrantNote::VelocityLimit { link: i });
+                LimitedBy::Velocity
+            }
+            Binding::Pressure(j) => {
+                result.critical_junction = Some(j);
+                if j == s.at {
+                    LimitedBy::HydrantPressure
+                } else {
+                    LimitedBy::SystemPressure
+                }
+            }
+        },
+        (None, Some(Above::Unsolved { q, reason })) => {
+            result.notes.push(HydrantNote::SolveFailedAbove {
+                flow_m3s: *q,
+                reason: reason.clone(),
+            });
+            LimitedBy::NoSolution
+        }
+        // The bracket search stopped with nothing known above: only the cap remains.
+        (None, None) => LimitedBy::Cap,
+    };
+    result.limited_by = Some(limited_by);
 }
 
 /// The relative-or-absolute accuracy at flow q.
@@ -674,73 +1065,63 @@ fn tolerance(q: f64, units: UnitSystem) -> f64 {
     (RELATIVE_ACCURACY * q).max(absolute_accuracy_m3s(units))
 }
 
-fn nearest<'p>(lo: &'p Point, hi: Option<&'p Point>, q: f64) -> &'p Solution {
-    match hi {
-        Some(h) if (h.q - q).abs() < (q - lo.q).abs() => &h.sol,
-        _ => &lo.sol,
-    }
-}
-
-fn states_differ(base: &Solution, lo: &Point, hi: Option<&Point>) -> bool {
-    base.states != lo.sol.states || hi.is_some_and(|h| h.sol.states != base.states)
-}
-
-/// Narrows [lo, hi] until its width is within the accuracy; `lo` stays a verified passing
-/// flow and `hi` a verified failing one. Each estimate is probed just below (to raise `lo`)
-/// or just above (to lower `hi`), so that an accurate estimate closes the bracket in two
-/// probes; the bisection point is probed when the estimates stop shrinking the bracket.
-fn bracket_search(
-    s: &mut Search<'_, '_>,
-    lo: &mut Point,
-    hi: &mut Option<Point>,
-    mut third: Option<Point>,
-    failed_above: &mut Option<(f64, String)>,
-) {
+/// Narrows [lo, hi] until its width is within the accuracy; `lo` stays a passing flow of an
+/// ordinary solve, `hi` a failing or unsolvable one. Each estimate is probed just below (to
+/// raise `lo`) or just above (to lower `hi`), so that an accurate estimate closes the bracket
+/// in two probes; the bisection point is probed when the estimates stop shrinking the bracket
+/// or the upper end is a flow that could not be solved.
+fn bracket_search(s: &mut Search<'_, '_>, b: &mut Bracket, mut third: Option<Point>) {
     let units = s.setup.network().units;
     // Consecutive probes whose outcome contradicted the estimate; two in a row mean the
     // estimates are not to be trusted here, and the next probe bisects.
     let mut surprises = 0;
     for _ in 0..MAX_PROBES {
-        let Some(h) = hi.as_ref() else { return };
-        let width = h.q - lo.q;
-        if width <= tolerance(lo.q, units) {
+        let Some(h) = b.hi.as_ref() else { return };
+        let width = h.q() - b.lo.q;
+        if width <= tolerance(b.lo.q, units) {
             return;
         }
-        let binding = binding_of(&h.check);
-        let estimate = estimate_root(s.setup, lo, h, third.as_ref(), binding);
-        let step = PROBE_OFFSET * tolerance(estimate, units);
-        let guard = 0.1 * step;
-        let below = estimate - step;
-        let above = estimate + step;
-        let (q, expect_pass) = if surprises >= 2 {
-            surprises = 0;
-            (0.5 * (lo.q + h.q), None)
-        } else if below > lo.q + guard {
-            (below, Some(true))
-        } else if above < h.q - guard {
-            (above, Some(false))
-        } else {
-            (0.5 * (lo.q + h.q), None)
+        let (q, expect_pass) = match h {
+            Above::Failing(hp) if surprises < 2 => {
+                let binding = hp.fails.unwrap_or_else(|| binding_of(&hp.check));
+                let estimate = estimate_root(s.setup, &b.lo, hp, third.as_ref(), binding);
+                let step = PROBE_OFFSET * tolerance(estimate, units);
+                let guard = 0.1 * step;
+                let below = estimate - step;
+                let above = estimate + step;
+                if below > b.lo.q + guard {
+                    (below, Some(true))
+                } else if above < hp.q - guard {
+                    (above, Some(false))
+                } else {
+                    (0.5 * (b.lo.q + hp.q), None)
+                }
+            }
+            _ => {
+                surprises = 0;
+                (0.5 * (b.lo.q + h.q()), None)
+            }
         };
-        let start = predict(lo, h, q);
+        let start = match h {
+            Above::Failing(hp) => predict(&b.lo, hp, q),
+            Above::Unsolved { .. } => b.lo.sol.clone(),
+        };
         let passed = match s.probe(q, &start) {
-            Ok(p) if p.check.feasible() => {
-                third = Some(std::mem::replace(lo, p));
+            Ok(p) if p.q <= b.lo.q => return,
+            Ok(p) if p.passes => {
+                third = Some(std::mem::replace(&mut b.lo, p));
                 true
             }
             Ok(p) => {
-                third = hi.replace(p);
+                if let Some(Above::Failing(old)) = b.hi.replace(Above::Failing(p)) {
+                    third = Some(old);
+                }
                 false
             }
             Err(e) => {
                 // An unsolvable flow counts as failing; the answer stays a verified one.
-                *failed_above = Some((q, e.to_string()));
-                let moved = Point {
-                    q,
-                    sol: h.sol.clone(),
-                    check: h.check,
-                };
-                third = hi.replace(moved);
+                let above = s.unsolved(q, &e);
+                b.hi = Some(above);
                 false
             }
         };
@@ -751,44 +1132,27 @@ fn bracket_search(
     }
 }
 
-/// Finds, by bisection, the flow at which elements changed state between the static solution
-/// and the solution at the available flow.
-fn locate_state_changes(s: &mut Search<'_, '_>, at_answer: &Point, result: &mut HydrantResult) {
-    let setup = s.setup;
-    let base = &setup.base;
-    let changed: Vec<usize> = (0..base.states.len())
-        .filter(|&i| base.states[i] != at_answer.sol.states[i])
-        .filter(|&i| !crate::hydraulics::controls::is_fixed(&setup.network().links[i]))
-        .filter(|&i| {
-            !matches!(
-                setup.network().links[i].kind,
-                crate::model::LinkKind::Pipe(_)
-            )
-        })
-        .take(STATE_CHANGES_LOCATED)
-        .collect();
-    for i in changed {
-        let (mut a, mut b) = (0.0, at_answer.q);
-        let mut start = base.clone();
-        for _ in 0..STATE_CHANGE_STEPS {
-            let mid = 0.5 * (a + b);
-            match s.probe(mid, &start) {
-                Ok(p) => {
-                    if p.sol.states[i] == base.states[i] {
-                        a = mid;
-                    } else {
-                        b = mid;
-                    }
-                    start = p.sol;
-                }
-                Err(_) => break,
-            }
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The grid keeps round figures round (common practice, no source: a required flow of
+    /// 1,500 gpm must be solved as 1,500 gpm, not 1,499.999).
+    #[test]
+    fn round_flows_stay_on_the_grid() {
+        for gpm in [500.0, 1000.0, 1500.0, 2500.0, 3500.0, 5000.0] {
+            let q = on_grid(gpm * M3S_PER_GPM, UnitSystem::Us);
+            assert!(
+                (q / M3S_PER_GPM - gpm).abs() < 1e-9,
+                "{gpm}: {}",
+                q / M3S_PER_GPM
+            );
         }
-        result.notes.push(HydrantNote::StateChanged {
-            link: i,
-            from: base.states[i],
-            to: at_answer.sol.states[i],
-            at_flow_m3s: 0.5 * (a + b),
-        });
+        for lps in [10.0, 20.0, 95.0, 190.0] {
+            let q = on_grid(lps / 1000.0, UnitSystem::Si);
+            assert!((q * 1000.0 - lps).abs() < 1e-9, "{lps}");
+        }
+        let q = on_grid(630.4567 * M3S_PER_GPM, UnitSystem::Us);
+        assert!(q / M3S_PER_GPM <= 630.4567 && q / M3S_PER_GPM > 630.455);
     }
 }

@@ -201,3 +201,55 @@ pub fn next_state(link: &Link, v: &LinkView) -> LinkState {
         }
     }
 }
+
+/// The state of a PRV or PSV whose controlled junction (a PRV's downstream end, a PSV's
+/// upstream end) is held at `held_head` by the fire-flow search, when it was regulating: the
+/// valve cannot hold a head that the request fixes, so it is wide open where its setting asks
+/// for more flow (a PRV whose downstream head is below its setting, a PSV whose upstream head
+/// is above it) and closed otherwise.
+pub fn held_end_state(kind: Option<ValveKind>, held_head: f64, setting: f64) -> LinkState {
+    let open = match kind {
+        Some(ValveKind::Prv) => held_head < setting,
+        Some(ValveKind::Psv) => held_head > setting,
+        _ => true,
+    };
+    if open {
+        LinkState::Open
+    } else {
+        LinkState::Closed
+    }
+}
+
+/// The rules of a PRV or PSV whose controlled junction is held by the request (see
+/// [`held_end_state`]): open while the held head is on the side of the setting where the valve
+/// would open fully and the flow is forward; closed against reverse flow or when the held head
+/// passes its setting; reopened when both allow it. Other links follow [`next_state`].
+pub fn next_state_with_held_end(link: &Link, v: &LinkView) -> LinkState {
+    let LinkKind::Valve(valve) = &link.kind else {
+        return next_state(link, v);
+    };
+    let (hf, ht, q) = (v.head_from, v.head_to, v.flow);
+    // Whether the held head asks the valve to be wide open.
+    let wants_open = |tol: f64| match valve.kind {
+        ValveKind::Prv => ht < v.setting - tol,
+        ValveKind::Psv => hf > v.setting + tol,
+        _ => true,
+    };
+    match v.state {
+        LinkState::Open | LinkState::Regulating => {
+            if q < -SWITCH_FLOW_TOL_M3S || !wants_open(-SWITCH_HEAD_TOL_M) {
+                LinkState::Closed
+            } else {
+                LinkState::Open
+            }
+        }
+        LinkState::Closed => {
+            if hf > ht + SWITCH_HEAD_TOL_M && wants_open(SWITCH_HEAD_TOL_M) {
+                LinkState::Open
+            } else {
+                LinkState::Closed
+            }
+        }
+        s => s,
+    }
+}

@@ -69,8 +69,19 @@ impl Tolerance {
 pub const MAX_ITERATIONS: u32 = 200;
 /// Reuse the factorization only while the head step is below this, m ...
 const CHORD_MAX_STEP_M: f64 = 0.1;
-/// ... and each step shrinks the previous one at least by this factor.
+/// ... and each step, of heads and of flows alike, shrinks the previous one at least by this
+/// factor. Flows count too: where no free junction's head moves (a hydrant fed straight from a
+/// source and held at the floor), the head steps are zero while a stale factorization leaves
+/// the flows converging ever more slowly.
 const CHORD_MAX_RATIO: f64 = 0.45;
+/// Relative accuracy of the flow drawn by a held junction: its convergence test uses the
+/// smaller of the tolerance on flows and this fraction of the flow drawn (0.01 %), so that a
+/// flow placed by a held solve is accurate relative to itself whatever its size.
+const DRAWN_FLOW_RELATIVE: f64 = 1.0e-4;
+/// A first chord step (no earlier step to measure the contraction by) ends a solve only when it
+/// is this fraction of the tolerance: a contraction of up to 0.9 then still leaves less than the
+/// tolerance to go (common practice, no source).
+const FIRST_CHORD_STEP_FRACTION: f64 = 0.1;
 /// Marks "no matrix row or slot" in the per-link index arrays.
 const NO_ROW: u32 = u32::MAX;
 /// Head steps above this (m) are checked by a line search on the content merit function.
@@ -543,6 +554,17 @@ impl<'n> Hydraulics<'n> {
         let mut flows = start.flows_m3s.clone();
         let mut states = start.states.clone();
         heads[nj..].copy_from_slice(&self.source_grade[nj..]);
+        // A PRV or PSV whose controlled junction the request holds starts in the state its
+        // held head asks for, whatever the start's state (an open valve carried over from the
+        // start could pass reverse flow between two fixed heads); its rules take over from there.
+        if let Some((_, head)) = request.fixed_head {
+            for &i in &self.pressure_valves {
+                if self.is_held_by_request(i, request) {
+                    states[i] =
+                        controls::held_end_state(self.valve_kind(i), head, self.settings[i]);
+                }
+            }
+        }
         let mut switches = vec![0u8; nl];
         let mut unsettled: Vec<usize> = Vec::new();
         let mut isolated: Vec<usize> = Vec::new();
@@ -756,15 +778,25 @@ impl<'n> Hydraulics<'n> {
             let flow_ratio = step_q / previous_flow_step;
             previous_step = step_h;
             previous_flow_step = step_q;
-            need_factor = step_h > CHORD_MAX_STEP_M || ratio > CHORD_MAX_RATIO;
+            let flow_tolerance = match drawn {
+                Some(q) => ws
+                    .tolerance
+                    .flow_m3s
+                    .min(DRAWN_FLOW_RELATIVE * q.abs())
+                    .max(Tolerance::STEADY.flow_m3s),
+                None => ws.tolerance.flow_m3s,
+            };
+            need_factor = step_h > CHORD_MAX_STEP_M
+                || ratio > CHORD_MAX_RATIO
+                || (flow_ratio > CHORD_MAX_RATIO && step_q > flow_tolerance);
 
-            if Self::within(step_h, ratio, ws.tolerance.head_m)
-                && Self::within(step_q, flow_ratio, ws.tolerance.flow_m3s)
+            if Self::within(step_h, ratio, factored_now, ws.tolerance.head_m)
+                && Self::within(step_q, flow_ratio, factored_now, flow_tolerance)
             {
                 // Converged for these states: apply the switching rules.
                 let mut changed = false;
                 for i in 0..nl {
-                    if self.roles[i] != Role::Controlled || self.is_held_by_request(i, request) {
+                    if self.roles[i] != Role::Controlled {
                         continue;
                     }
                     let l = &net.links[i];
@@ -780,7 +812,11 @@ impl<'n> Hydraulics<'n> {
                             _ => 0.0,
                         },
                     };
-                    let next = controls::next_state(l, &view);
+                    let next = if self.is_held_by_request(i, request) {
+                        controls::next_state_with_held_end(l, &view)
+                    } else {
+                        controls::next_state(l, &view)
+                    };
                     if next != states[i] {
                         if switches[i] < MAX_SWITCHES {
                             switches[i] += 1;
@@ -817,11 +853,28 @@ impl<'n> Hydraulics<'n> {
     }
 
     /// Whether the remaining error after a step of size `step`, which was `ratio` times the one
-    /// before, is within `tolerance`: either the step itself is, or the steps shrink at least
-    /// twofold and the geometric estimate of what remains, step·r/(1 − r), is (the usual error
-    /// estimate of a linearly converging iteration; it ends a solve one step earlier).
-    fn within(step: f64, ratio: f64, tolerance: f64) -> bool {
-        step < tolerance || (ratio > 0.0 && ratio < 0.5 && step * ratio / (1.0 - ratio) < tolerance)
+    /// before, is within `tolerance`.
+    ///
+    /// After a Newton step (`fresh`: the matrix was factorized at this point) the iteration
+    /// converges quadratically and the step bounds the remaining error: the step itself must be
+    /// within the tolerance, or the steps shrink at least twofold and the geometric estimate of
+    /// what remains, step·r/(1 − r), is. A chord step converges only linearly, at a rate the
+    /// step alone does not show: there the geometric estimate must be within the tolerance
+    /// (the usual error estimate of a linearly converging iteration, e.g. Kelley, *Iterative
+    /// Methods for Linear and Nonlinear Equations*, SIAM 1995, §5.4 — from memory), and a first
+    /// chord step, with no rate known yet, must be a tenth of it.
+    fn within(step: f64, ratio: f64, fresh: bool, tolerance: f64) -> bool {
+        let estimate_within =
+            ratio > 0.0 && ratio < 1.0 && step * ratio / (1.0 - ratio) < tolerance;
+        if step == 0.0 {
+            true
+        } else if fresh {
+            step < tolerance || (ratio < 0.5 && estimate_within)
+        } else if ratio > 0.0 && ratio.is_finite() {
+            estimate_within
+        } else {
+            step < FIRST_CHORD_STEP_FRACTION * tolerance
+        }
     }
 
     /// The flow change of every link in the current step (for the line search).
@@ -894,8 +947,9 @@ impl<'n> Hydraulics<'n> {
         }
     }
 
-    /// Whether the request's fixed-head junction is the one this valve controls (the valve is
-    /// then held wide open: a junction drawn down to the floor has no use for its setting).
+    /// Whether the request's fixed-head junction is the one this valve controls. The valve
+    /// cannot regulate a junction whose head the request fixes: it is then open or closed by
+    /// [`controls::next_state_with_held_end`], never passing reverse flow.
     fn is_held_by_request(&self, link: usize, request: &SolveRequest<'_>) -> bool {
         let Some((j, _)) = request.fixed_head else {
             return false;
@@ -924,6 +978,7 @@ impl<'n> Hydraulics<'n> {
                 continue;
             }
             if self.is_held_by_request(i, request) {
+                // Set at the start of the solve (see `solve`); it cannot regulate.
                 states[i] = LinkState::Open;
                 continue;
             }

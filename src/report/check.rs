@@ -173,6 +173,14 @@ impl CheckReport<'_> {
                 "the constraints fail at a flow below {} where they are met again; the first crossing is reported",
                 flow(*passes_again_at_m3s)
             ),
+            HydrantNote::RequiredAboveCap { cap_m3s } => format!(
+                "the required flow is above the criteria's search cap ({}): the search went up to the required flow",
+                flow(*cap_m3s)
+            ),
+            HydrantNote::UnsettledControls { links } => format!(
+                "no verified answer: the controls of {} switched back and forth without settling; check their settings",
+                links.iter().map(|&i| link(i)).collect::<Vec<_>>().join(", ")
+            ),
             HydrantNote::Error { reason } => reason.clone(),
         }
     }
@@ -217,7 +225,7 @@ impl CheckReport<'_> {
             .filter(|r| r.outcome != Outcome::Pass)
             .take(5)
             .map(|r| match r.margin_m3s() {
-                Some(m) => format!("{} ({} {f} short)", self.hydrant_id(r), o.flow_text(-m)),
+                Some(m) => format!("{} ({} {f} short)", self.hydrant_id(r), o.flow_text_up(-m)),
                 None => format!("{} (error)", self.hydrant_id(r)),
             })
             .collect();
@@ -263,7 +271,7 @@ impl CheckReport<'_> {
 
     fn table_row(&self, r: &HydrantResult) -> Vec<String> {
         let o = self.out();
-        let flow = |q: Option<f64>| q.map(|q| o.flow_text(q)).unwrap_or_default();
+        let flow = |q: Option<f64>| q.map(|q| o.flow_text_down(q)).unwrap_or_default();
         let pressure = |p: Option<f64>| p.map(|p| num(o.pressure(p), 1)).unwrap_or_default();
         // A demand-driven model computes pressures far below zero when a main cannot carry the
         // required flow; the table says so rather than show a meaningless number (the CSV keeps

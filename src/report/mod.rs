@@ -186,11 +186,32 @@ impl Out {
     /// A flow for tables and text: whole gpm, or L/s to 0.1 (whole L/s would hide a 0.5 L/s
     /// shortfall behind equal-looking numbers).
     pub fn flow_text(&self, m3s: f64) -> String {
-        let decimals = match self.units {
+        num(self.flow(m3s), self.flow_decimals())
+    }
+
+    /// An available flow (or a margin over the required flow) for tables and text, rounded
+    /// down to the shown decimals: the figure printed is never above the flow verified (every
+    /// flow below an available flow meets the constraints, by its first-crossing definition).
+    /// The 1e-6 forgives the round-off of the unit conversion.
+    pub fn flow_text_down(&self, m3s: f64) -> String {
+        let decimals = self.flow_decimals();
+        let scale = 10f64.powi(decimals as i32);
+        num(((self.flow(m3s) * scale) + 1e-6).floor() / scale, decimals)
+    }
+
+    /// A shortfall (required minus available flow) rounded up to the shown decimals, for the
+    /// same reason as [`Out::flow_text_down`].
+    pub fn flow_text_up(&self, m3s: f64) -> String {
+        let decimals = self.flow_decimals();
+        let scale = 10f64.powi(decimals as i32);
+        num(((self.flow(m3s) * scale) - 1e-6).ceil() / scale, decimals)
+    }
+
+    fn flow_decimals(&self) -> usize {
+        match self.units {
             UnitSystem::Us => 0,
             UnitSystem::Si => 1,
-        };
-        num(self.flow(m3s), decimals)
+        }
     }
 
     /// An SI value formatted in these units.

@@ -98,7 +98,7 @@ impl UpsizeReport<'_> {
             "before".to_string(),
             "after".to_string(),
         ];
-        let flow = |q: Option<f64>| q.map(|q| o.flow_text(q)).unwrap_or_default();
+        let flow = |q: Option<f64>| q.map(|q| o.flow_text_down(q)).unwrap_or_default();
         let rows = self
             .plan
             .targets
