@@ -86,22 +86,86 @@ pub fn darcy_friction(re: f64, relative_roughness: f64) -> (f64, f64) {
     } else if re >= TURBULENT_RE_MIN {
         colebrook(re, relative_roughness)
     } else {
-        // Cubic Hermite between (2000, 64/Re) and (4000, Colebrook) with matching slopes.
-        let (r0, r1) = (LAMINAR_RE_MAX, TURBULENT_RE_MIN);
-        let (f0, d0) = (64.0 / r0, -64.0 / (r0 * r0));
-        let (f1, d1) = colebrook(r1, relative_roughness);
-        let h = r1 - r0;
-        let t = (re - r0) / h;
-        let (t2, t3) = (t * t, t * t * t);
-        let f = (2.0 * t3 - 3.0 * t2 + 1.0) * f0
-            + (t3 - 2.0 * t2 + t) * h * d0
-            + (-2.0 * t3 + 3.0 * t2) * f1
-            + (t3 - t2) * h * d1;
-        let df_dt = (6.0 * t2 - 6.0 * t) * f0
-            + (3.0 * t2 - 4.0 * t + 1.0) * h * d0
-            + (-6.0 * t2 + 6.0 * t) * f1
-            + (3.0 * t2 - 2.0 * t) * h * d1;
-        (f, df_dt / h)
+        transition_friction(re, colebrook(TURBULENT_RE_MIN, relative_roughness))
+    }
+}
+
+/// The transition's friction factor and slope at `re` (2000 < Re < 4000): the cubic Hermite
+/// between (2000, 64/Re) and (4000, Colebrook) with matching slopes; `turbulent_end` is
+/// Colebrook's (f, df/dRe) at Re = 4000.
+fn transition_friction(re: f64, turbulent_end: (f64, f64)) -> (f64, f64) {
+    let (r0, r1) = (LAMINAR_RE_MAX, TURBULENT_RE_MIN);
+    let (f0, d0) = (64.0 / r0, -64.0 / (r0 * r0));
+    let (f1, d1) = turbulent_end;
+    let h = r1 - r0;
+    let t = (re - r0) / h;
+    let (t2, t3) = (t * t, t * t * t);
+    let f = (2.0 * t3 - 3.0 * t2 + 1.0) * f0
+        + (t3 - 2.0 * t2 + t) * h * d0
+        + (-2.0 * t3 + 3.0 * t2) * f1
+        + (t3 - t2) * h * d1;
+    let df_dt = (6.0 * t2 - 6.0 * t) * f0
+        + (3.0 * t2 - 4.0 * t + 1.0) * h * d0
+        + (-6.0 * t2 + 6.0 * t) * f1
+        + (3.0 * t2 - 2.0 * t) * h * d1;
+    (f, df_dt / h)
+}
+
+/// J(Re) = ∫₀^Re f(r)·r² dr for the friction factor of [`darcy_friction`]: the friction part
+/// of a Darcy-Weisbach pipe's content ∫₀^Q f·d·q² dq is d·(Q/Re)³·J(Re), since Re ∝ Q.
+///
+/// - Laminar: ∫ 64 r dr = 32 Re², exact.
+/// - Transition: f is a cubic in Re, so f·r² is of degree 5 and three-point Gauss-Legendre
+///   is exact (Abramowitz & Stegun, *Handbook of Mathematical Functions*, 1964, §25.4; from
+///   memory).
+/// - Colebrook: closed form, derived here. With x = 1/√f the Colebrook equation solves for
+///   Re explicitly, Re = 2.51·x / (10^(−x/2) − e) with e = ε/(3.7D), so Re increases with x.
+///   By parts, ∫ f r² dr = ∫ r² dr / x² = [f·Re³/3] + (2/3)·∫ (Re/x)³ dx, and with
+///   y = 10^(−x/2), z = y − e, the last integrand is 2.51³/z³ and dx = −(2/ln 10)·dy/y:
+///   partial fractions of 1/(y·z³) give ∫ (Re/x)³ dx = −(2/ln 10)·(Re/x)³·G(e/z) with
+///   G(t) = (t − t²/2 − ln(1 + t))/t³ and e/z = e·Re/(2.51·x).
+///
+/// Costs one Colebrook solve at Re and one at 4000 in turbulent flow.
+pub fn darcy_friction_content(re: f64, relative_roughness: f64) -> f64 {
+    let laminar = |r: f64| 32.0 * r * r;
+    if re <= LAMINAR_RE_MAX {
+        return laminar(re);
+    }
+    let turbulent_end = colebrook(TURBULENT_RE_MIN, relative_roughness);
+    let top = re.min(TURBULENT_RE_MIN);
+    // Three-point Gauss-Legendre on [2000, top]: nodes 0, ±√(3/5), weights 8/9, 5/9.
+    let (mid, half) = (0.5 * (top + LAMINAR_RE_MAX), 0.5 * (top - LAMINAR_RE_MAX));
+    let node = (0.6_f64).sqrt() * half;
+    let g = |r: f64| transition_friction(r, turbulent_end).0 * r * r;
+    let transition = half * (8.0 / 9.0 * g(mid) + 5.0 / 9.0 * (g(mid - node) + g(mid + node)));
+    let below = laminar(LAMINAR_RE_MAX) + transition;
+    if re <= TURBULENT_RE_MIN {
+        return below;
+    }
+    let e = relative_roughness / 3.7;
+    // [f·Re³/3] + (2/3)·(−2/ln 10)·(Re/x)³·G(e·Re/(2.51·x)), x = 1/√f.
+    let antiderivative = |r: f64, f: f64| {
+        let re_over_x = r * f.sqrt();
+        f * r * r * r / 3.0
+            - 4.0 / (3.0 * LN_10) * re_over_x.powi(3) * colebrook_g(e * re_over_x / 2.51)
+    };
+    let (f, _) = colebrook(re, relative_roughness);
+    below + antiderivative(re, f) - antiderivative(TURBULENT_RE_MIN, turbulent_end.0)
+}
+
+/// G(t) = (t − t²/2 − ln(1 + t))/t³ for t ≥ 0: by its series −1/3 + t/4 − t²/5 + … for
+/// small t (where the closed form cancels), else by the closed form.
+fn colebrook_g(t: f64) -> f64 {
+    if t < 0.1 {
+        // Terms (−1)^(k+1)·t^k/(k + 3); t^18/21 < 1e-19 for t < 0.1.
+        let mut sum = 0.0;
+        for k in (0..18).rev() {
+            let sign = if k % 2 == 0 { -1.0 } else { 1.0 };
+            sum = sum * t + sign / f64::from(k + 3);
+        }
+        sum
+    } else {
+        (t - 0.5 * t * t - t.ln_1p()) / (t * t * t)
     }
 }
 
