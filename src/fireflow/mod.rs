@@ -103,6 +103,10 @@ pub enum HydrantNote {
     /// Controls that switched back and forth without settling in a solve of this hydrant's
     /// search: no answer can be verified (link indices).
     UnsettledControls { links: Vec<usize> },
+    /// Solved from another start (the static state, or the input files' states), the flow
+    /// the search found settles in other element states that violate a constraint: a lower
+    /// flow that every start verifies is reported.
+    OtherStatesFail { reported_flow_m3s: f64 },
     /// The analysis failed.
     Error { reason: String },
 }

@@ -66,6 +66,8 @@ const STATE_CHANGE_BISECTIONS: u32 = 5;
 /// the supply curve steepens with flow, so the secant slope of the last two flows before the
 /// change is doubled (common practice, no source).
 const GAP_SLOPE_FACTOR: f64 = 2.0;
+/// Steps down from an answer that another start does not verify.
+const MAX_STEP_DOWNS: u32 = 16;
 /// State-change notes kept per hydrant.
 const STATE_CHANGES_NOTED: usize = 3;
 
@@ -169,11 +171,20 @@ impl Search<'_, '_> {
         start: &Solution,
     ) -> Result<Solution, ProbeError> {
         self.solves += 1;
-        let sol = self
-            .setup
-            .hydraulics
-            .solve(self.ws, request, start)
-            .map_err(ProbeError::Solve)?;
+        let sol = match self.setup.hydraulics.solve(self.ws, request, start) {
+            Ok(sol) => sol,
+            Err(_) => {
+                // A Newton iteration from an extrapolated start can wander off where one from
+                // the static state converges (controls that switch on the way, a line search
+                // stalled far away): a flow is declared unsolvable only when both fail.
+                self.solves += 1;
+                self.ws.forget_factor();
+                self.setup
+                    .hydraulics
+                    .solve(self.ws, request, &self.setup.base)
+                    .map_err(ProbeError::Solve)?
+            }
+        };
         self.factorizations += sol.factorizations;
         self.iterations += sol.iterations;
         if !sol.unsettled.is_empty() {
@@ -535,6 +546,100 @@ impl Search<'_, '_> {
         changes
     }
 
+    /// Step 6b: with elements that can change state, a steady state need not be unique: the
+    /// same flow can settle in other states from another start. The answer is solved again
+    /// from the static state and from a cold start (the states of the input files, as
+    /// `firemain solve` starts); it stands only when every one of them meets the constraints.
+    /// Otherwise the answer steps down, by the accuracy and then by doubling steps, to a flow
+    /// that every start verifies (the safe side), and a note says so. Returns whether the
+    /// answer stood.
+    fn verify_from_every_start(
+        &mut self,
+        b: &mut Bracket,
+        answer: &mut Option<LimitedBy>,
+        result: &mut HydrantResult,
+    ) -> bool {
+        if !self.setup.has_controls || b.lo.q <= 0.0 {
+            return true;
+        }
+        let units = self.setup.network().units;
+        let first = b.lo.q;
+        let mut q = first;
+        let mut step = tolerance(q, units);
+        for _ in 0..MAX_STEP_DOWNS {
+            match self.failing_start(q) {
+                None if q == first => return true,
+                None => {
+                    if let Some(p) = self.verified_below(q, b) {
+                        b.lo = p;
+                        *answer = Some(LimitedBy::SystemPressure);
+                        result.notes.push(HydrantNote::OtherStatesFail {
+                            reported_flow_m3s: first,
+                        });
+                        return false;
+                    }
+                }
+                Some(fail) => {
+                    if let Above::Failing(p) = &fail {
+                        b.lo.check = p.check;
+                    }
+                    b.hi = Some(fail);
+                }
+            }
+            q = on_grid(q - step, units);
+            step *= 2.0;
+            if q <= 0.0 {
+                break;
+            }
+        }
+        // Nothing above zero verifies from every start.
+        b.lo = self.static_point();
+        *answer = Some(LimitedBy::SystemPressure);
+        result.notes.push(HydrantNote::OtherStatesFail {
+            reported_flow_m3s: first,
+        });
+        false
+    }
+
+    /// The largest flow between `q` (verified from every start) and the bracket's upper end
+    /// that every start verifies, to the search's accuracy, as a point of an ordinary solve.
+    fn verified_below(&mut self, q: f64, b: &mut Bracket) -> Option<Point> {
+        let units = self.setup.network().units;
+        let start = b.lo.sol.clone();
+        let mut lo = self.evaluate(q, &start).ok().filter(|p| p.passes)?;
+        let mut hi_q = b.hi.as_ref().map_or(lo.q, Above::q);
+        while hi_q - lo.q > tolerance(lo.q, units) {
+            let mid = on_grid(0.5 * (lo.q + hi_q), units);
+            if mid <= lo.q {
+                break;
+            }
+            let candidate = match self.failing_start(mid) {
+                None => self.evaluate(mid, &lo.sol).ok().filter(|p| p.passes),
+                Some(_) => None,
+            };
+            match candidate {
+                Some(p) => lo = p,
+                None => hi_q = mid,
+            }
+        }
+        Some(lo)
+    }
+
+    /// An ordinary solve at `q` from the static state and from a cold start: the first that
+    /// fails the constraints (or cannot be solved), if any.
+    fn failing_start(&mut self, q: f64) -> Option<Above> {
+        let cold = self.setup.hydraulics.cold_start();
+        for start in [self.setup.base.clone(), cold] {
+            self.ws.forget_factor();
+            match self.evaluate(q, &start) {
+                Ok(p) if p.passes => {}
+                Ok(p) => return Some(Above::Failing(p)),
+                Err(e) => return Some(self.unsolved(q, &e)),
+            }
+        }
+        None
+    }
+
     /// Bisects a grid interval whose ends differ in element states, checking the constraints
     /// at every flow solved, down to 1/2^[`STATE_CHANGE_BISECTIONS`] of the interval; then
     /// bounds the pressure drop across the gap left before the change.
@@ -606,9 +711,20 @@ impl Search<'_, '_> {
         let checked = b.lo.clone();
         bracket_search(self, b, None);
         if b.lo.sol.states != checked.sol.states {
-            // The narrowed answer lies past a state change the grid has not examined; keep
-            // the flow checked before it (the safe side).
-            b.lo = checked;
+            // The narrowed answer lies past a state change the grid has not examined: locate
+            // and check it as the grid would; where that finds a failure or cannot bound the
+            // gap, the last flow checked before it is kept (the safe side).
+            let narrowed = b.lo.clone();
+            let mut ignored = Vec::new();
+            match self.locate_change(&checked, None, &narrowed, &mut ignored) {
+                Located::Clear => {}
+                Located::Fails(failed) => {
+                    let (lo, above) = *failed;
+                    b.lo = lo;
+                    b.hi = Some(above);
+                }
+                Located::GapUnsafe(lo) => b.lo = *lo,
+            }
         }
     }
 
@@ -961,7 +1077,10 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
             .find(|p| p.q != b.lo.q && b.hi.as_ref().is_none_or(|h| h.q() != p.q));
         bracket_search(s, &mut b, third);
     }
-    let changes = s.first_crossing(&mut b, &mut answer);
+    let mut changes = s.first_crossing(&mut b, &mut answer);
+    if !s.verify_from_every_start(&mut b, &mut answer, result) {
+        changes.retain(|c| c.at_flow_m3s <= b.lo.q);
+    }
     for c in changes.into_iter().take(STATE_CHANGES_NOTED) {
         result.notes.push(HydrantNote::StateChanged {
             link: c.link,

@@ -579,8 +579,7 @@ impl<'n> Hydraulics<'n> {
 
         for iteration in 1..=MAX_ITERATIONS {
             if dirty {
-                self.pin_junctions(ws, request, &mut states);
-                isolated = self.find_isolated(ws, &states, held)?;
+                isolated = self.pin_and_isolate(ws, request, &mut states, &mut flows)?;
                 for &j in &isolated {
                     ws.pinned[j] = Some(heads[j]);
                 }
@@ -790,9 +789,12 @@ impl<'n> Hydraulics<'n> {
                 || ratio > CHORD_MAX_RATIO
                 || (flow_ratio > CHORD_MAX_RATIO && step_q > flow_tolerance);
 
-            if Self::within(step_h, ratio, factored_now, ws.tolerance.head_m)
-                && Self::within(step_q, flow_ratio, factored_now, flow_tolerance)
-            {
+            let flows_converged = Self::within(step_q, flow_ratio, factored_now, flow_tolerance);
+            let heads_converged = Self::within(step_h, ratio, factored_now, ws.tolerance.head_m)
+                || (iteration >= STALL_CHECK_AFTER
+                    && flows_converged
+                    && self.equations_hold(ws, &heads, &flows, &states, flow_tolerance));
+            if heads_converged && flows_converged {
                 // Converged for these states: apply the switching rules.
                 let mut changed = false;
                 for i in 0..nl {
@@ -875,6 +877,35 @@ impl<'n> Hydraulics<'n> {
         } else {
             step < FIRST_CHORD_STEP_FRACTION * tolerance
         }
+    }
+
+    /// Whether the current state satisfies the equations it solves: every conducting link's
+    /// energy equation within the head tolerance, and continuity at every free junction within
+    /// `flow_tolerance`. A regulating PRV or PSV takes its flow from continuity at the junction
+    /// it holds, and its other end sees that flow one step late; where two such valves feed one
+    /// another's zones, the head steps can settle into a slow exchange of a few hundredths of a
+    /// millimetre while the equations already hold far inside the tolerances. This is the
+    /// test of last resort for such a stall; the step tests decide every ordinary solve.
+    fn equations_hold(
+        &self,
+        ws: &Workspace,
+        heads: &[f64],
+        flows: &[f64],
+        states: &[LinkState],
+        flow_tolerance: f64,
+    ) -> bool {
+        let energy_ok = (0..self.ends.len()).all(|i| {
+            let (a, b) = self.ends[i];
+            !states[i].conducts()
+                || a == b
+                || (self.laws[i].evaluate(flows[i]).0 - (heads[a] - heads[b])).abs()
+                    < ws.tolerance.head_m
+        });
+        energy_ok
+            && (0..self.n_junctions).all(|j| {
+                ws.pinned[j].is_some()
+                    || self.imbalance(j, flows, &ws.demand).abs() < flow_tolerance
+            })
     }
 
     /// The flow change of every link in the current step (for the line search).
@@ -990,21 +1021,55 @@ impl<'n> Hydraulics<'n> {
         }
     }
 
+    /// Pins the junctions of the current states and finds the cut-off ones (see
+    /// [`Hydraulics::find_isolated`]). A regulating valve with an end in a cut-off part cannot
+    /// hold its setting: nothing there fixes a head, and the valve's flow has nowhere to go
+    /// but that part's demand. It is taken out of regulation, open when the part has a demand
+    /// to serve, closed when it has none, and its rules decide from there; without this the
+    /// state would be declared unsolvable although a neighbouring state is not.
+    fn pin_and_isolate(
+        &self,
+        ws: &mut Workspace,
+        request: &SolveRequest<'_>,
+        states: &mut [LinkState],
+        flows: &mut [f64],
+    ) -> Result<Vec<usize>, SolveError> {
+        let held = request.fixed_head.map(|(j, _)| j);
+        // Each round takes at least one valve out of regulation: the rounds are bounded.
+        loop {
+            self.pin_junctions(ws, request, states);
+            match self.find_isolated(ws, states, held)? {
+                Isolation::Cut(cut) => return Ok(cut),
+                Isolation::Release { valves, demand } => {
+                    for i in valves {
+                        states[i] = if demand {
+                            LinkState::Open
+                        } else {
+                            flows[i] = 0.0;
+                            LinkState::Closed
+                        };
+                    }
+                }
+            }
+        }
+    }
+
     /// Junctions that no conducting path joins to a fixed grade. An error if any of them has a
-    /// demand or a known inflow; otherwise they are returned (and held at their head).
+    /// demand (or is held) and no regulating valve touches them; valves to release when one
+    /// does; otherwise they are returned (and held at their head).
     fn find_isolated(
         &self,
         ws: &Workspace,
         states: &[LinkState],
         held: Option<usize>,
-    ) -> Result<Vec<usize>, SolveError> {
+    ) -> Result<Isolation, SolveError> {
         let nj = self.n_junctions;
         // When every element that can change state conducts, the conducting links are the
         // links that validation found joining every junction to a source: nothing is cut off.
         let all_controls_conduct =
             (0..states.len()).all(|i| self.roles[i] != Role::Controlled || states[i].conducts());
         if all_controls_conduct {
-            return Ok(Vec::new());
+            return Ok(Isolation::Cut(Vec::new()));
         }
         let mut reached = vec![false; nj];
         let mut stack: Vec<usize> = Vec::new();
@@ -1034,21 +1099,28 @@ impl<'n> Hydraulics<'n> {
         }
         let cut: Vec<usize> = (0..nj).filter(|&j| !reached[j]).collect();
         if cut.is_empty() {
-            return Ok(cut);
+            return Ok(Isolation::Cut(cut));
         }
-        // A cut-off junction with a demand, or at the end of a regulating valve (which
-        // delivers or draws a flow), has no steady state in a demand-driven model.
-        let fed = |j: usize| {
-            ws.demand[j] != 0.0
-                || Some(j) == held
-                || self
-                    .links_at(j)
-                    .iter()
-                    .any(|&i| states[i] == LinkState::Regulating)
-        };
+        let has_demand = |j: usize| ws.demand[j] != 0.0 || Some(j) == held;
+        // A regulating valve at a cut-off junction delivers or draws a flow there that only
+        // the cut-off part's demand could balance: it is released (see `pin_and_isolate`).
+        let mut valves: Vec<usize> = cut
+            .iter()
+            .flat_map(|&j| self.links_at(j).iter().copied())
+            .filter(|&i| states[i] == LinkState::Regulating)
+            .collect();
+        if !valves.is_empty() {
+            valves.sort_unstable();
+            valves.dedup();
+            return Ok(Isolation::Release {
+                valves,
+                demand: cut.iter().any(|&j| has_demand(j)),
+            });
+        }
+        // A cut-off junction with a demand has no steady state in a demand-driven model.
         let unsupplied: Vec<String> = cut
             .iter()
-            .filter(|&&j| fed(j))
+            .filter(|&&j| has_demand(j))
             .map(|&j| self.net.nodes[j].id.clone())
             .collect();
         if !unsupplied.is_empty() {
@@ -1069,7 +1141,7 @@ impl<'n> Hydraulics<'n> {
                 closed_links: closed,
             });
         }
-        Ok(cut)
+        Ok(Isolation::Cut(cut))
     }
 
     fn singular_error(&self, ws: &Workspace) -> SolveError {
@@ -1128,6 +1200,18 @@ impl<'n> Hydraulics<'n> {
         }
     }
 }
+
+/// What [`Hydraulics::find_isolated`] found.
+enum Isolation {
+    /// The cut-off junctions (none with a demand): they are held at their heads.
+    Cut(Vec<usize>),
+    /// Regulating valves with an end in a cut-off part, and whether that part has a demand.
+    Release { valves: Vec<usize>, demand: bool },
+}
+
+/// Iterations after which head steps that no longer shrink are judged by the equations
+/// themselves (see [`Hydraulics::equations_hold`]).
+const STALL_CHECK_AFTER: u32 = 20;
 
 /// Loss of a valve held wide open at flow q, m.
 fn open_valve_loss(link: &crate::model::Link, q: f64) -> f64 {

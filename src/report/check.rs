@@ -181,6 +181,10 @@ impl CheckReport<'_> {
                 "no verified answer: the controls of {} switched back and forth without settling; check their settings",
                 links.iter().map(|&i| link(i)).collect::<Vec<_>>().join(", ")
             ),
+            HydrantNote::OtherStatesFail { reported_flow_m3s } => format!(
+                "at {} the pumps or valves can settle in states that violate the constraints when solved from another start; a lower flow that every start verifies is reported",
+                flow(*reported_flow_m3s)
+            ),
             HydrantNote::Error { reason } => reason.clone(),
         }
     }
