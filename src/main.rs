@@ -258,7 +258,8 @@ struct CheckArgs {
     /// Criteria set (TOML), e.g. criteria/common-practice-us.toml.
     #[arg(long)]
     criteria: PathBuf,
-    /// Also write fireflow.csv, service.csv, weak_mains.csv, report.md and report.json here.
+    /// Also write fireflow.csv, service.csv, weak_mains.csv, report.md and report.json here
+    /// (with their manifest, manifest-check.toml).
     #[arg(long)]
     out: Option<PathBuf>,
     /// Analyse only this hydrant (repeatable).
