@@ -179,8 +179,16 @@ fn solve_command(
     let result = steady::steady_report(&hydraulics, condition, &solution);
     emit(report::solve::terminal(&result, net.units));
     if let Some(out) = out {
-        let written = report::solve::files(&result, net.units)
-            .and_then(|files| write_outputs(out, dir, &files));
+        let written = report::solve::files(&result, net.units).and_then(|files| {
+            let set = report::OutputSet {
+                command: "solve",
+                run_id: report::new_run_id(),
+                generated: analysis_date(),
+                generator: format!("firemain {}", env!("CARGO_PKG_VERSION")),
+                files,
+            };
+            write_outputs(out, dir, &set)
+        });
         if !report_written(written, false) {
             return ExitStatus::AnalysisError;
         }
@@ -250,7 +258,8 @@ struct CheckArgs {
     /// Criteria set (TOML), e.g. criteria/common-practice-us.toml.
     #[arg(long)]
     criteria: PathBuf,
-    /// Also write fireflow.csv, service.csv, weak_mains.csv, report.md and report.json here.
+    /// Also write fireflow.csv, service.csv, weak_mains.csv, report.md and report.json here
+    /// (with their manifest, manifest-check.toml).
     #[arg(long)]
     out: Option<PathBuf>,
     /// Analyse only this hydrant (repeatable).
@@ -369,13 +378,16 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
         bar.finish_and_clear();
     }
     let weak = firemain::weakmains::weak_mains(net, &criteria, &results);
+    let warnings = report::input_warnings(&loaded.diagnostics, &criteria.warnings);
     let report = CheckReport {
         network: net,
         criteria: &criteria,
         results: &results,
         service: &service,
         generated: analysis_date(),
+        run_id: report::new_run_id(),
         version: env!("CARGO_PKG_VERSION"),
+        input_warnings: &warnings,
         partial,
         weak_mains: &weak,
     };
@@ -397,8 +409,8 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
     }
     if let Some(out) = &args.out {
         let written = report
-            .files(args.stats.then_some(&stats))
-            .and_then(|files| write_outputs(out, &args.network, &files));
+            .output_set(args.stats.then_some(&stats))
+            .and_then(|set| write_outputs(out, &args.network, &set));
         if !report_written(written, args.quiet) {
             return ExitStatus::AnalysisError;
         }
@@ -598,13 +610,16 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
     };
     let weak_after = firemain::weakmains::weak_mains(&plan.proposed, &criteria, &plan.after);
     let generated = analysis_date();
+    let warnings = report::input_warnings(&loaded.diagnostics, &criteria.warnings);
     let after = CheckReport {
         network: &plan.proposed,
         criteria: &criteria,
         results: &plan.after,
         service: &service,
         generated: generated.clone(),
+        run_id: report::new_run_id(),
         version: env!("CARGO_PKG_VERSION"),
+        input_warnings: &warnings,
         partial: !selected.is_empty(),
         weak_mains: &weak_after,
     };
@@ -623,8 +638,8 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
                 path: args.network.clone(),
                 source: e,
             })
-            .and_then(|files| report.files(files))
-            .and_then(|files| write_outputs(out, &args.network, &files));
+            .and_then(|files| report.output_set(files))
+            .and_then(|set| write_outputs(out, &args.network, &set));
         if !report_written(written, args.quiet) {
             return ExitStatus::AnalysisError;
         }

@@ -19,9 +19,9 @@ fn link(net: &Network, id: &str) -> usize {
 }
 
 /// The pump curve head = s² (a − b (Q/s)^c) through shutoff head a, design point (q1, h1) and
-/// runout point (q2, h2): c = ln((a − h2)/(a − h1)) / ln(q2/q1), b = (a − h1)/q1^c
-/// (our pump format, notes/format.md); the speed scaling is the pump affinity laws, Q ∝ N and
-/// H ∝ N² (from memory; as stated in pump texts such as Karassik et al., Pump Handbook).
+/// runout point (q2, h2): c = ln((a − h2)/(a − h1)) / ln(q2/q1), b = (a − h1)/q1^c (our pump
+/// format, docs/network-format.md §10 pumps.csv); the speed scaling is the pump affinity laws, Q ∝
+/// N and H ∝ N² (from memory; as stated in pump texts such as Karassik et al., Pump Handbook).
 fn pump_head(a: f64, design: (f64, f64), runout: (f64, f64), s: f64, q: f64) -> f64 {
     let c = ((a - runout.1) / (a - design.1)).ln() / (runout.0 / design.0).ln();
     let b = (a - design.1) / design.0.powf(c);
@@ -126,7 +126,8 @@ fn half_speed_pump_has_a_quarter_of_the_shutoff_head() {
     assert!((sol.heads_m[node(&net, "J")] - 130.0).abs() < HEAD_TOL);
 }
 
-/// Set head of the PRV: elevation of B (10 m) + 300 kPa / 9.80665 kPa/m (notes/format.md).
+/// Set head of the PRV: elevation of B (10 m) + 300 kPa / 9.80665 kPa/m (docs/network-format.md §3
+/// Units and §11 valves.csv).
 fn prv_set_head() -> f64 {
     10.0 + 300.0 / KPA_PER_M
 }
@@ -151,9 +152,9 @@ fn prv_network(upstream: f64, downstream: Option<f64>) -> Network {
 
 #[test]
 fn prv_holds_its_setting_while_the_upstream_grade_is_high_enough() {
-    // A regulating PRV holds the downstream junction at its set head (definition of the
-    // device, notes/format.md). Everything downstream follows: H_C = H_B − r2 Q_C^1.852; the
-    // valve passes the whole downstream demand, and A = grade − r1 Q^1.852.
+    // A regulating PRV holds the downstream junction at its set head (definition of the device,
+    // docs/network-format.md §11 valves.csv). Everything downstream follows: H_C = H_B − r2
+    // Q_C^1.852; the valve passes the whole downstream demand, and A = grade − r1 Q^1.852.
     let net = prv_network(100.0, None);
     let sol = solve(&net, 1.0, &[]);
     let v = link(&net, "V");
@@ -170,9 +171,9 @@ fn prv_holds_its_setting_while_the_upstream_grade_is_high_enough() {
 
 #[test]
 fn prv_goes_wide_open_when_the_upstream_grade_is_too_low() {
-    // With the upstream grade (38 m) below set head (40.59 m) + losses the valve cannot
-    // regulate: it acts as an open valve with loss K v²/(2g) (minor-loss form, notes/format.md):
-    // H_B = grade − r1 Q^1.852 − K v²/(2g), Q = 40 L/s.
+    // With the upstream grade (38 m) below set head (40.59 m) + losses the valve cannot regulate:
+    // it acts as an open valve with loss K v²/(2g) (minor-loss form, docs/network-format.md §11
+    // valves.csv): H_B = grade − r1 Q^1.852 − K v²/(2g), Q = 40 L/s.
     let net = prv_network(38.0, None);
     let sol = solve(&net, 1.0, &[]);
     let v = link(&net, "V");
@@ -192,10 +193,10 @@ fn prv_goes_wide_open_when_the_upstream_grade_is_too_low() {
 
 #[test]
 fn prv_closes_when_the_downstream_grade_is_above_the_upstream_grade() {
-    // A second source (120 m) on the downstream side, above the upstream grade (100 m): the
-    // PRV passes no reverse flow and closes (notes/format.md). Then A sits at the upstream
-    // grade (no flow in P1) and B, C are fed from the downstream source alone:
-    // H_B = 120 − r3 (Q_B + Q_C)^1.852.
+    // A second source (120 m) on the downstream side, above the upstream grade (100 m): the PRV
+    // passes no reverse flow and closes (docs/network-format.md §11 valves.csv). Then A sits at the
+    // upstream grade (no flow in P1) and B, C are fed from the downstream source alone: H_B = 120 −
+    // r3 (Q_B + Q_C)^1.852.
     let net = prv_network(100.0, Some(120.0));
     let sol = solve(&net, 1.0, &[]);
     let v = link(&net, "V");
@@ -224,9 +225,10 @@ fn fcv_network(setting_lps: f64) -> Network {
 
 #[test]
 fn fcv_limits_the_flow_to_its_setting() {
-    // Unregulated, the 40 m between the sources would drive about 115 L/s through the line
-    // (closed form below); an FCV set to 40 L/s holds exactly that (definition of the device,
-    // notes/format.md), and the heads follow from Hazen-Williams on either side.
+    // Unregulated, the 40 m between the sources would drive about 115 L/s through the line (closed
+    // form below); an FCV set to 40 L/s holds exactly that (definition of the device,
+    // docs/network-format.md §11 valves.csv), and the heads follow from Hazen-Williams on either
+    // side.
     let r = hw_resistance(800.0, 0.25, 120.0);
     let unregulated = bisect(0.0, 1.0, |q| {
         40.0 - 2.0 * r * q.powf(1.852) - minor_loss(2.0, 0.2, q)
@@ -256,7 +258,7 @@ fn fcv_limits_the_flow_to_its_setting() {
 #[test]
 fn check_valve_pipe_closes_against_reverse_head() {
     // A junction fed from a 100 m source through a plain pipe, and connected to a second
-    // source through a check-valve pipe (flow only from → to, notes/format.md).
+    // source through a check-valve pipe (flow only from → to, docs/network-format.md §8 pipes.csv).
     let r1 = hw_resistance(600.0, 0.2, 120.0);
     let r2 = hw_resistance(400.0, 0.15, 120.0);
     let demand = 0.020;
@@ -293,12 +295,12 @@ fn check_valve_pipe_closes_against_reverse_head() {
 
 #[test]
 fn fire_flow_notes_the_flow_at_which_the_prv_goes_wide_open() {
-    // A fire at the PRV's downstream junction B draws more through the valve until the
-    // upstream grade can no longer hold the set head plus the open valve's loss: the valve
-    // then runs wide open (device definition, notes/format.md). The valve flow Q* at that
-    // point solves 100 − r1 Q*^1.852 − K v²/(2g) = H_set (bisection here); the fire flow then is
-    // Q* minus the downstream demands (30 + 10 L/s). The search locates it by bisection to
-    // 1/32 of the available flow (docs/fire-flow-method.md §2).
+    // A fire at the PRV's downstream junction B draws more through the valve until the upstream
+    // grade can no longer hold the set head plus the open valve's loss: the valve then runs wide
+    // open (device definition, docs/network-format.md §11 valves.csv). The valve flow Q* at that
+    // point solves 100 − r1 Q*^1.852 − K v²/(2g) = H_set (bisection here); the fire flow then is Q*
+    // minus the downstream demands (30 + 10 L/s). The search locates it by bisection to 1/32 of the
+    // available flow (docs/fire-flow-method.md §2).
     let mut f = NetFiles::si_hw();
     f.reservoir("UP", 100.0)
         .junction("A", 20.0, 0.0)

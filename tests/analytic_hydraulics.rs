@@ -25,7 +25,7 @@ const HEAD_TOL: f64 = 1e-6;
 fn single_pipe_head_is_grade_minus_r_q_to_the_1_852() {
     // Closed form: one pipe from a reservoir to a junction drawing Q carries Q, so
     // H = grade − r Q^1.852 (Hazen-Williams SI form, Williams & Hazen, Hydraulic Tables, 1920;
-    // constants 10.67 / 1.852 / 4.8704 as in notes/format.md).
+    // constants 10.67 / 1.852 / 4.8704 as in docs/network-format.md §8 pipes.csv).
     let mut f = NetFiles::si_hw();
     f.reservoir("R", 100.0)
         .junction("J", 40.0, 50.0)

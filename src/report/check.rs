@@ -7,11 +7,14 @@ use serde::Serialize;
 use tabled::builder::Builder;
 use tabled::settings::Style;
 
-use super::{csv_bytes, num, Out, OutputFile, ReportError, CAUTIONS};
+use super::{
+    csv_bytes, input_warnings_markdown, num, JsonInputWarning, Out, OutputFile, OutputSet,
+    ReportError, CAUTIONS,
+};
 use crate::criteria::{Criteria, Scope};
 use crate::fireflow::{HydrantNote, HydrantResult, Outcome, SweepStats};
 use crate::hydraulics::LinkState;
-use crate::model::{LinkKind, Network};
+use crate::model::{Diagnostic, LinkKind, Network};
 use crate::service::{ServiceReport, ServiceResult};
 use crate::units::Quantity;
 use crate::weakmains::{WeakMain, WeakReason};
@@ -27,7 +30,11 @@ pub struct CheckReport<'a> {
     pub service: &'a ServiceReport,
     /// Date and time of the analysis, as shown on the report.
     pub generated: String,
+    /// The run id shared by every file of the run (see `report::new_run_id`).
+    pub run_id: String,
     pub version: &'a str,
+    /// Plausibility warnings about the network and criteria files.
+    pub input_warnings: &'a [Diagnostic],
     /// Whether only some hydrants were analysed (`--hydrant`).
     pub partial: bool,
     /// Mains that limit failing hydrants, ranked.
@@ -624,6 +631,7 @@ impl CheckReport<'_> {
                 ),
             ),
             ("Date", md(&self.generated)),
+            ("Run id", md(&self.run_id)),
             ("Produced by", format!("firemain {}", self.version)),
         ];
         for (k, v) in rows {
@@ -642,6 +650,7 @@ impl CheckReport<'_> {
             num(o.pressure(self.criteria.service_max_kpa), 0),
             o.sym(Quantity::Pressure)
         ));
+        s.push_str(&input_warnings_markdown(self.input_warnings));
 
         s.push_str("\n## Compliance table\n\nAvailable fire flow at each hydrant, sorted by margin (available minus required) within each zone; the weakest first.\n");
         let mut zones: BTreeMap<String, Vec<&HydrantResult>> = BTreeMap::new();
@@ -792,6 +801,7 @@ impl CheckReport<'_> {
             schema_version: JSON_SCHEMA_VERSION,
             generator: format!("firemain {}", self.version),
             generated: self.generated.clone(),
+            run_id: self.run_id.clone(),
             units: JsonUnits {
                 flow: o.sym(Quantity::Flow),
                 pressure: o.sym(Quantity::Pressure),
@@ -826,6 +836,7 @@ impl CheckReport<'_> {
                 service_exceptions: self.service.exceptions().count(),
                 partial: self.partial,
             },
+            input_warnings: self.input_warnings.iter().map(Into::into).collect(),
             hydrants: self
                 .results
                 .iter()
@@ -900,6 +911,17 @@ impl CheckReport<'_> {
         })
     }
 
+    /// All files of the check, as one set.
+    pub fn output_set(&self, stats: Option<&SweepStats>) -> Result<OutputSet, ReportError> {
+        Ok(OutputSet {
+            command: "check",
+            run_id: self.run_id.clone(),
+            generated: self.generated.clone(),
+            generator: format!("firemain {}", self.version),
+            files: self.files(stats)?,
+        })
+    }
+
     /// All files of the check.
     pub fn files(&self, stats: Option<&SweepStats>) -> Result<Vec<OutputFile>, ReportError> {
         Ok(vec![
@@ -960,11 +982,13 @@ struct JsonReport {
     schema_version: u32,
     generator: String,
     generated: String,
+    run_id: String,
     units: JsonUnits,
     network: String,
     criteria: JsonCriteria,
     demand_factors: JsonDemand,
     summary: JsonSummary,
+    input_warnings: Vec<JsonInputWarning>,
     hydrants: Vec<JsonHydrant>,
     service: Vec<JsonService>,
     weak_mains: Vec<JsonWeakMain>,

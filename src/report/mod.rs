@@ -1,20 +1,26 @@
 //! Reports: pure renderers (data in, bytes out) and the one place that writes files.
 //!
 //! Values arrive in SI and leave in the network's units, always with the unit in the column
-//! name or header. Files are written whole or not at all: each is written to a temporary file
-//! in the output folder and renamed over its final name.
+//! name or header. The files of one run are written as one set (see [`write_outputs`]): every
+//! file is staged first, and only when all are staged are they put in place, the run's manifest
+//! last.
 
 pub mod check;
+pub mod set;
 pub mod solve;
 pub mod upsize;
 pub mod validate;
 
-use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use thiserror::Error;
 
+use crate::model::{Diagnostic, Diagnostics, Severity};
 use crate::units::{Quantity, UnitSystem};
+
+pub use set::{
+    manifest_name, mask_run, new_run_id, write_outputs, OutputFile, OutputSet, MANIFEST_PREFIX,
+};
 
 #[derive(Debug, Error)]
 pub enum ReportError {
@@ -28,16 +34,33 @@ pub enum ReportError {
         path: PathBuf,
         source: std::io::Error,
     },
+    #[error("cannot write {path}: a folder of that name is in the way; move or remove it")]
+    InTheWay { path: PathBuf },
+    #[error(
+        "cannot write {name}: an output file name must be a relative path inside the output folder"
+    )]
+    BadName { name: String },
     #[error("the output folder {0} is the network folder; choose another folder so that no input file can be overwritten")]
     OutputIsInput(PathBuf),
     #[error("cannot render {what}: {message}")]
     Render { what: String, message: String },
-}
-
-/// A rendered output file.
-pub struct OutputFile {
-    pub name: String,
-    pub bytes: Vec<u8>,
+    /// A failure while the set was staged or put in place, after which every file of the folder
+    /// is as it was before the run.
+    #[error(
+        "{cause}; no output file was replaced: the files in {dir} are those of the previous run"
+    )]
+    SetNotWritten {
+        dir: PathBuf,
+        cause: Box<ReportError>,
+    },
+    /// A failure while the set was put in place, and the previous files could not all be put
+    /// back. The manifest is absent, so a reader can tell that the folder holds no whole set.
+    #[error("{cause}; the previous files in {dir} could not all be restored ({detail}): the folder now mixes two runs and has no manifest; run the command again")]
+    SetMixed {
+        dir: PathBuf,
+        cause: Box<ReportError>,
+        detail: String,
+    },
 }
 
 /// Whether two paths name the same existing folder.
@@ -45,63 +68,62 @@ pub fn is_same_folder(a: &Path, b: &Path) -> bool {
     matches!((a.canonicalize(), b.canonicalize()), (Ok(x), Ok(y)) if x == y)
 }
 
-/// Writes every file into `dir` (created if missing), each atomically.
-pub fn write_outputs(
-    dir: &Path,
-    input_dir: &Path,
-    files: &[OutputFile],
-) -> Result<Vec<PathBuf>, ReportError> {
-    std::fs::create_dir_all(dir).map_err(|source| ReportError::CreateDir {
-        path: dir.to_path_buf(),
-        source,
-    })?;
-    if is_same_folder(dir, input_dir) {
-        return Err(ReportError::OutputIsInput(dir.to_path_buf()));
-    }
-    // No file may land in the network folder: checked for all before any is written.
-    for f in files {
-        if let Some(parent) = dir.join(&f.name).parent() {
-            if is_same_folder(parent, input_dir) {
-                return Err(ReportError::OutputIsInput(parent.to_path_buf()));
-            }
-        }
-    }
-    let mut written = Vec::new();
-    for f in files {
-        let path = dir.join(&f.name);
-        if let Some(parent) = path.parent() {
-            std::fs::create_dir_all(parent).map_err(|source| ReportError::CreateDir {
-                path: parent.to_path_buf(),
-                source,
-            })?;
-        }
-        write_atomically(&path, &f.bytes)?;
-        written.push(path);
-    }
-    Ok(written)
+/// The input warnings a report lists: the plausibility warnings of the network and of the
+/// criteria, in that order (notes, such as ignored columns, are left to `firemain validate`).
+pub fn input_warnings(network: &Diagnostics, criteria: &Diagnostics) -> Vec<Diagnostic> {
+    network
+        .iter()
+        .chain(criteria.iter())
+        .filter(|d| d.severity == Severity::Warning)
+        .cloned()
+        .collect()
 }
 
-/// Writes `bytes` to a temporary file beside `path`, syncs it, and renames it into place.
-pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), ReportError> {
-    let err = |source| ReportError::Write {
-        path: path.to_path_buf(),
-        source,
-    };
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_default();
-    let tmp = path.with_file_name(format!(".{name}.{}.tmp", std::process::id()));
-    let result = (|| {
-        let mut f = std::fs::File::create(&tmp)?;
-        f.write_all(bytes)?;
-        f.sync_all()?;
-        std::fs::rename(&tmp, path)
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&tmp);
+/// The "Input warnings" section of a Markdown report.
+pub fn input_warnings_markdown(warnings: &[Diagnostic]) -> String {
+    let mut s = String::from("\n## Input warnings\n\n");
+    if warnings.is_empty() {
+        s.push_str("None: the network and criteria files raised no plausibility warning.\n");
+        return s;
     }
-    result.map_err(err)
+    s.push_str(&format!(
+        "{} plausibility warning(s) about the input files (common practice, not a published standard); the analysis went ahead, but check each:\n\n",
+        warnings.len()
+    ));
+    for d in warnings {
+        s.push_str(&format!(
+            "- `{}`: {}{}\n",
+            d.location,
+            d.message.replace('\n', " "),
+            d.fix
+                .as_ref()
+                .map(|f| format!("; fix: {}", f.replace('\n', " ")))
+                .unwrap_or_default()
+        ));
+    }
+    s
+}
+
+/// One input warning in `report.json`.
+#[derive(serde::Serialize)]
+pub struct JsonInputWarning {
+    pub file: String,
+    pub line: Option<u64>,
+    pub column: Option<u64>,
+    pub message: String,
+    pub fix: Option<String>,
+}
+
+impl From<&Diagnostic> for JsonInputWarning {
+    fn from(d: &Diagnostic) -> Self {
+        JsonInputWarning {
+            file: d.location.file.clone(),
+            line: d.location.line,
+            column: d.location.column,
+            message: d.message.clone(),
+            fix: d.fix.clone(),
+        }
+    }
 }
 
 /// A number with fixed decimals; empty for a non-finite value (which the analyses never
@@ -259,18 +281,5 @@ mod tests {
         assert_eq!(num(f64::INFINITY, 2), "");
         assert_eq!(num(-0.0001, 2), "0.00");
         assert_eq!(num(-1.234, 1), "-1.2");
-    }
-
-    #[test]
-    fn atomic_write_leaves_no_temporary_file() {
-        let dir = tempfile::tempdir().unwrap();
-        let path = dir.path().join("x.csv");
-        write_atomically(&path, b"a,b\n").unwrap();
-        let names: Vec<_> = std::fs::read_dir(dir.path())
-            .unwrap()
-            .map(|e| e.unwrap().file_name())
-            .collect();
-        assert_eq!(names.len(), 1);
-        assert_eq!(std::fs::read(&path).unwrap(), b"a,b\n");
     }
 }

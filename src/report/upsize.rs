@@ -5,7 +5,10 @@ use tabled::builder::Builder;
 use tabled::settings::Style;
 
 use super::check::CheckReport;
-use super::{csv_bytes, num, plain_number, Out, OutputFile, ReportError, CAUTIONS};
+use super::{
+    csv_bytes, input_warnings_markdown, num, plain_number, Out, OutputFile, OutputSet, ReportError,
+    CAUTIONS,
+};
 use crate::fireflow::{HydrantResult, Outcome};
 use crate::model::{LinkKind, Network, PipeStatus};
 use crate::units::Quantity;
@@ -271,8 +274,12 @@ impl UpsizeReport<'_> {
         let o = self.out();
         let mut s = format!("# Main upsizing proposal: {}\n\n", self.network.name);
         s.push_str(&format!(
-            "Criteria: {} ({}). Date: {}. Produced by firemain {}.\n\n",
-            self.after.criteria.name, self.after.criteria.reference, self.generated, self.version
+            "Criteria: {} ({}). Date: {}. Run id: {}. Produced by firemain {}.\n\n",
+            self.after.criteria.name,
+            self.after.criteria.reference,
+            self.generated,
+            self.after.run_id,
+            self.version
         ));
         s.push_str(&format!("{}\n\n", self.headline()));
         s.push_str(&format!(
@@ -292,6 +299,7 @@ impl UpsizeReport<'_> {
                 })
                 .unwrap_or_else(|| "at the default for new ductile iron".into())
         ));
+        s.push_str(&input_warnings_markdown(self.after.input_warnings));
         let md_table = |h: Vec<String>, rows: Vec<Vec<String>>| {
             let mut t = format!("| {} |\n|{}\n", h.join(" | "), "---|".repeat(h.len()));
             for r in rows {
@@ -330,6 +338,20 @@ impl UpsizeReport<'_> {
             s.push_str(&format!("- {c}\n"));
         }
         s
+    }
+
+    /// All output files as one set; `network_files` as for [`UpsizeReport::files`].
+    pub fn output_set(
+        &self,
+        network_files: Vec<(String, Vec<u8>)>,
+    ) -> Result<OutputSet, ReportError> {
+        Ok(OutputSet {
+            command: "upsize",
+            run_id: self.after.run_id.clone(),
+            generated: self.generated.clone(),
+            generator: format!("firemain {}", self.version),
+            files: self.files(network_files)?,
+        })
     }
 
     /// All output files; `network_files` are the input network's files (name, bytes) copied

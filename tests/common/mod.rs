@@ -71,3 +71,25 @@ pub fn solve_average(net: &Network) -> Solution {
         .solve(&mut ws, &request, &hydraulics.cold_start())
         .expect("solve")
 }
+
+/// The files of the set that `command` wrote into `dir`, by name, read through the set's
+/// manifest, with the run id and the analysis date masked (`<run-id>`, `<generated>`): two runs
+/// on the same input compare equal. Panics if the manifest is missing or a file's size differs
+/// from the manifest's.
+pub fn masked_outputs(dir: &Path, command: &str) -> std::collections::BTreeMap<String, String> {
+    let manifest = firemain::report::set::read_manifest(dir, command)
+        .unwrap_or_else(|| panic!("no manifest-{command}.toml in {}", dir.display()));
+    manifest
+        .files
+        .iter()
+        .map(|f| {
+            let bytes = std::fs::read(dir.join(&f.name)).expect("a file of the manifest");
+            assert_eq!(bytes.len() as u64, f.bytes, "size of {}", f.name);
+            let text = String::from_utf8_lossy(&bytes);
+            (
+                f.name.clone(),
+                firemain::report::mask_run(&text, &manifest.run_id, &manifest.generated),
+            )
+        })
+        .collect()
+}

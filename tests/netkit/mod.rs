@@ -12,12 +12,13 @@ use firemain::fireflow::{sweep, FireFlowSetup, HydrantResult};
 use firemain::hydraulics::{Hydraulics, Solution, SolveError, SolveRequest};
 use firemain::model::{load_network, Network};
 
-/// Standard gravity, m/s² (CGPM 1901, exact by definition); the project's g (notes/format.md).
+/// Standard gravity, m/s² (CGPM 1901, exact by definition); the project's g
+/// (docs/fire-flow-method.md §1).
 pub const G: f64 = 9.80665;
 /// Unit weight of water, kPa per m of head: ρ g with ρ = 1000 kg/m³ (project convention,
-/// notes/format.md).
+/// docs/network-format.md §3 Units).
 pub const KPA_PER_M: f64 = 9.80665;
-/// Kinematic viscosity of water, m²/s (project convention, notes/format.md).
+/// Kinematic viscosity of water, m²/s (project convention, docs/network-format.md §8 pipes.csv).
 pub const NU: f64 = 1.0e-6;
 
 // Unit definitions, written here rather than taken from `firemain::units` so that a wrong
@@ -327,7 +328,7 @@ pub fn junction_imbalances(
 
 /// Resistance r of h = r Q^1.852 (Hazen-Williams, SI form h = 10.67 L Q^1.852 / (C^1.852
 /// D^4.8704), h, L, D in m, Q in m³/s; from the velocity form of Williams & Hazen, Hydraulic
-/// Tables, 1920; the constants are the project's, notes/format.md).
+/// Tables, 1920; the constants are the project's, docs/network-format.md §8 pipes.csv).
 pub fn hw_resistance(length_m: f64, diameter_m: f64, c: f64) -> f64 {
     10.67 * length_m / (c.powf(1.852) * diameter_m.powf(4.8704))
 }
