@@ -1243,3 +1243,35 @@ impl Solution {
         self.heads_m[l.from] - self.heads_m[l.to]
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::Tolerance;
+
+    /// The tolerances docs/fire-flow-method.md states are the ones the solver uses (the doc is
+    /// the source of the figures users read; common practice, no source).
+    #[test]
+    fn method_doc_states_the_tolerances_in_use() {
+        let doc = include_str!("../../docs/fire-flow-method.md");
+        let doc = doc.split_whitespace().collect::<Vec<_>>().join(" ");
+        for (t, what) in [
+            (Tolerance::STEADY, "for reported steady states"),
+            (
+                Tolerance::SEARCH,
+                "for the solves whose pressures are reported",
+            ),
+            (Tolerance::BRACKET, "for the solves that place a flow"),
+        ] {
+            let head = format!("{:e} m", t.head_m);
+            let flow = format!("{:e} m³/s", t.flow_m3s);
+            let at = doc
+                .find(what)
+                .unwrap_or_else(|| panic!("docs/fire-flow-method.md no longer says {what:?}"));
+            let before = &doc[at.saturating_sub(120)..at];
+            assert!(
+                before.contains(&head) && before.contains(&flow),
+                "docs/fire-flow-method.md gives other tolerances {what}: expected {head} and {flow} in {before:?}"
+            );
+        }
+    }
+}
