@@ -1253,6 +1253,160 @@ fn criteria_unknown_class_without_default() {
     assert!(message.contains("c.toml"), "{message}");
 }
 
+/// A hydrant class the criteria do not list (a typing slip, `comercial`) is an error even when
+/// the criteria give a default flow, at the class cell (line 2, field 3), naming the criteria
+/// file and suggesting the nearest listed class (one edit away).
+#[test]
+fn criteria_unknown_class_with_did_you_mean() {
+    let net = Net::us();
+    net.write("hydrants.csv", "id,junction,class\nH1,J3,comercial\n");
+    let path = net.write_criteria(
+        "c.toml",
+        format!("{CRITERIA_US}[fire.required_flow]\nresidential = 1000\ncommercial = 1500\n"),
+    );
+    let run = assert_criteria_refused(
+        &net,
+        &path,
+        &[("hydrants.csv:2:3", "class `comercial`, which")],
+    );
+    let message = assert_finding(&run.stderr, "error", "hydrants.csv:2:3", "comercial");
+    assert!(
+        message.contains("c.toml") && message.contains("did you mean `commercial`?"),
+        "{message}"
+    );
+    // upsize resolves classes the same way.
+    let upsize: Vec<OsString> = vec![
+        "upsize".into(),
+        net.dir().into(),
+        "--criteria".into(),
+        path.clone().into(),
+        "--out".into(),
+        net.out().into(),
+    ];
+    assert_refused_by(&net, &upsize, &[("hydrants.csv:2:3", "comercial")]);
+}
+
+/// A blank class takes the criteria's default; an unlisted class beside the hydrant's own
+/// required_flow is only a warning (the class decides nothing).
+#[test]
+fn criteria_blank_class_takes_the_default() {
+    let net = Net::us();
+    net.write(
+        "hydrants.csv",
+        "id,junction,required_flow,class\nH1,J3,,\nH2,J2,500,comercial\n",
+    );
+    let path = net.write_criteria(
+        "c.toml",
+        format!("{CRITERIA_US}[fire.required_flow]\ncommercial = 1500\n"),
+    );
+    let mut args = check_args(&net, &path, &["--quiet"]);
+    args.truncate(args.len() - 2); // no --out
+    let run = firemain(&args);
+    run.assert_no_panic();
+    assert!(matches!(run.code, Some(0) | Some(1)), "{}", run.text());
+    assert_finding(
+        &run.stderr,
+        "warning",
+        "hydrants.csv:3:4",
+        "its own required_flow applies",
+    );
+    assert!(
+        findings(&run.stderr).iter().all(|f| f.severity != "error"),
+        "{}",
+        run.stderr
+    );
+}
+
+/// Criteria magnitudes beyond any water system are errors at their value, never printed as
+/// hundreds of digits: a floor of 1e308 psi, a search cap of 1e9 gpm. Limits: the pressure of
+/// 10 km of water and 100 m³/s (docs/criteria-format.md; common practice, no source).
+#[test]
+fn criteria_magnitudes_beyond_any_water_system() {
+    let cases = [
+        (
+            "residual_floor = 20",
+            "residual_floor = 1e308",
+            "8:18",
+            "[fire] residual_floor 1e308 psi is beyond any water system",
+        ),
+        (
+            "search_cap = 8000",
+            "search_cap = 1e9",
+            "10:14",
+            "[fire] search_cap 1e9 gpm is beyond any water system",
+        ),
+        (
+            "search_cap = 8000",
+            "search_cap = -8000",
+            "10:14",
+            "[fire] search_cap must be a positive number, got -8000",
+        ),
+    ];
+    for (from, to, at, says) in cases {
+        let net = Net::us();
+        let path = net.write_criteria("c.toml", CRITERIA_US.replace(from, to));
+        let at = format!("{}:{at}", path.display());
+        let run = assert_criteria_refused(&net, &path, &[(&at, says)]);
+        assert!(!run.stderr.contains("0000000000"), "{}", run.stderr);
+        assert_eq!(
+            findings(&run.stderr)
+                .iter()
+                .filter(|f| f.severity == "error")
+                .count(),
+            1,
+            "one error per bad value:\n{}",
+            run.stderr
+        );
+    }
+}
+
+/// A residual floor above the service maximum pressure is an error at the floor; a floor at
+/// or above the service minimum, and a required flow above the search cap, are warnings.
+#[test]
+fn criteria_implausible_floor_and_required_flow() {
+    let net = Net::us();
+    let path = net.write_criteria(
+        "c.toml",
+        CRITERIA_US.replace("residual_floor = 20", "residual_floor = 120"),
+    );
+    let at = format!("{}:8:18", path.display());
+    assert_criteria_refused(
+        &net,
+        &path,
+        &[(&at, "is above [service] max_pressure 100 psi")],
+    );
+
+    let net = Net::us();
+    let path = net.write_criteria(
+        "c.toml",
+        CRITERIA_US
+            .replace("residual_floor = 20", "residual_floor = 45")
+            .replace(
+                "default_required_flow = 1000",
+                "default_required_flow = 9000",
+            ),
+    );
+    let mut args = check_args(&net, &path, &["--quiet"]);
+    args.truncate(args.len() - 2); // no --out
+    let run = firemain(&args);
+    run.assert_no_panic();
+    assert!(matches!(run.code, Some(0) | Some(1)), "{}", run.text());
+    let at = format!("{}:8:18", path.display());
+    assert_finding(
+        &run.stderr,
+        "warning",
+        &at,
+        "not below [service] min_pressure 40 psi",
+    );
+    let at = format!("{}:11:25", path.display());
+    assert_finding(
+        &run.stderr,
+        "warning",
+        &at,
+        "above [fire] search_cap 8000 gpm",
+    );
+}
+
 /// A residual floor that is zero, negative or NaN is refused at its value.
 #[test]
 fn criteria_non_positive_floor() {

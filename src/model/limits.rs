@@ -97,8 +97,9 @@ impl Limit {
             .unwrap_or_default()
     }
 
-    /// What is wrong with `value_si` (outside the limit), in the file's units.
-    pub fn message(&self, what: &str, value_si: f64, units: UnitSystem) -> String {
+    /// What is wrong with `value` (outside the limit), given as written in the file's units
+    /// (not converted: 1e308 psi would overflow to infinity in kPa).
+    pub fn message(&self, what: &str, value: f64, units: UnitSystem) -> String {
         let u = self.unit(units);
         let range = if self.min_si == f64::NEG_INFINITY {
             format!("at most {}{u}", self.show(self.max_si, units))
@@ -111,7 +112,7 @@ impl Limit {
         };
         format!(
             "{what} {}{u} is beyond {} (firemain accepts {range})",
-            self.show(value_si, units),
+            display_value(value),
             self.beyond
         )
     }
@@ -192,12 +193,12 @@ mod tests {
     fn messages_are_in_the_files_units_and_short() {
         // 1e300 in: the number is shown with an exponent, the limit in in (10 m = 393.701 in,
         // from 1 in = 25.4 mm exactly).
-        let m = DIAMETER.message("diameter", 1e300 * 0.0254, UnitSystem::Us);
+        let m = DIAMETER.message("diameter", 1e300, UnitSystem::Us);
         assert_eq!(
             m,
             "diameter 1e300 in is beyond any water main (firemain accepts at most 393.701 in)"
         );
-        let m = DEMAND.message("demand", -200.0, UnitSystem::Si);
+        let m = DEMAND.message("demand", -200_000.0, UnitSystem::Si);
         assert!(
             m.contains("-200000 L/s") && m.contains("between -100000 and 100000 L/s"),
             "{m}"

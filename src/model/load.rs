@@ -827,6 +827,7 @@ impl Reader {
                 None => None,
             };
             let class = c.text("class").map(str::to_string);
+            let class_column = t.cell(row, "class").column;
             let position = c.position();
             let junction = if junction_cell.is_empty() {
                 self.diags.error(
@@ -890,6 +891,7 @@ impl Reader {
                 class,
                 position,
                 line: row.line,
+                class_column,
             });
         }
         out
@@ -1011,11 +1013,17 @@ impl<'a> Cells<'a, '_> {
         if limit.holds(v) {
             return Some(v);
         }
-        let loc = self.cell(name).location(self.file());
+        let cell = self.cell(name);
+        let loc = cell.location(self.file());
+        // The value as written: converting 1e308 psi to kPa would overflow to infinity.
+        let written = cell
+            .text
+            .parse::<f64>()
+            .unwrap_or_else(|_| limit.quantity.map_or(v, |q| self.units.from_si(q, v)));
         let what = format!("`{name}`");
         self.diags.error(
             loc,
-            limit.message(&what, v, self.units),
+            limit.message(&what, written, self.units),
             limit.fix(&what, self.units),
         );
         None
