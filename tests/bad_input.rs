@@ -599,6 +599,50 @@ fn cr_only_line_ends() {
     assert!(located, "{}", run.stdout);
 }
 
+/// A file delimited by semicolons or tabs (as spreadsheets write where the comma is the
+/// decimal mark) is one error naming the delimiter at the header's line, not one "column
+/// missing" error per required column.
+#[test]
+fn foreign_delimiter_is_named() {
+    for (delimiter, named) in [(";", "';'"), ("\t", "a tab")] {
+        let net = Net::us();
+        net.write(
+            "pipes.csv",
+            format!("# exported\n{}", PIPES_US.replace(',', delimiter)),
+        );
+        let run = assert_refused(
+            &net,
+            &[(
+                "pipes.csv:2",
+                &format!(
+                    "pipes.csv uses {named} as its delimiter; firemain reads comma-separated files"
+                ),
+            )],
+        );
+        assert_eq!(findings(&run.stdout).len(), 1, "{}", run.stdout);
+    }
+}
+
+/// A file with lone-CR line ends (old Mac style) that starts with a comment is read, not
+/// reported empty, and a note names its line ends.
+#[test]
+fn cr_only_line_ends_after_a_comment() {
+    let net = Net::us();
+    net.write(
+        "junctions.csv",
+        "# exported\rid,elevation,demand\rJ1,100,10\rJ2,105,20\rJ3,110,15\r",
+    );
+    let run = validate(&net);
+    run.assert_code(0);
+    assert_finding(
+        &run.stdout,
+        "note",
+        "junctions.csv",
+        "lone CR (old Mac style)",
+    );
+    assert!(!run.stdout.contains("empty"), "{}", run.stdout);
+}
+
 // ---------------------------------------------------------------------------------------------
 // Numbers
 
