@@ -9,9 +9,10 @@ use std::path::Path;
 use serde::Deserialize;
 use toml::Spanned;
 
+use crate::model::limits::{self, Limit};
 use crate::model::toml_input::{read_toml, span_location};
 use crate::model::{Diagnostics, Location, Network};
-use crate::units::{Quantity, UnitSystem};
+use crate::units::{display_value, Quantity, UnitSystem};
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -127,6 +128,7 @@ impl Criteria {
 pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics> {
     let file = path.display().to_string();
     let mut diags = Diagnostics::new();
+    let mut warnings = Diagnostics::new();
     let parsed: Option<(CriteriaFile, String)> = read_toml(
         path,
         &file,
@@ -152,14 +154,23 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
             ),
         );
     }
+    // A positive number within `limit` (magnitudes beyond any water system are errors too).
     let positive = |v: &Spanned<f64>, what: &str, q: Quantity, diags: &mut Diagnostics| {
         let x = *v.get_ref();
         if !(x.is_finite() && x > 0.0) {
             diags.error(
                 at(v.span()),
-                format!("{what} must be a positive number, got {x}"),
+                format!("{what} must be a positive number, got {}", display_value(x)),
                 format!("give {what} in {}", units.symbol(q)),
             );
+        } else if let Some(limit) = limit_of(q) {
+            if !limit.holds(units.to_si(q, x)) {
+                diags.error(
+                    at(v.span()),
+                    limit.message(what, x, units),
+                    limit.fix(what, units),
+                );
+            }
         }
         units.to_si(q, x)
     };
@@ -175,7 +186,7 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         Quantity::Pressure,
         &mut diags,
     );
-    if service_max_kpa <= service_min_kpa {
+    if service_max_kpa <= service_min_kpa && service_min_kpa > 0.0 && service_max_kpa > 0.0 {
         diags.error(
             at(c.service.max_pressure.span()),
             "[service] max_pressure must be above min_pressure",
@@ -194,6 +205,34 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         Quantity::Flow,
         &mut diags,
     );
+    let pressure = |v: &Spanned<f64>| display_value(*v.get_ref());
+    let psym = units.symbol(Quantity::Pressure);
+    // Compared only when both are in range (an out-of-range value is already an error).
+    let in_range = |kpa: f64| kpa > 0.0 && limits::PRESSURE.holds(kpa);
+    let compare = in_range(residual_floor_kpa) && in_range(service_max_kpa);
+    if compare && residual_floor_kpa > service_max_kpa {
+        diags.error(
+            at(c.fire.residual_floor.span()),
+            format!(
+                "[fire] residual_floor {} {psym} is above [service] max_pressure {} {psym}: no junction that passes the service check could keep it during a fire flow",
+                pressure(&c.fire.residual_floor),
+                pressure(&c.service.max_pressure),
+            ),
+            "check the two values and their unit; a residual floor is usually 20 psi (140 kPa)",
+        );
+    } else if compare && in_range(service_min_kpa) && residual_floor_kpa >= service_min_kpa {
+        // Common practice, no source: the fire-flow floor (e.g. 20 psi) lies below the
+        // everyday service minimum (e.g. 35-40 psi).
+        warnings.warning(
+            at(c.fire.residual_floor.span()),
+            format!(
+                "[fire] residual_floor {} {psym} is not below [service] min_pressure {} {psym} (usually the fire-flow floor is the lower one; common practice)",
+                pressure(&c.fire.residual_floor),
+                pressure(&c.service.min_pressure),
+            ),
+            "check the two values: a residual floor is usually 20 psi (140 kPa), a service minimum 35-40 psi",
+        );
+    }
     let scope = match c.fire.scope.get_ref().as_str() {
         "system" => Scope::System,
         "zone" => Scope::Zone,
@@ -268,7 +307,17 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
                         if !(x.is_finite() && x > 0.0) {
                             diags.error(
                                 at(v.span()),
-                                format!("[upsizing] new_pipe_roughness must be positive, got {x}"),
+                                format!(
+                                    "[upsizing] new_pipe_roughness must be positive, got {}",
+                                    display_value(x)
+                                ),
+                                "give the Hazen-Williams C of new pipe (e.g. 130)",
+                            );
+                        } else if !limits::C_FACTOR.holds(x) {
+                            let what = "[upsizing] new_pipe_roughness";
+                            diags.error(
+                                at(v.span()),
+                                limits::C_FACTOR.message(what, x, units),
                                 "give the Hazen-Williams C of new pipe (e.g. 130)",
                             );
                         }
@@ -288,45 +337,16 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         None => (None, None),
     };
 
-    // Every hydrant needs a required flow; a class the set does not list falls back on the
-    // default, which deserves a word.
-    let mut warnings = Diagnostics::new();
+    check_required_above_cap(&c.fire, units, search_cap_m3s, &at, &mut warnings);
+    let classes: Vec<&str> = c.fire.required_flow.keys().map(String::as_str).collect();
+    let resolution = ClassCheck {
+        file: &file,
+        classes: &classes,
+        by_class: &required_flow_by_class,
+        has_default: default_required_flow_m3s.is_some(),
+    };
     for h in &net.hydrants {
-        let class_known = h
-            .class
-            .as_ref()
-            .is_some_and(|c| required_flow_by_class.contains_key(&class_key(c)));
-        if let (Some(class), false, None, Some(_)) = (
-            &h.class,
-            class_known,
-            h.required_flow_m3s,
-            default_required_flow_m3s,
-        ) {
-            warnings.warning(
-                Location::line("hydrants.csv", h.line),
-                format!(
-                    "hydrant `{}` has class `{class}`, which {file} does not list: its default_required_flow applies",
-                    h.id
-                ),
-                "add the class under [fire.required_flow], or correct the class name",
-            );
-        }
-        if h.required_flow_m3s.is_none() && !class_known && default_required_flow_m3s.is_none() {
-            diags.error(
-                Location::line("hydrants.csv", h.line),
-                match &h.class {
-                    Some(class) => format!(
-                        "hydrant `{}` has class `{class}`, which {file} does not list, and the criteria give no default_required_flow",
-                        h.id
-                    ),
-                    None => format!(
-                        "hydrant `{}` has no required_flow and no class, and {file} gives no default_required_flow",
-                        h.id
-                    ),
-                },
-                "add the class under [fire.required_flow], set [fire] default_required_flow, or give the hydrant a required_flow",
-            );
-        }
+        resolution.check(h, &mut diags, &mut warnings);
     }
     if diags.has_errors() {
         return Err(diags);
@@ -351,7 +371,155 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
     })
 }
 
+/// The limit beyond any water system of a criteria value of quantity `q`.
+fn limit_of(q: Quantity) -> Option<&'static Limit> {
+    match q {
+        Quantity::Pressure => Some(&limits::PRESSURE),
+        Quantity::Flow => Some(&limits::FLOW),
+        Quantity::Velocity => Some(&limits::VELOCITY),
+        Quantity::Diameter => Some(&limits::DIAMETER),
+        Quantity::Length => None,
+    }
+}
+
+/// Warns about required flows (the default or a class's) above the search cap: no hydrant
+/// that needs one can pass, because no flow above the cap is searched.
+fn check_required_above_cap(
+    fire: &FireTable,
+    units: UnitSystem,
+    cap_m3s: f64,
+    at: &dyn Fn(std::ops::Range<usize>) -> Location,
+    warnings: &mut Diagnostics,
+) {
+    let named = fire
+        .default_required_flow
+        .iter()
+        .map(|v| ("[fire] default_required_flow".to_string(), v))
+        .chain(
+            fire.required_flow
+                .iter()
+                .map(|(class, v)| (format!("[fire.required_flow] {class}"), v)),
+        );
+    let f = units.symbol(Quantity::Flow);
+    for (what, v) in named {
+        let q = units.to_si(Quantity::Flow, *v.get_ref());
+        if q.is_finite() && q > cap_m3s && cap_m3s > 0.0 {
+            warnings.warning(
+                at(v.span()),
+                format!(
+                    "{what} {} {f} is above [fire] search_cap {} {f}: a hydrant that needs it can never pass",
+                    display_value(*v.get_ref()),
+                    display_value(units.from_si(Quantity::Flow, cap_m3s)),
+                ),
+                "raise search_cap to at least the largest required flow, or check the value",
+            );
+        }
+    }
+}
+
+/// Resolves each hydrant's class against the criteria's `[fire.required_flow]`.
+struct ClassCheck<'a> {
+    file: &'a str,
+    /// The class names as the criteria file writes them.
+    classes: &'a [&'a str],
+    by_class: &'a BTreeMap<String, f64>,
+    has_default: bool,
+}
+
+impl ClassCheck<'_> {
+    /// A class the criteria do not list is an error when it would decide the required flow
+    /// (falling back on the default could understate the requirement: `comercial` would get
+    /// the residential default), and a warning when the hydrant's own required_flow applies.
+    /// A hydrant with no class takes the default; with no default either, it is an error.
+    fn check(
+        &self,
+        h: &crate::model::Hydrant,
+        diags: &mut Diagnostics,
+        warnings: &mut Diagnostics,
+    ) {
+        let file = self.file;
+        let Some(class) = &h.class else {
+            if h.required_flow_m3s.is_none() && !self.has_default {
+                diags.error(
+                    Location::line("hydrants.csv", h.line),
+                    format!(
+                        "hydrant `{}` has no required_flow and no class, and {file} gives no default_required_flow",
+                        h.id
+                    ),
+                    "add the class under [fire.required_flow], set [fire] default_required_flow, or give the hydrant a required_flow",
+                );
+            }
+            return;
+        };
+        if self.by_class.contains_key(&class_key(class)) {
+            return;
+        }
+        let location = if h.class_column > 0 {
+            Location::cell("hydrants.csv", h.line, h.class_column)
+        } else {
+            Location::line("hydrants.csv", h.line)
+        };
+        let suggestion = match nearest_class(class, self.classes) {
+            Some(near) => format!(" (did you mean `{near}`?)"),
+            None if self.classes.is_empty() => " (it lists no classes)".to_string(),
+            None => format!(" (it lists: {})", self.classes.join(", ")),
+        };
+        let message = format!(
+            "hydrant `{}` has class `{class}`, which {file} does not list under [fire.required_flow]{suggestion}",
+            h.id
+        );
+        let otherwise = if self.has_default {
+            "; leave the class empty to use default_required_flow"
+        } else {
+            ", or give the hydrant its own required_flow"
+        };
+        let fix = match nearest_class(class, self.classes) {
+            Some(near) => format!(
+                "write `{near}`, or add `{class}` under [fire.required_flow] in {file}{otherwise}"
+            ),
+            None => format!(
+                "correct the class, or add `{class}` under [fire.required_flow] in {file}{otherwise}"
+            ),
+        };
+        if h.required_flow_m3s.is_some() {
+            warnings.warning(
+                location,
+                format!("{message}; its own required_flow applies"),
+                fix,
+            );
+        } else {
+            diags.error(location, message, fix);
+        }
+    }
+}
+
+/// The listed class nearest to `class` by edit distance (Levenshtein, without case), when it
+/// is close enough to be a typing slip: at most 2 edits, or a third of the name's length.
+fn nearest_class<'a>(class: &str, listed: &[&'a str]) -> Option<&'a str> {
+    let key = class_key(class);
+    listed
+        .iter()
+        .map(|&name| (strsim::levenshtein(&key, &class_key(name)), name))
+        .filter(|&(d, _)| d <= 2 || 3 * d <= key.chars().count())
+        .min_by_key(|&(d, _)| d)
+        .map(|(_, name)| name)
+}
+
 /// Class names are compared without case or surrounding spaces.
 fn class_key(class: &str) -> String {
     class.trim().to_lowercase()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn nearest_class_suggests_only_close_names() {
+        // Levenshtein distances counted by hand: comercial -> commercial is one insertion.
+        let listed = ["commercial", "industrial", "residential"];
+        assert_eq!(nearest_class("comercial", &listed), Some("commercial"));
+        assert_eq!(nearest_class("Residental", &listed), Some("residential"));
+        assert_eq!(nearest_class("school", &listed), None);
+    }
 }

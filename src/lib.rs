@@ -4,6 +4,7 @@
 //! Data flows one way: [`model`] (read, validate, convert to SI) -> [`hydraulics`] (steady-state
 //! solve) -> analyses -> report. The library never prints and never exits.
 
+pub mod cli;
 pub mod criteria;
 pub mod fireflow;
 pub mod hydraulics;

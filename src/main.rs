@@ -196,6 +196,17 @@ fn solve_command(
     ExitStatus::Success
 }
 
+/// `--threads` checked against this machine's cores; `None` after printing the error.
+fn threads_arg(requested: Option<usize>) -> Option<Option<usize>> {
+    match firemain::cli::check_threads(requested, firemain::cli::available_cores()) {
+        Ok(threads) => Some(threads),
+        Err(e) => {
+            eprintln!("firemain: {e}");
+            None
+        }
+    }
+}
+
 /// Reads the criteria for `net`, printing their warnings or errors; `None` on errors.
 fn criteria_for(
     path: &std::path::Path,
@@ -265,7 +276,7 @@ struct CheckArgs {
     /// Analyse only this hydrant (repeatable).
     #[arg(long = "hydrant", value_name = "ID")]
     hydrants: Vec<String>,
-    /// Worker threads (default: all cores).
+    /// Worker threads, 1 to min(4 x cores, 1024) (default: all cores).
     #[arg(long)]
     threads: Option<usize>,
     /// No progress bar or messages on stderr.
@@ -311,6 +322,9 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
     use firemain::report::check::CheckReport;
     use firemain::service::service_check;
 
+    let Some(threads) = threads_arg(args.threads) else {
+        return ExitStatus::InputError;
+    };
     if !output_folder_ok(args.out.as_deref(), &args.network) {
         return ExitStatus::InputError;
     }
@@ -327,10 +341,6 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
     let partial = !indices.is_empty();
     if !partial {
         indices = (0..net.hydrants.len()).collect();
-    }
-    if args.threads == Some(0) {
-        eprintln!("firemain: --threads must be at least 1");
-        return ExitStatus::InputError;
     }
     let hydraulics = match Hydraulics::new(net) {
         Ok(h) => h,
@@ -367,7 +377,7 @@ fn check_command(args: &CheckArgs) -> ExitStatus {
             bar.set_position(done as u64);
         }
     };
-    let (results, stats) = match sweep(&setup, &indices, args.threads, &progress) {
+    let (results, stats) = match sweep(&setup, &indices, threads, &progress) {
         Ok(r) => r,
         Err(e) => {
             eprintln!("firemain: cannot start worker threads: {e}");
@@ -450,7 +460,7 @@ struct UpsizeArgs {
     /// proposed-network/ here.
     #[arg(long)]
     out: Option<PathBuf>,
-    /// Worker threads (default: all cores).
+    /// Worker threads, 1 to min(4 x cores, 1024) (default: all cores).
     #[arg(long)]
     threads: Option<usize>,
     /// No progress messages on stderr.
@@ -490,6 +500,9 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
     };
 
     // The proposed network goes to OUT/proposed-network, which must not be the network itself.
+    let Some(threads) = threads_arg(args.threads) else {
+        return ExitStatus::InputError;
+    };
     let proposed_dir = args.out.as_ref().map(|o| o.join(PROPOSED_NETWORK));
     if !output_folder_ok(args.out.as_deref(), &args.network)
         || !output_folder_ok(proposed_dir.as_deref(), &args.network)
@@ -506,10 +519,6 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
     let Some(selected) = selected_hydrants(net, &args.hydrants) else {
         return ExitStatus::InputError;
     };
-    if args.threads == Some(0) {
-        eprintln!("firemain: --threads must be at least 1");
-        return ExitStatus::InputError;
-    }
     let units = net.units;
     let given: Vec<f64> = match &args.sizes {
         Some(v) => v.clone(),
@@ -568,7 +577,7 @@ fn upsize_command(args: &UpsizeArgs) -> ExitStatus {
         costs: costs.clone(),
         hydrants: (!selected.is_empty()).then(|| selected.clone()),
         budget: args.budget,
-        threads: args.threads,
+        threads,
     };
     let spinner = (!args.quiet && {
         use std::io::IsTerminal;

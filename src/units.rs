@@ -117,6 +117,32 @@ impl UnitSystem {
     }
 }
 
+/// A number as messages show it: at most six significant digits without trailing zeros, and an
+/// exponent for magnitudes from a billion up or below a thousandth (`1e300`, not 301 digits).
+pub fn display_value(x: f64) -> String {
+    if !x.is_finite() || x == 0.0 {
+        return format!("{}", if x == 0.0 { 0.0 } else { x });
+    }
+    let a = x.abs();
+    if !(1.0e-3..1.0e9).contains(&a) {
+        let s = format!("{x:.5e}");
+        let (mantissa, exponent) = s.split_once('e').unwrap_or((&s, "0"));
+        let mantissa = trim_zeros(mantissa);
+        return format!("{mantissa}e{exponent}");
+    }
+    let integer_digits = a.log10().floor() as i32 + 1;
+    let decimals = (6 - integer_digits).max(0) as usize;
+    trim_zeros(&format!("{x:.decimals$}")).to_string()
+}
+
+fn trim_zeros(s: &str) -> &str {
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.')
+    } else {
+        s
+    }
+}
+
 /// Pressure in kPa from a head above the point, in metres of water.
 pub fn pressure_kpa_from_head_m(head_m: f64) -> f64 {
     head_m * KPA_PER_M_OF_HEAD
@@ -150,6 +176,20 @@ mod tests {
         assert_relative_eq!(gpm_per_lps, 15.8503, max_relative = 1e-5);
         let gpm_per_cfs = M_PER_FT.powi(3) / M3S_PER_GPM;
         assert_relative_eq!(gpm_per_cfs, 448.831, max_relative = 1e-5);
+    }
+
+    #[test]
+    fn display_value_never_runs_to_hundreds_of_digits() {
+        // common practice, no source: the shapes firemain's messages promise.
+        assert_eq!(display_value(1e300), "1e300");
+        assert_eq!(display_value(-2.5e12), "-2.5e12");
+        assert_eq!(display_value(1.0e-7), "1e-7");
+        assert_eq!(display_value(200.0), "200");
+        assert_eq!(display_value(0.11), "0.11");
+        assert_eq!(display_value(393.7007874), "393.701");
+        assert_eq!(display_value(328083.99), "328084");
+        assert_eq!(display_value(0.0), "0");
+        assert_eq!(display_value(-0.0), "0");
     }
 
     #[test]

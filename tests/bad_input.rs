@@ -599,6 +599,50 @@ fn cr_only_line_ends() {
     assert!(located, "{}", run.stdout);
 }
 
+/// A file delimited by semicolons or tabs (as spreadsheets write where the comma is the
+/// decimal mark) is one error naming the delimiter at the header's line, not one "column
+/// missing" error per required column.
+#[test]
+fn foreign_delimiter_is_named() {
+    for (delimiter, named) in [(";", "';'"), ("\t", "a tab")] {
+        let net = Net::us();
+        net.write(
+            "pipes.csv",
+            format!("# exported\n{}", PIPES_US.replace(',', delimiter)),
+        );
+        let run = assert_refused(
+            &net,
+            &[(
+                "pipes.csv:2",
+                &format!(
+                    "pipes.csv uses {named} as its delimiter; firemain reads comma-separated files"
+                ),
+            )],
+        );
+        assert_eq!(findings(&run.stdout).len(), 1, "{}", run.stdout);
+    }
+}
+
+/// A file with lone-CR line ends (old Mac style) that starts with a comment is read, not
+/// reported empty, and a note names its line ends.
+#[test]
+fn cr_only_line_ends_after_a_comment() {
+    let net = Net::us();
+    net.write(
+        "junctions.csv",
+        "# exported\rid,elevation,demand\rJ1,100,10\rJ2,105,20\rJ3,110,15\r",
+    );
+    let run = validate(&net);
+    run.assert_code(0);
+    assert_finding(
+        &run.stdout,
+        "note",
+        "junctions.csv",
+        "lone CR (old Mac style)",
+    );
+    assert!(!run.stdout.contains("empty"), "{}", run.stdout);
+}
+
 // ---------------------------------------------------------------------------------------------
 // Numbers
 
@@ -696,6 +740,19 @@ fn non_positive_demand_factor() {
         MODEL_US.replace("max_day_factor = 1.5", "max_day_factor = -1"),
     );
     assert_refused(&net, &[("model.toml:5:18", "max_day_factor")]);
+}
+
+/// A demand factor beyond any demand pattern (1e300) is refused at its value, shown with an
+/// exponent rather than 301 digits.
+#[test]
+fn absurd_demand_factor() {
+    let net = Net::us();
+    net.write(
+        "model.toml",
+        MODEL_US.replace("peak_hour_factor = 2.5", "peak_hour_factor = 1e300"),
+    );
+    let run = assert_refused(&net, &[("model.toml:6:20", "peak_hour_factor 1e300")]);
+    assert!(!run.stdout.contains("000000000000"), "{}", run.stdout);
 }
 
 /// An unknown word for a model.toml setting is refused at its line and column.
@@ -966,6 +1023,217 @@ fn two_prvs_controlling_one_junction() {
 }
 
 // ---------------------------------------------------------------------------------------------
+// What the solver cannot handle: no resistance, magnitudes beyond any water system
+
+/// A pipe of zero length without a minor loss has no resistance at all: an error at its
+/// length cell (line 3, field 4), not a warning.
+#[test]
+fn zero_length_pipe_without_minor_loss() {
+    let net = Net::us();
+    net.write("pipes.csv", PIPES_US.replace("P2,J1,J2,500", "P2,J1,J2,0"));
+    assert_refused(
+        &net,
+        &[(
+            "pipes.csv:3:4",
+            "pipe `P2` has zero length and no minor loss",
+        )],
+    );
+}
+
+/// Magnitudes beyond any water system are errors at their cell, in the network's units, and
+/// never printed as hundreds of digits. The limits are firemain's own (docs/network-format.md,
+/// common practice, no source): diameter 10 m = 393.701 in = 10000 mm (1 in = 25.4 mm exactly),
+/// length 100 km = 328084 ft (1 ft = 0.3048 m exactly), demand 100 m³/s = 1585032 gpm =
+/// 100000 L/s (1 US gal = 3.785411784 L exactly), elevation 10 km.
+#[test]
+fn magnitudes_beyond_any_water_system() {
+    let us_cases: [(&str, &str, &str, &str, &str); 5] = [
+        ("pipes.csv", "P2,J1,J2,500,8", "P2,J1,J2,500,1e300", "pipes.csv:3:5", "`diameter` 1e300 in is beyond any water main (firemain accepts at most 393.701 in)"),
+        ("pipes.csv", "P2,J1,J2,500", "P2,J1,J2,400000", "pipes.csv:3:4", "`length` 400000 ft is beyond any water main"),
+        ("junctions.csv", "J2,105,20", "J2,105,1e12", "junctions.csv:3:3", "`demand` 1e12 gpm is beyond any water system (firemain accepts between -1585032 and 1585032 gpm)"),
+        ("junctions.csv", "J2,105,20", "J2,-40000,20", "junctions.csv:3:2", "`elevation` -40000 ft is beyond any water system"),
+        ("sources.csv", "R1,reservoir,300", "R1,reservoir,1e6", "sources.csv:2:3", "`grade` 1000000 ft is beyond any water system"),
+    ];
+    for (file, from, to, at, says) in us_cases {
+        let net = Net::us();
+        let original = match file {
+            "pipes.csv" => PIPES_US,
+            "junctions.csv" => JUNCTIONS_US,
+            _ => SOURCES_US,
+        };
+        net.write(file, original.replace(from, to));
+        let run = assert_refused(&net, &[(at, says)]);
+        assert!(!run.stdout.contains("0000000000"), "{}", run.stdout);
+    }
+    // The same in an SI network: mm, m and L/s.
+    let si_cases: [(&str, &str, &str, &str, &str); 2] = [
+        ("pipes.csv", "P2,J1,J2,150,200", "P2,J1,J2,150,20000", "pipes.csv:3:5", "`diameter` 20000 mm is beyond any water main (firemain accepts at most 10000 mm)"),
+        ("junctions.csv", "J2,32,2", "J2,32,-2e5", "junctions.csv:3:3", "`demand` -200000 L/s is beyond any water system (firemain accepts between -100000 and 100000 L/s)"),
+    ];
+    for (file, from, to, at, says) in si_cases {
+        let net = Net::si();
+        let original = if file == "pipes.csv" {
+            PIPES_SI
+        } else {
+            JUNCTIONS_SI
+        };
+        net.write(file, original.replace(from, to));
+        assert_refused_by(
+            &net,
+            &[OsString::from("validate"), net.dir().into()],
+            &[(at, says)],
+        );
+    }
+}
+
+/// Roughness outside any pipe's range is an error; merely unusual values stay warnings (see
+/// `warning_hazen_williams_c_out_of_range`). A C of 0.011 (a Manning n) and of 1000; a
+/// Darcy-Weisbach roughness above half the diameter.
+#[test]
+fn roughness_beyond_any_pipe() {
+    for bad in ["0.011", "1000"] {
+        let net = Net::us();
+        net.write(
+            "pipes.csv",
+            PIPES_US.replace("P2,J1,J2,500,8,120", &format!("P2,J1,J2,500,8,{bad}")),
+        );
+        assert_refused(
+            &net,
+            &[(
+                "pipes.csv:3:6",
+                &format!("`roughness` {bad} is beyond any pipe's Hazen-Williams C"),
+            )],
+        );
+    }
+    let net = Net::si();
+    net.write(
+        "model.toml",
+        MODEL_SI.replace("hazen-williams", "darcy-weisbach"),
+    );
+    net.write(
+        "pipes.csv",
+        "id,from,to,length,diameter,roughness\nP1,R1,J1,150,200,0.1\nP2,J1,J2,150,200,150\nP3,J2,J3,150,200,0.1\n",
+    );
+    assert_refused_by(
+        &net,
+        &[OsString::from("validate"), net.dir().into()],
+        &[(
+            "pipes.csv:3:6",
+            "`roughness` 150 mm is more than half the diameter 200 mm",
+        )],
+    );
+}
+
+/// Pump, valve and hydrant magnitudes beyond any water system are errors at their cell.
+#[test]
+fn pump_valve_and_hydrant_magnitudes() {
+    let net = net_with_pump("PU1,R1,J1,1e5,1000,80,1700,52,1,on");
+    assert_refused(
+        &net,
+        &[(
+            "pumps.csv:2:4",
+            "`shutoff_head` 100000 ft is beyond any pump",
+        )],
+    );
+    let net = net_with_pump("PU1,R1,J1,108,1000,80,1700,52,1e3,on");
+    assert_refused(
+        &net,
+        &[("pumps.csv:2:9", "`speed` 1000 is beyond any pump drive")],
+    );
+    let net = net_with_valves(&["V1,J2,J4,prv,8,1e9,,active"]);
+    assert_refused(
+        &net,
+        &[(
+            "valves.csv:2:6",
+            "`setting` 1e9 psi is beyond any water system",
+        )],
+    );
+    let net = Net::us();
+    net.write("hydrants.csv", "id,junction,required_flow\nH1,J3,5e6\n");
+    assert_refused(
+        &net,
+        &[(
+            "hydrants.csv:2:3",
+            "`required_flow` 5000000 gpm is beyond any water system",
+        )],
+    );
+}
+
+// ---------------------------------------------------------------------------------------------
+// Knock-on errors and the error cap
+
+/// A node file that cannot be read, is empty, or has no rows gives its own error and no error
+/// for each reference to its nodes from pipes.csv and hydrants.csv.
+#[test]
+fn no_knock_on_errors_from_an_unreadable_node_file() {
+    let cases: [(&str, Option<&str>, &str); 4] = [
+        ("junctions.csv", None, "cannot read"),
+        ("junctions.csv", Some(""), "empty"),
+        ("junctions.csv", Some("id,elevation\n"), "no junctions"),
+        (
+            "sources.csv",
+            Some("id;kind;grade\nR1;reservoir;300\n"),
+            "delimiter",
+        ),
+    ];
+    for (file, contents, says) in cases {
+        let net = Net::us();
+        match contents {
+            None => {
+                net.remove(file);
+            }
+            Some(text) => {
+                net.write(file, text);
+            }
+        }
+        let run = assert_refused(&net, &[(file, says)]);
+        let errors: Vec<_> = findings(&run.stdout)
+            .into_iter()
+            .filter(|f| f.severity == "error")
+            .collect();
+        assert_eq!(errors.len(), 1, "{file}: {}", run.stdout);
+    }
+}
+
+/// A junction row with an error (a bad elevation) gives one error, not one more for each pipe
+/// and hydrant that names the junction.
+#[test]
+fn no_knock_on_errors_from_a_bad_node_row() {
+    let net = Net::us();
+    net.write("junctions.csv", JUNCTIONS_US.replace("J3,110", "J3,1x0"));
+    let run = assert_refused(
+        &net,
+        &[("junctions.csv:4:2", "`1x0` is not a finite number")],
+    );
+    assert!(!run.stdout.contains("J3` is not"), "{}", run.stdout);
+    assert_eq!(findings(&run.stdout).len(), 1, "{}", run.stdout);
+}
+
+/// Past 50 errors the rest are counted, not printed; the count stays exact.
+#[test]
+fn errors_are_capped_at_50() {
+    let net = Net::us();
+    let mut pipes = String::from(PIPES_US);
+    for i in 0..120 {
+        pipes.push_str(&format!("X{i},J1,J2,500,-8,120\n"));
+    }
+    net.write("pipes.csv", pipes);
+    let run = validate(&net);
+    run.assert_code(2);
+    let errors = findings(&run.stdout)
+        .iter()
+        .filter(|f| f.severity == "error")
+        .count();
+    assert_eq!(errors, 50, "{}", run.stdout);
+    assert!(
+        run.stdout.contains("... and 70 more errors"),
+        "{}",
+        run.stdout
+    );
+    assert!(run.stdout.contains("120 error(s)"), "{}", run.stdout);
+}
+
+// ---------------------------------------------------------------------------------------------
 // Criteria files
 
 /// A criteria file without a required key is refused at its table (`[fire]`, line 7).
@@ -1027,6 +1295,160 @@ fn criteria_unknown_class_without_default() {
     let run = assert_criteria_refused(&net, &path, &[("hydrants.csv:2", "class `commercial`")]);
     let message = assert_finding(&run.stderr, "error", "hydrants.csv:2", "commercial");
     assert!(message.contains("c.toml"), "{message}");
+}
+
+/// A hydrant class the criteria do not list (a typing slip, `comercial`) is an error even when
+/// the criteria give a default flow, at the class cell (line 2, field 3), naming the criteria
+/// file and suggesting the nearest listed class (one edit away).
+#[test]
+fn criteria_unknown_class_with_did_you_mean() {
+    let net = Net::us();
+    net.write("hydrants.csv", "id,junction,class\nH1,J3,comercial\n");
+    let path = net.write_criteria(
+        "c.toml",
+        format!("{CRITERIA_US}[fire.required_flow]\nresidential = 1000\ncommercial = 1500\n"),
+    );
+    let run = assert_criteria_refused(
+        &net,
+        &path,
+        &[("hydrants.csv:2:3", "class `comercial`, which")],
+    );
+    let message = assert_finding(&run.stderr, "error", "hydrants.csv:2:3", "comercial");
+    assert!(
+        message.contains("c.toml") && message.contains("did you mean `commercial`?"),
+        "{message}"
+    );
+    // upsize resolves classes the same way.
+    let upsize: Vec<OsString> = vec![
+        "upsize".into(),
+        net.dir().into(),
+        "--criteria".into(),
+        path.clone().into(),
+        "--out".into(),
+        net.out().into(),
+    ];
+    assert_refused_by(&net, &upsize, &[("hydrants.csv:2:3", "comercial")]);
+}
+
+/// A blank class takes the criteria's default; an unlisted class beside the hydrant's own
+/// required_flow is only a warning (the class decides nothing).
+#[test]
+fn criteria_blank_class_takes_the_default() {
+    let net = Net::us();
+    net.write(
+        "hydrants.csv",
+        "id,junction,required_flow,class\nH1,J3,,\nH2,J2,500,comercial\n",
+    );
+    let path = net.write_criteria(
+        "c.toml",
+        format!("{CRITERIA_US}[fire.required_flow]\ncommercial = 1500\n"),
+    );
+    let mut args = check_args(&net, &path, &["--quiet"]);
+    args.truncate(args.len() - 2); // no --out
+    let run = firemain(&args);
+    run.assert_no_panic();
+    assert!(matches!(run.code, Some(0) | Some(1)), "{}", run.text());
+    assert_finding(
+        &run.stderr,
+        "warning",
+        "hydrants.csv:3:4",
+        "its own required_flow applies",
+    );
+    assert!(
+        findings(&run.stderr).iter().all(|f| f.severity != "error"),
+        "{}",
+        run.stderr
+    );
+}
+
+/// Criteria magnitudes beyond any water system are errors at their value, never printed as
+/// hundreds of digits: a floor of 1e308 psi, a search cap of 1e9 gpm. Limits: the pressure of
+/// 10 km of water and 100 m³/s (docs/criteria-format.md; common practice, no source).
+#[test]
+fn criteria_magnitudes_beyond_any_water_system() {
+    let cases = [
+        (
+            "residual_floor = 20",
+            "residual_floor = 1e308",
+            "8:18",
+            "[fire] residual_floor 1e308 psi is beyond any water system",
+        ),
+        (
+            "search_cap = 8000",
+            "search_cap = 1e9",
+            "10:14",
+            "[fire] search_cap 1e9 gpm is beyond any water system",
+        ),
+        (
+            "search_cap = 8000",
+            "search_cap = -8000",
+            "10:14",
+            "[fire] search_cap must be a positive number, got -8000",
+        ),
+    ];
+    for (from, to, at, says) in cases {
+        let net = Net::us();
+        let path = net.write_criteria("c.toml", CRITERIA_US.replace(from, to));
+        let at = format!("{}:{at}", path.display());
+        let run = assert_criteria_refused(&net, &path, &[(&at, says)]);
+        assert!(!run.stderr.contains("0000000000"), "{}", run.stderr);
+        assert_eq!(
+            findings(&run.stderr)
+                .iter()
+                .filter(|f| f.severity == "error")
+                .count(),
+            1,
+            "one error per bad value:\n{}",
+            run.stderr
+        );
+    }
+}
+
+/// A residual floor above the service maximum pressure is an error at the floor; a floor at
+/// or above the service minimum, and a required flow above the search cap, are warnings.
+#[test]
+fn criteria_implausible_floor_and_required_flow() {
+    let net = Net::us();
+    let path = net.write_criteria(
+        "c.toml",
+        CRITERIA_US.replace("residual_floor = 20", "residual_floor = 120"),
+    );
+    let at = format!("{}:8:18", path.display());
+    assert_criteria_refused(
+        &net,
+        &path,
+        &[(&at, "is above [service] max_pressure 100 psi")],
+    );
+
+    let net = Net::us();
+    let path = net.write_criteria(
+        "c.toml",
+        CRITERIA_US
+            .replace("residual_floor = 20", "residual_floor = 45")
+            .replace(
+                "default_required_flow = 1000",
+                "default_required_flow = 9000",
+            ),
+    );
+    let mut args = check_args(&net, &path, &["--quiet"]);
+    args.truncate(args.len() - 2); // no --out
+    let run = firemain(&args);
+    run.assert_no_panic();
+    assert!(matches!(run.code, Some(0) | Some(1)), "{}", run.text());
+    let at = format!("{}:8:18", path.display());
+    assert_finding(
+        &run.stderr,
+        "warning",
+        &at,
+        "not below [service] min_pressure 40 psi",
+    );
+    let at = format!("{}:11:25", path.display());
+    assert_finding(
+        &run.stderr,
+        "warning",
+        &at,
+        "above [fire] search_cap 8000 gpm",
+    );
 }
 
 /// A residual floor that is zero, negative or NaN is refused at its value.
@@ -1095,6 +1517,40 @@ fn zero_threads() {
     let args = check_args(&net, &net.criteria(), &["--threads", "0"]);
     let run = assert_refused_by(&net, &args, &[]);
     assert!(run.stderr.contains("--threads"), "{}", run.stderr);
+}
+
+/// `--threads` above min(4 x cores, 1024) is an input error for `check` and `upsize`, found
+/// at once (not after minutes of starting threads), naming the bound and the fix. 100000 is
+/// above the bound on any machine (the cap is 1024).
+#[test]
+fn too_many_threads() {
+    let net = Net::us();
+    let check = check_args(&net, &net.criteria(), &["--threads", "100000"]);
+    let upsize: Vec<OsString> = vec![
+        "upsize".into(),
+        net.dir().into(),
+        "--criteria".into(),
+        net.criteria().into(),
+        "--threads".into(),
+        "100000".into(),
+        "--out".into(),
+        net.out().into(),
+    ];
+    for args in [check, upsize] {
+        let started = std::time::Instant::now();
+        let run = assert_refused_by(&net, &args, &[]);
+        assert!(
+            started.elapsed() < std::time::Duration::from_secs(30),
+            "refusing --threads took {:?}",
+            started.elapsed()
+        );
+        assert!(
+            run.stderr.contains("--threads 100000 is more than")
+                && run.stderr.contains("fix: give --threads from 1 to"),
+            "{}",
+            run.stderr
+        );
+    }
 }
 
 /// An unknown `--condition` is an input error that lists the accepted values.
@@ -1288,11 +1744,16 @@ fn warning_diameter_in_the_wrong_unit() {
     }
 }
 
-/// A zero-length pipe is a warning, not an error.
+/// A zero-length pipe with a minor loss is a warning, not an error (without a minor loss it is
+/// an error: see `zero_length_pipe_without_minor_loss`).
 #[test]
 fn warning_zero_length_pipe() {
     let net = Net::us();
-    net.write("pipes.csv", PIPES_US.replace("P2,J1,J2,500", "P2,J1,J2,0"));
+    net.write(
+        "pipes.csv",
+        "id,from,to,length,diameter,roughness,minor_loss\n\
+         P1,R1,J1,500,8,120,\nP2,J1,J2,0,8,120,0.5\nP3,J2,J3,500,8,120,\n",
+    );
     assert_warned(&net, "pipes.csv:3", "zero length");
 }
 

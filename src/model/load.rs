@@ -3,20 +3,21 @@
 //! Every problem is collected with its file, line and column; the network is built only when
 //! there is no error. See docs/network-format.md for the format.
 
-use std::collections::{BTreeSet, HashMap};
+use std::collections::{BTreeSet, HashMap, HashSet};
 use std::path::Path;
 
 use serde::Deserialize;
 use toml::Spanned;
 
 use super::diagnostic::{Diagnostics, Location};
+use super::limits::{self, Limit};
 use super::network::{
     DemandFactors, HeadlossFormula, Hydrant, Link, LinkKind, Network, Node, NodeKind, Pipe,
     PipeStatus, Pump, Valve, ValveKind, ValveStatus,
 };
 use super::table::{read_table, Cell, Row, Table, TableSpec};
 use super::toml_input::{read_toml, span_location};
-use crate::units::{Quantity, UnitSystem};
+use crate::units::{display_value, Quantity, UnitSystem};
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -148,6 +149,8 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
         zones: BTreeSet::new(),
         links: Vec::new(),
         link_lines: HashMap::new(),
+        nodes_unreadable: false,
+        broken_nodes: HashSet::new(),
     };
     let demand_factors = reader.demand_factors(&model.demand, &model_text);
 
@@ -156,6 +159,9 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
     };
     let junctions = table("junctions.csv", &JUNCTIONS, &mut reader);
     let sources = table("sources.csv", &SOURCES, &mut reader);
+    reader.nodes_unreadable = [&junctions, &sources]
+        .iter()
+        .any(|t| t.as_ref().is_none_or(|t| t.rows().is_empty()));
     if let Some(t) = &junctions {
         reader.junctions(t);
     }
@@ -240,6 +246,11 @@ struct Reader {
     zones: BTreeSet<String>,
     links: Vec<Link>,
     link_lines: HashMap<String, (String, u64)>,
+    /// A node file (junctions.csv or sources.csv) could not be read or has no rows: references
+    /// to nodes are not checked, so that one bad file gives one error, not one per reference.
+    nodes_unreadable: bool,
+    /// Ids of node rows that had errors: references to them are not errors of their own.
+    broken_nodes: HashSet<String>,
 }
 
 impl Reader {
@@ -250,7 +261,17 @@ impl Reader {
             if !(x.is_finite() && x > 0.0) {
                 diags.error(
                     at(v),
-                    format!("[demand] {name} must be a positive number, got {x}"),
+                    format!(
+                        "[demand] {name} must be a positive number, got {}",
+                        display_value(x)
+                    ),
+                    "give the ratio of the condition's demand to average-day demand (e.g. 1.5)",
+                );
+            } else if !limits::DEMAND_FACTOR.holds(x) {
+                let what = format!("[demand] {name}");
+                diags.error(
+                    at(v),
+                    limits::DEMAND_FACTOR.message(&what, x, UnitSystem::Si),
                     "give the ratio of the condition's demand to average-day demand (e.g. 1.5)",
                 );
             }
@@ -265,7 +286,9 @@ impl Reader {
             self.diags.warning(
                 at(&d.max_day_factor),
                 format!(
-                    "unusual demand factors: max-day {max_day} and peak-hour {peak_hour} (usually 1 <= max-day <= peak-hour)"
+                    "unusual demand factors: max-day {} and peak-hour {} (usually 1 <= max-day <= peak-hour)",
+                    display_value(max_day),
+                    display_value(peak_hour)
                 ),
                 "check [demand] in model.toml; typical values are max-day 1.5-2.0 and peak-hour 2.0-4.0 \
                  (common practice, no source)",
@@ -322,9 +345,24 @@ impl Reader {
         true
     }
 
+    /// Remembers the id of a node row that had errors (already reported).
+    fn broken_row_id(&mut self, t: &Table, row: &Row) {
+        let id = t.cell(row, "id");
+        if !id.is_empty() {
+            self.broken_nodes.insert(id.text.to_string());
+        }
+    }
+
+    /// Whether a reference to the unknown node `id` is only a consequence of an error already
+    /// reported (an unreadable node file, or a node row with errors).
+    fn knock_on(&self, id: &str) -> bool {
+        self.nodes_unreadable || self.broken_nodes.contains(id)
+    }
+
     fn node_ref(&mut self, cell: &Cell<'_>, file: &str, what: &str) -> Option<usize> {
         match self.node_lines.get(cell.text) {
             Some(&(_, _, index)) => Some(index),
+            None if self.knock_on(cell.text) => None,
             None => {
                 self.diags.error(
                     cell.location(file),
@@ -349,10 +387,15 @@ impl Reader {
             let mut c = self.cells(t, row);
             let id = c.id("id");
             let elevation = c.required_number("elevation", Quantity::Length);
-            let demand = c.number("demand", Quantity::Flow).unwrap_or(0.0);
+            let elevation = c.within(elevation, "elevation", &limits::ELEVATION);
+            let demand = c.number("demand", Quantity::Flow);
+            let demand_ok =
+                c.within(demand, "demand", &limits::DEMAND).is_some() || demand.is_none();
+            let demand = demand.unwrap_or(0.0);
             let zone = c.text("zone").map(str::to_string);
             let position = c.position();
-            let (Some(id), Some(elevation)) = (id, elevation) else {
+            let (Some(id), Some(elevation), true) = (id, elevation, demand_ok) else {
+                self.broken_row_id(t, row);
                 continue;
             };
             let index = self.nodes.len();
@@ -396,8 +439,10 @@ impl Reader {
                 None,
             );
             let grade = c.required_number("grade", Quantity::Length);
+            let grade = c.within(grade, "grade", &limits::ELEVATION);
             let position = c.position();
             let (Some(id), Some(kind), Some(grade)) = (id, kind, grade) else {
+                self.broken_row_id(t, row);
                 continue;
             };
             let index = self.nodes.len();
@@ -478,7 +523,9 @@ impl Reader {
             );
             let material = c.text("material").map(str::to_string);
             let length = c.non_negative(length, "length", "give the pipe's length along its route");
+            let length = c.within(length, "length", &limits::PIPE_LENGTH);
             let diameter = c.positive(diameter, "diameter", "give the inside diameter");
+            let diameter = c.within(diameter, "diameter", &limits::DIAMETER);
             let roughness = c.positive(
                 roughness,
                 "roughness",
@@ -491,11 +538,18 @@ impl Reader {
                     }
                 },
             );
+            let roughness = match headloss {
+                HeadlossFormula::HazenWilliams => {
+                    c.within(roughness, "roughness", &limits::C_FACTOR)
+                }
+                HeadlossFormula::DarcyWeisbach => c.relative_roughness(roughness, diameter),
+            };
             let minor_loss = c.non_negative(
                 Some(minor_loss),
                 "minor_loss",
                 "give the summed loss coefficient K (0 or more)",
             );
+            let minor_loss = c.within(minor_loss, "minor_loss", &limits::LOSS_COEFFICIENT);
             let (Some(id), Some((from, to)), Some(length), Some(diameter), Some(roughness)) =
                 (id, ends, length, diameter, roughness)
             else {
@@ -504,6 +558,20 @@ impl Reader {
             let (Some(minor_loss), Some(status)) = (minor_loss, status) else {
                 continue;
             };
+            if length == 0.0 && minor_loss == 0.0 && status != PipeStatus::Closed && from != to {
+                // h = r Q^1.852 + m Q^2 with r = m = 0: a link without any resistance has no
+                // head-loss law for the solver to invert (its matrix entry would be infinite).
+                let loc = t.cell(row, "length").location(file);
+                self.diags.error(
+                    loc,
+                    format!(
+                        "pipe `{}` has zero length and no minor loss: it has no resistance at all, which the solver cannot handle",
+                        id.text
+                    ),
+                    "give the pipe's length along its route, or a minor_loss (K) for a short connection such as a fitting",
+                );
+                continue;
+            }
             if !self.claim_link_id(&id, file) {
                 continue;
             }
@@ -535,12 +603,18 @@ impl Reader {
             let design_h = c.required_number("design_head", Quantity::Length);
             let runout_q = c.required_number("runout_flow", Quantity::Flow);
             let runout_h = c.required_number("runout_head", Quantity::Length);
+            let shutoff = c.within(shutoff, "shutoff_head", &limits::HEAD);
+            let design_q = c.within(design_q, "design_flow", &limits::FLOW);
+            let design_h = c.within(design_h, "design_head", &limits::HEAD);
+            let runout_q = c.within(runout_q, "runout_flow", &limits::FLOW);
+            let runout_h = c.within(runout_h, "runout_head", &limits::HEAD);
             let speed = c.plain("speed").unwrap_or(1.0);
             let speed = c.positive(
                 Some(speed),
                 "speed",
                 "give the relative speed (1.0 = rated)",
             );
+            let speed = c.within(speed, "speed", &limits::PUMP_SPEED);
             let on = c.choice("status", &[("on", true), ("off", false)], Some(true));
             let (Some(id), Some((from, to)), Some(a), Some(q1), Some(h1), Some(q2), Some(h2)) =
                 (id, ends, shutoff, design_q, design_h, runout_q, runout_h)
@@ -627,12 +701,14 @@ impl Reader {
             );
             let diameter = c.required_number("diameter", Quantity::Diameter);
             let diameter = c.positive(diameter, "diameter", "give the valve's inside diameter");
+            let diameter = c.within(diameter, "diameter", &limits::DIAMETER);
             let minor_loss = c.plain("minor_loss").unwrap_or(0.0);
             let minor_loss = c.non_negative(
                 Some(minor_loss),
                 "minor_loss",
                 "give the loss coefficient K of the wide-open valve (0 or more)",
             );
+            let minor_loss = c.within(minor_loss, "minor_loss", &limits::LOSS_COEFFICIENT);
             let (Some(id), Some(kind), Some(status), Some((from, to)), Some(diameter)) =
                 (id, kind, status, ends, diameter)
             else {
@@ -659,6 +735,12 @@ impl Reader {
                 "setting",
                 "give a setting of 0 or more",
             );
+            let setting_limit = match kind {
+                ValveKind::Prv | ValveKind::Psv => &limits::PRESSURE,
+                ValveKind::Fcv => &limits::FLOW,
+                ValveKind::Throttle => &limits::LOSS_COEFFICIENT,
+            };
+            let setting = c.within(setting, "setting", setting_limit);
             let Some(setting) = setting else {
                 continue;
             };
@@ -734,14 +816,18 @@ impl Reader {
             let id = c.id("id");
             let required = c.number("required_flow", Quantity::Flow);
             let required = match required {
-                Some(q) => c.positive(
-                    Some(q),
-                    "required_flow",
-                    "give the required fire flow, or leave the cell empty to use the criteria",
-                ),
+                Some(q) => {
+                    let q = c.positive(
+                        Some(q),
+                        "required_flow",
+                        "give the required fire flow, or leave the cell empty to use the criteria",
+                    );
+                    c.within(q, "required_flow", &limits::FLOW)
+                }
                 None => None,
             };
             let class = c.text("class").map(str::to_string);
+            let class_column = t.cell(row, "class").column;
             let position = c.position();
             let junction = if junction_cell.is_empty() {
                 self.diags.error(
@@ -764,6 +850,7 @@ impl Reader {
                         );
                         None
                     }
+                    None if self.knock_on(junction_cell.text) => None,
                     None => {
                         self.diags.error(
                             junction_cell.location(file),
@@ -804,6 +891,7 @@ impl Reader {
                 class,
                 position,
                 line: row.line,
+                class_column,
             });
         }
         out
@@ -915,6 +1003,50 @@ impl<'a> Cells<'a, '_> {
             loc,
             format!("`{name}` must be {rule}, got {}", cell.text),
             fix,
+        );
+        None
+    }
+
+    /// Refuses a value (SI) beyond `limit`: a magnitude no water system has.
+    fn within(&mut self, value: Option<f64>, name: &'a str, limit: &Limit) -> Option<f64> {
+        let v = value?;
+        if limit.holds(v) {
+            return Some(v);
+        }
+        let cell = self.cell(name);
+        let loc = cell.location(self.file());
+        // The value as written: converting 1e308 psi to kPa would overflow to infinity.
+        let written = cell
+            .text
+            .parse::<f64>()
+            .unwrap_or_else(|_| limit.quantity.map_or(v, |q| self.units.from_si(q, v)));
+        let what = format!("`{name}`");
+        self.diags.error(
+            loc,
+            limit.message(&what, written, self.units),
+            limit.fix(&what, self.units),
+        );
+        None
+    }
+
+    /// Refuses a Darcy-Weisbach roughness (SI) above [`limits::MAX_RELATIVE_ROUGHNESS`] of the
+    /// diameter: no roughness height exceeds the pipe's radius.
+    fn relative_roughness(&mut self, roughness: Option<f64>, diameter: Option<f64>) -> Option<f64> {
+        let (r, d) = (roughness?, diameter);
+        let Some(d) = d else { return Some(r) };
+        if r <= limits::MAX_RELATIVE_ROUGHNESS * d {
+            return Some(r);
+        }
+        let loc = self.cell("roughness").location(self.file());
+        let u = self.units.symbol(Quantity::Diameter);
+        self.diags.error(
+            loc,
+            format!(
+                "`roughness` {} {u} is more than half the diameter {} {u}: beyond any pipe (a roughness height cannot exceed the radius)",
+                display_value(self.units.from_si(Quantity::Diameter, r)),
+                display_value(self.units.from_si(Quantity::Diameter, d)),
+            ),
+            format!("Darcy-Weisbach roughness is the absolute roughness in {u}, the diameter unit (e.g. 0.0015 mm for plastic)"),
         );
         None
     }

@@ -235,6 +235,9 @@ pub struct Hydrant {
     pub class: Option<String>,
     pub position: Option<[f64; 2]>,
     pub line: u64,
+    /// Field number of the `class` cell in hydrants.csv (0 without a class column), so that a
+    /// class the criteria do not list is reported at its cell.
+    pub class_column: u64,
 }
 
 /// A whole network, SI units inside.

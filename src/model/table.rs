@@ -136,6 +136,32 @@ pub fn parse_table(
     diags: &mut Diagnostics,
 ) -> Option<Table> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    // Old Mac files end lines with a lone CR. The csv reader takes a lone CR as a line end, but
+    // a comment runs to the next LF, so a leading comment would swallow the whole file; read
+    // every lone CR as an LF instead (line numbers do not change: LineIndex counts both).
+    let normalized;
+    let bytes = if has_lone_cr_line_ends(bytes) {
+        diags.note(
+            Location::file(file),
+            "the lines end with a lone CR (old Mac style); firemain reads each CR as a line end",
+        );
+        normalized = lone_cr_to_lf(bytes);
+        &normalized[..]
+    } else {
+        bytes
+    };
+    if let Some((line, delimiter)) = foreign_delimiter(bytes) {
+        diags.error(
+            Location::line(file, line),
+            format!(
+                "{file} uses {delimiter} as its delimiter; firemain reads comma-separated files: the header is one column"
+            ),
+            format!(
+                "save the file as comma-separated values (CSV with commas), or replace each {delimiter} between fields by a comma"
+            ),
+        );
+        return None;
+    }
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(false)
         .comment(Some(b'#'))
@@ -288,6 +314,49 @@ pub fn parse_table(
     })
 }
 
+/// Whether the file's lines end with lone CRs: a CR not followed by LF, and no LF at all.
+fn has_lone_cr_line_ends(bytes: &[u8]) -> bool {
+    !bytes.contains(&b'\n') && bytes.contains(&b'\r')
+}
+
+fn lone_cr_to_lf(bytes: &[u8]) -> Vec<u8> {
+    bytes
+        .iter()
+        .map(|&b| if b == b'\r' { b'\n' } else { b })
+        .collect()
+}
+
+/// The header line and the delimiter, when the header (the first line that is not blank or a
+/// comment) is split by semicolons, tabs or bars rather than commas, as spreadsheets write
+/// where the comma is the decimal mark. Characters inside quotes are not counted.
+fn foreign_delimiter(bytes: &[u8]) -> Option<(u64, &'static str)> {
+    let mut line_no = 0u64;
+    for line in bytes.split(|&b| b == b'\n') {
+        line_no += 1;
+        let line = line.strip_suffix(b"\r").unwrap_or(line);
+        if line.iter().all(u8::is_ascii_whitespace) || line.first() == Some(&b'#') {
+            continue;
+        }
+        let mut quoted = false;
+        let mut counts = [0usize; 4];
+        for &b in line {
+            match b {
+                b'"' => quoted = !quoted,
+                _ if quoted => {}
+                b',' => counts[0] += 1,
+                b';' => counts[1] += 1,
+                b'\t' => counts[2] += 1,
+                b'|' => counts[3] += 1,
+                _ => {}
+            }
+        }
+        let names = ["','", "';'", "a tab", "'|'"];
+        let (best, &n) = counts.iter().enumerate().max_by_key(|&(_, n)| *n)?;
+        return (best != 0 && n > counts[0]).then_some((line_no, names[best]));
+    }
+    None
+}
+
 /// The line of a double quote that opens a quoted field and is never closed, if any.
 /// Quotes toggle a quoted state (an escaped quote `""` toggles twice); comment lines outside
 /// quotes are skipped as the csv reader skips them.
@@ -408,6 +477,30 @@ mod tests {
         let (t, d) = parse(b"id,elevation\n");
         assert_eq!(t.expect("table").rows().len(), 0);
         assert!(!d.has_errors());
+    }
+
+    #[test]
+    fn foreign_delimiters_are_named() {
+        let (t, d) = parse(b"# from a spreadsheet\nid;elevation;demand\nJ1;100;10,5\n");
+        assert!(t.is_none());
+        assert!(
+            d.to_string()
+                .contains("junctions.csv:2: error: junctions.csv uses ';' as its delimiter"),
+            "{d}"
+        );
+        let (_, d) = parse(b"id\televation\nJ1\t100\n");
+        assert!(d.to_string().contains("uses a tab as its delimiter"), "{d}");
+        let (t, _) = parse(b"id,elevation,\"a;b;c;d\"\nJ1,100,x\n");
+        assert!(t.is_some());
+    }
+
+    #[test]
+    fn lone_cr_line_ends_with_a_leading_comment() {
+        let (t, d) = parse(b"# exported\rid,elevation\rJ1,100\r\rJ2,1x5\r");
+        let t = t.expect("table");
+        assert_eq!(t.rows().len(), 2);
+        assert_eq!(t.rows()[1].line, 5);
+        assert!(d.to_string().contains("lone CR"), "{d}");
     }
 
     #[test]

@@ -10,7 +10,7 @@ use serde::Serialize;
 
 use super::diagnostic::{Diagnostics, Location};
 use super::network::{HeadlossFormula, LinkKind, Network, PipeStatus};
-use crate::units::{Quantity, UnitSystem};
+use crate::units::{display_value, Quantity, UnitSystem};
 
 /// Hazen-Williams C outside this range is implausible (common practice, no source: new plastic
 /// pipe is about 150, badly tuberculated iron about 40-60).
@@ -124,9 +124,10 @@ fn check_pipes(net: &Network, diags: &mut Diagnostics) {
                 diags.warning(
                     loc.clone(),
                     format!(
-                        "{} `{}`: diameter {shown} {} looks like the wrong unit (plausible {lo}-{hi}; common practice)",
+                        "{} `{}`: diameter {} {} looks like the wrong unit (plausible {lo}-{hi}; common practice)",
                         link.kind_name(),
                         link.id,
+                        display_value(shown),
                         units.symbol(Quantity::Diameter)
                     ),
                     format!(
@@ -148,7 +149,8 @@ fn check_pipes(net: &Network, diags: &mut Diagnostics) {
                         loc.clone(),
                         format!(
                             "pipe `{}`: Hazen-Williams C = {} is outside the plausible {clo}-{chi} (common practice)",
-                            link.id, pipe.roughness
+                            link.id,
+                            display_value(pipe.roughness)
                         ),
                         "check the C factor; new PVC is about 150, old unlined cast iron 60-100",
                     );
@@ -161,7 +163,7 @@ fn check_pipes(net: &Network, diags: &mut Diagnostics) {
                         format!(
                             "pipe `{}`: roughness {} {} is more than 5 % of the diameter (common practice)",
                             link.id,
-                            units.from_si(Quantity::Diameter, pipe.roughness),
+                            display_value(units.from_si(Quantity::Diameter, pipe.roughness)),
                             units.symbol(Quantity::Diameter)
                         ),
                         format!(
@@ -172,6 +174,7 @@ fn check_pipes(net: &Network, diags: &mut Diagnostics) {
                 }
             }
         }
+        // A zero length without a minor loss is refused when the file is read.
         if pipe.length_m == 0.0 {
             diags.warning(
                 loc.clone(),

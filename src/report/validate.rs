@@ -11,6 +11,9 @@ use crate::units::{Quantity, UnitSystem};
 /// Findings shown per severity before the rest are only counted; a broken export can produce
 /// one error per row.
 const SHOWN_PER_SEVERITY: usize = 200;
+/// Errors shown before the rest are only counted: past a screenful, more errors of the same
+/// kind help nobody, and the first ones usually explain the rest.
+const SHOWN_ERRORS: usize = 50;
 
 /// The findings, errors first, with counts.
 pub fn diagnostics(diags: &Diagnostics) -> String {
@@ -28,7 +31,7 @@ fn listing(diags: &Diagnostics, shown: usize, more_hint: &str) -> String {
     for severity in [Severity::Error, Severity::Warning, Severity::Note] {
         let items: Vec<_> = diags.iter().filter(|d| d.severity == severity).collect();
         let shown = if severity == Severity::Error {
-            SHOWN_PER_SEVERITY
+            SHOWN_ERRORS
         } else {
             shown
         };
