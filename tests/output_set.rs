@@ -11,7 +11,7 @@ use std::process::{Command, Output};
 use firemain::report::set::read_manifest;
 
 /// A copy of tests/data/sweep_town in a temporary folder, with pipe P001's Hazen-Williams C
-/// raised to 250, above the plausible range: a warning at pipes.csv line 3 (line 1 is a
+/// raised to 180, above the plausible range: a warning at pipes.csv line 3 (line 1 is a
 /// comment, line 2 the header). The network already warns about hydrant H08's small mains.
 fn warned_network() -> (tempfile::TempDir, PathBuf) {
     let root = tempfile::tempdir().expect("temporary folder");
@@ -24,9 +24,9 @@ fn warned_network() -> (tempfile::TempDir, PathBuf) {
         std::fs::copy(&path, net.join(name)).expect("copy");
     }
     let pipes = std::fs::read_to_string(net.join("pipes.csv")).expect("pipes.csv");
-    let pipes = pipes.replacen("P001,J11,J12,650,8,96", "P001,J11,J12,650,8,250", 1);
+    let pipes = pipes.replacen("P001,J11,J12,650,8,96", "P001,J11,J12,650,8,180", 1);
     assert!(
-        pipes.contains(",250"),
+        pipes.contains(",180"),
         "pipes.csv changed: update this test"
     );
     std::fs::write(net.join("pipes.csv"), pipes).expect("write pipes.csv");
@@ -87,7 +87,7 @@ fn input_warnings_reach_report_md_and_report_json() {
         .expect("an Input warnings section in report.md");
     let section = section.split("\n## ").next().unwrap_or_default();
     assert!(
-        section.contains("`pipes.csv:3`: pipe `P001`: Hazen-Williams C = 250"),
+        section.contains("`pipes.csv:3`: pipe `P001`: Hazen-Williams C = 180"),
         "{section}"
     );
     assert!(
@@ -106,7 +106,7 @@ fn input_warnings_reach_report_md_and_report_json() {
     assert_eq!(pipe["line"], 3);
     assert!(pipe["message"]
         .as_str()
-        .is_some_and(|m| m.contains("Hazen-Williams C = 250")));
+        .is_some_and(|m| m.contains("Hazen-Williams C = 180")));
     assert!(pipe["fix"].is_string());
 }
 
