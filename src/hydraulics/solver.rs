@@ -77,7 +77,7 @@ const CHORD_MAX_RATIO: f64 = 0.45;
 /// Relative accuracy of the flow drawn by a held junction: its convergence test uses the
 /// smaller of the tolerance on flows and this fraction of the flow drawn (0.01 %), so that a
 /// flow placed by a held solve is accurate relative to itself whatever its size.
-const DRAWN_FLOW_RELATIVE: f64 = 1.0e-4;
+const DRAWN_FLOW_RELATIVE: f64 = 3.0e-4;
 /// A first chord step (no earlier step to measure the contraction by) ends a solve only when it
 /// is this fraction of the tolerance: a contraction of up to 0.9 then still leaves less than the
 /// tolerance to go (common practice, no source).
@@ -159,6 +159,11 @@ pub struct Workspace {
     /// The fixed-head junction and link states the current factorization was made for; a
     /// later solve with the same ones may start with chord steps on it.
     factor_key: Option<(Option<usize>, Vec<LinkState>)>,
+    /// The junction pinned in the current factorization but free in the current solve, whose
+    /// row and column a border restores (see `Hydraulics::solve_bordered`).
+    border_at: Option<usize>,
+    /// That border: b, z = A⁻¹b and the Schur complement d − bᵀz, in matrix order.
+    border_z: Option<(Vec<f64>, Vec<f64>, f64)>,
     tolerance: Tolerance,
 }
 
@@ -192,6 +197,7 @@ impl Workspace {
         self.g_factored.copy_from_slice(&snapshot.g_factored);
         self.memo.copy_from_slice(&snapshot.memo);
         self.factor_key = Some(snapshot.key.clone());
+        self.border_z = None;
     }
 
     /// Forgets everything earlier solves left that could shape later ones: the factorization
@@ -212,6 +218,7 @@ impl Workspace {
     /// number of threads.)
     pub fn forget_factor(&mut self) {
         self.factor_key = None;
+        self.border_z = None;
     }
 }
 
@@ -429,6 +436,8 @@ impl<'n> Hydraulics<'n> {
             demand: vec![0.0; nj],
             pinned: vec![None; nj],
             factor_key: None,
+            border_at: None,
+            border_z: None,
             tolerance: Tolerance::STEADY,
         }
     }
@@ -584,8 +593,20 @@ impl<'n> Hydraulics<'n> {
                     ws.pinned[j] = Some(heads[j]);
                 }
                 dirty = false;
-                need_factor =
-                    !matches!(&ws.factor_key, Some((key, st)) if *key == held && st == &states);
+                // The factorization serves chord steps when it was made for these states and
+                // the same held junction, or for a held junction when none is held now: the
+                // matrix then differs only in that junction's row and column, which a border
+                // restores (see `solve_bordered`).
+                let (reusable, border) = match &ws.factor_key {
+                    Some((key, st)) if st == &states => match (*key, held) {
+                        (k, h) if k == h => (true, None),
+                        (Some(k), None) => (true, Some(k)),
+                        _ => (false, None),
+                    },
+                    _ => (false, None),
+                };
+                need_factor = !reusable;
+                ws.border_at = if reusable { border } else { None };
             }
 
             // The step of every fixed node: a pinned junction moves to its target in this step,
@@ -671,9 +692,14 @@ impl<'n> Hydraulics<'n> {
                     .refactor(&ws.values)
                     .map_err(|_| self.singular_error(ws))?;
                 ws.factor_key = Some((held, states.clone()));
+                ws.border_at = None;
+                ws.border_z = None;
                 factorizations += 1;
             }
-            ws.factor.solve_in_place(&mut ws.rhs);
+            match ws.border_at {
+                Some(h) => self.solve_bordered(ws, h),
+                None => ws.factor.solve_in_place(&mut ws.rhs),
+            }
             let mut full_step_h = 0.0_f64;
             for j in 0..nj {
                 let d = ws.rhs[self.row_of[j]];
@@ -906,6 +932,49 @@ impl<'n> Hydraulics<'n> {
                 ws.pinned[j].is_some()
                     || self.imbalance(j, flows, &ws.demand).abs() < flow_tolerance
             })
+    }
+
+    /// Solves the junction system in `ws.rhs` in place when the factorization was made with
+    /// junction `h` pinned (its row and column replaced by the identity, A′) but `h` is free in
+    /// this step. By block elimination with h last, M = [[A, b], [bᵀ, d]] (b: minus the
+    /// conductances from h to its free neighbours, d: the sum of the conductances at h, both as
+    /// factorized): z = A⁻¹b (once per factorization), y = A⁻¹r, x_h = (r_h − bᵀy)/(d − bᵀz),
+    /// x = y − z·x_h (Golub & Van Loan, *Matrix Computations*, 4th ed., 2013, §3.2.11 on block
+    /// elimination — from memory). A solve that verifies a flow placed by a held solve thus
+    /// starts with chord steps on the held solve's last factorization instead of a new one.
+    fn solve_bordered(&self, ws: &mut Workspace, h: usize) {
+        let row_h = self.row_of[h];
+        if ws.border_z.is_none() {
+            let mut b = vec![0.0; self.n_junctions];
+            let mut d = 0.0;
+            for &i in self.links_at(h) {
+                let (a, c) = self.ends[i];
+                if a == c {
+                    continue;
+                }
+                let g = ws.g_factored[i];
+                d += g;
+                let other = if a == h { c } else { a };
+                if other < self.n_junctions && ws.pinned[other].is_none() {
+                    b[self.row_of[other]] -= g;
+                }
+            }
+            let mut z = b.clone();
+            ws.factor.solve_in_place(&mut z);
+            let schur = d - b.iter().zip(&z).map(|(bi, zi)| bi * zi).sum::<f64>();
+            ws.border_z = Some((b, z, schur));
+        }
+        let r_h = ws.rhs[row_h];
+        ws.rhs[row_h] = 0.0;
+        ws.factor.solve_in_place(&mut ws.rhs);
+        if let Some((b, z, schur)) = &ws.border_z {
+            let by: f64 = b.iter().zip(&ws.rhs).map(|(bi, yi)| bi * yi).sum();
+            let x_h = (r_h - by) / schur;
+            for (x, zi) in ws.rhs.iter_mut().zip(z) {
+                *x -= zi * x_h;
+            }
+            ws.rhs[row_h] = x_h;
+        }
     }
 
     /// The flow change of every link in the current step (for the line search).
