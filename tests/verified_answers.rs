@@ -290,6 +290,35 @@ fn direct_fed_hydrant_si_matches_hazen_williams_closed_form() {
     ));
 }
 
+#[test]
+fn required_flow_above_the_cap_is_searched_and_noted() {
+    // The US direct-fed hydrant (exact 630.6 gpm, Hazen-Williams closed form as above) with
+    // the criteria's search cap lowered to 500 gpm and a required flow of 600 gpm: pass or
+    // fail must still be decided, so the search goes up to the required flow, passes, and says
+    // that the required flow is above the cap (common practice, no source: the decision rule).
+    let r = hw_resistance(3000.0 * M_PER_FT, 6.0 * M_PER_IN, 100.0);
+    let head = 200.0 * M_PER_FT - 20.0 * KPA_PER_PSI / KPA_PER_M;
+    let exact = single_pipe_limit(r, head);
+    let mut f = NetFiles::us_hw();
+    f.reservoir("R", 1200.0)
+        .junction("H", 1000.0, 0.0)
+        .pipe("P", "R", "H", 3000.0, 6.0, 100.0)
+        .hydrant("FH", "H", Some(600.0));
+    let net = f.load();
+    let mut criteria = shipped_criteria("common-practice-us.toml", &net);
+    criteria.search_cap_m3s = 500.0 * M3S_PER_GPM;
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let setup = FireFlowSetup::new(&hydraulics, &criteria).expect("max-day");
+    let res = check_all(&setup, 1).pop().expect("one hydrant");
+    assert_eq!(res.outcome, Outcome::Pass);
+    let got = res.available_m3s.expect("available flow");
+    assert!(got >= 600.0 * M3S_PER_GPM - 1e-9 && got <= exact * 1.001);
+    assert!(res
+        .notes
+        .iter()
+        .any(|n| matches!(n, HydrantNote::RequiredAboveCap { .. })));
+}
+
 // 2. A pressure-sustaining valve at the hydrant's junction.
 
 #[test]
