@@ -130,6 +130,9 @@ struct Search<'s, 'a> {
     cap: f64,
     /// Elements whose control did not settle in any solve of this hydrant.
     unsettled: Vec<usize>,
+    /// Whether any solve of this hydrant found an element in another state than the static
+    /// state's.
+    states_changed: bool,
     solves: u32,
     iterations: u32,
     factorizations: u32,
@@ -187,6 +190,9 @@ impl Search<'_, '_> {
         };
         self.factorizations += sol.factorizations;
         self.iterations += sol.iterations;
+        if sol.states != self.setup.base.states {
+            self.states_changed = true;
+        }
         if !sol.unsettled.is_empty() {
             let ordinary = request.fixed_head.is_none();
             for &i in sol.unsettled.iter().filter(|_| ordinary) {
@@ -254,6 +260,26 @@ impl Search<'_, '_> {
             Ok(coarse)
         } else {
             self.probe(cap, &coarse.sol)
+        }
+    }
+
+    /// A solve at a first-crossing grid flow: first to [`VERDICT_TOLERANCE`], whose verdict
+    /// stands when every constrained pressure clears the floor by [`CLEAR_MARGIN_KPA`] (twenty
+    /// times that tolerance) and no velocity limit is set; otherwise continued to the bracket
+    /// tolerance. The grid's flows lie below a verified answer, mostly far from the floor.
+    fn grid_probe(&mut self, q: f64, start: &Solution) -> Result<Point, ProbeError> {
+        if self.setup.criteria.max_velocity_m_per_s.is_some() {
+            return self.probe(q, start);
+        }
+        let coarse = self.solve_at(q, start, VERDICT_TOLERANCE)?;
+        if coarse.check.pressure_margin_kpa >= CLEAR_MARGIN_KPA {
+            Ok(Point {
+                passes: true,
+                fails: None,
+                ..coarse
+            })
+        } else {
+            self.probe(q, &coarse.sol)
         }
     }
 
@@ -473,8 +499,9 @@ impl Search<'_, '_> {
 
     /// Step 6: the first crossing.
     ///
-    /// Guarantee: when the network has elements that can change state (check valves, pumps,
-    /// regulating valves), the constraints are checked by ordinary solves at every flow of a
+    /// Guarantee: when any solve of the search found an element that can change state (check
+    /// valve, pump, regulating valve) in another state than the static one, the constraints
+    /// are checked by ordinary solves at every flow of a
     /// grid of [`FIRST_CROSSING_INTERVALS`] equal steps from zero to the answer, and around
     /// every state change found between two grid flows, located by bisection to 1/1024 of the
     /// answer. Between state changes the heads fall monotonically as the fire flow rises (the
@@ -487,9 +514,14 @@ impl Search<'_, '_> {
     /// secant slope; where that bound reaches the floor, the flow before the gap is taken as
     /// the answer (the safe side). Velocities are checked at the same flows. The first failing
     /// flow found becomes the new upper end of the bracket, which is then narrowed again.
+    /// When no solve found a state change, the states are taken as constant from zero to the
+    /// answer, where the same monotonicity makes the answer's own solve the lowest pressures
+    /// of every smaller flow. (An element that switched and switched back between two solved
+    /// flows would escape this; the devices' rules are monotone in their heads, which rules
+    /// that out for a unique steady state — from memory, not proven here.)
     fn first_crossing(&mut self, b: &mut Bracket, answer: &mut Option<LimitedBy>) -> Vec<Change> {
         let mut changes = Vec::new();
-        if !self.setup.has_controls || b.lo.q <= 0.0 {
+        if !self.setup.has_controls || !self.states_changed || b.lo.q <= 0.0 {
             return changes;
         }
         let top = b.lo.q;
@@ -511,7 +543,7 @@ impl Search<'_, '_> {
             let next = if k == FIRST_CROSSING_INTERVALS {
                 b.lo.clone()
             } else {
-                match self.probe(q, &previous.sol) {
+                match self.grid_probe(q, &previous.sol) {
                     Ok(p) => p,
                     Err(e) => {
                         let above = self.unsolved(q, &e);
@@ -550,6 +582,9 @@ impl Search<'_, '_> {
     /// same flow can settle in other states from another start. The answer is solved again
     /// from the static state and from a cold start (the states of the input files, as
     /// `firemain solve` starts); it stands only when every one of them meets the constraints.
+    /// This is done when some solve of the search found an element in another state than the
+    /// static one: where every solve kept the static states, which a cold start reached at
+    /// zero fire flow, those states hold at the answer.
     /// Otherwise the answer steps down, by the accuracy and then by doubling steps, to a flow
     /// that every start verifies (the safe side), and a note says so. Returns whether the
     /// answer stood.
@@ -559,7 +594,7 @@ impl Search<'_, '_> {
         answer: &mut Option<LimitedBy>,
         result: &mut HydrantResult,
     ) -> bool {
-        if !self.setup.has_controls || b.lo.q <= 0.0 {
+        if !self.setup.has_controls || !self.states_changed || b.lo.q <= 0.0 {
             return true;
         }
         let units = self.setup.network().units;
@@ -1015,6 +1050,7 @@ pub fn analyse_hydrant(
             on_grid(cap, net.units)
         },
         unsettled: Vec::new(),
+        states_changed: false,
         solves: 0,
         iterations: 0,
         factorizations: 0,
