@@ -107,6 +107,10 @@ pub enum HydrantNote {
     /// the search found settles in other element states that violate a constraint: a lower
     /// flow that every start verifies is reported.
     OtherStatesFail { reported_flow_m3s: f64 },
+    /// The smallest failing flow found above the answer settles in other element states than
+    /// the answer (link indices): the limit is a change of state, and the flows in between may
+    /// settle either way; the lower reading is reported.
+    OtherStatesAbove { flow_m3s: f64, links: Vec<usize> },
     /// The analysis failed.
     Error { reason: String },
 }

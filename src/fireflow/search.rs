@@ -470,7 +470,7 @@ impl Search<'_, '_> {
         let mut upper = cap;
         let mut unsolvable = f64::INFINITY;
         for _ in 0..MAX_PROBES {
-            if upper - b.lo.q <= tolerance(b.lo.q, units) {
+            if upper - b.lo.q <= closing_width(b.lo.q, units) {
                 break;
             }
             let start = b.lo.sol.clone();
@@ -582,9 +582,8 @@ impl Search<'_, '_> {
     /// same flow can settle in other states from another start. The answer is solved again
     /// from the static state and from a cold start (the states of the input files, as
     /// `firemain solve` starts); it stands only when every one of them meets the constraints.
-    /// This is done when some solve of the search found an element in another state than the
-    /// static one: where every solve kept the static states, which a cold start reached at
-    /// zero fire flow, those states hold at the answer.
+    /// Where no solve of the search found an element in another state than the static one,
+    /// the static start is the path the search took, and only the cold start is tried.
     /// Otherwise the answer steps down, by the accuracy and then by doubling steps, to a flow
     /// that every start verifies (the safe side), and a note says so. Returns whether the
     /// answer stood.
@@ -594,7 +593,7 @@ impl Search<'_, '_> {
         answer: &mut Option<LimitedBy>,
         result: &mut HydrantResult,
     ) -> bool {
-        if !self.setup.has_controls || !self.states_changed || b.lo.q <= 0.0 {
+        if !self.setup.has_controls || b.lo.q <= 0.0 {
             return true;
         }
         let units = self.setup.network().units;
@@ -643,7 +642,7 @@ impl Search<'_, '_> {
         let start = b.lo.sol.clone();
         let mut lo = self.evaluate(q, &start).ok().filter(|p| p.passes)?;
         let mut hi_q = b.hi.as_ref().map_or(lo.q, Above::q);
-        while hi_q - lo.q > tolerance(lo.q, units) {
+        while hi_q - lo.q > closing_width(lo.q, units) {
             let mid = on_grid(0.5 * (lo.q + hi_q), units);
             if mid <= lo.q {
                 break;
@@ -664,7 +663,12 @@ impl Search<'_, '_> {
     /// fails the constraints (or cannot be solved), if any.
     fn failing_start(&mut self, q: f64) -> Option<Above> {
         let cold = self.setup.hydraulics.cold_start();
-        for start in [self.setup.base.clone(), cold] {
+        let starts = if self.states_changed {
+            vec![self.setup.base.clone(), cold]
+        } else {
+            vec![cold]
+        };
+        for start in starts {
             self.ws.forget_factor();
             match self.evaluate(q, &start) {
                 Ok(p) if p.passes => {}
@@ -1188,6 +1192,32 @@ fn classify(
         }
         (Some(other), _) => other,
         (None, Some(Above::Failing(h))) => match h.fails.unwrap_or_else(|| binding_of(&h.check)) {
+            _ if h.sol.states != b.lo.sol.states => {
+                // The failing flow just above settles in other element states: the limit is a
+                // change of state, not a gradual fall of pressure.
+                let links: Vec<usize> = (0..h.sol.states.len())
+                    .filter(|&i| h.sol.states[i] != b.lo.sol.states[i])
+                    .collect();
+                result.notes.push(HydrantNote::OtherStatesAbove {
+                    flow_m3s: h.q,
+                    links,
+                });
+                match h.fails {
+                    Some(Binding::Velocity(i)) => {
+                        result.critical_link = Some(i);
+                        LimitedBy::Velocity
+                    }
+                    _ => {
+                        let j = h.check.pressure_junction;
+                        result.critical_junction = Some(j);
+                        if j == s.at {
+                            LimitedBy::HydrantPressure
+                        } else {
+                            LimitedBy::SystemPressure
+                        }
+                    }
+                }
+            }
             Binding::Velocity(i) => {
                 result.critical_link = Some(i);
                 result.notes.push(HydrantNote::VelocityLimit { link: i });
@@ -1220,6 +1250,12 @@ fn tolerance(q: f64, units: UnitSystem) -> f64 {
     (RELATIVE_ACCURACY * q).max(absolute_accuracy_m3s(units))
 }
 
+/// The width at which a bracket is closed: a fifth inside the accuracy, so that the promise
+/// (the answer within the accuracy below the limit) holds with room for the grid's rounding.
+fn closing_width(q: f64, units: UnitSystem) -> f64 {
+    0.8 * tolerance(q, units)
+}
+
 /// Narrows [lo, hi] until its width is within the accuracy; `lo` stays a passing flow of an
 /// ordinary solve, `hi` a failing or unsolvable one. Each estimate is probed just below (to
 /// raise `lo`) or just above (to lower `hi`), so that an accurate estimate closes the bracket
@@ -1233,7 +1269,7 @@ fn bracket_search(s: &mut Search<'_, '_>, b: &mut Bracket, mut third: Option<Poi
     for _ in 0..MAX_PROBES {
         let Some(h) = b.hi.as_ref() else { return };
         let width = h.q() - b.lo.q;
-        if width <= tolerance(b.lo.q, units) {
+        if width <= closing_width(b.lo.q, units) {
             return;
         }
         let (q, expect_pass) = match h {

@@ -819,8 +819,12 @@ impl<'n> Hydraulics<'n> {
                 || ratio > CHORD_MAX_RATIO
                 || (flow_ratio > CHORD_MAX_RATIO && step_q > flow_tolerance);
 
-            let flows_converged = Self::within(step_q, flow_ratio, factored_now, flow_tolerance);
-            let heads_converged = Self::within(step_h, ratio, factored_now, ws.tolerance.head_m)
+            // A regulating valve's other end sees its new flow one step late: a step that moved
+            // such a flow converges only linearly, whatever the factorization, so the step
+            // alone does not bound the remaining error.
+            let newton = factored_now && !continuity_pending;
+            let flows_converged = Self::within(step_q, flow_ratio, newton, flow_tolerance);
+            let heads_converged = Self::within(step_h, ratio, newton, ws.tolerance.head_m)
                 || (iteration >= STALL_CHECK_AFTER
                     && flows_converged
                     && self.equations_hold(ws, &heads, &flows, &states, flow_tolerance));
