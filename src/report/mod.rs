@@ -8,6 +8,7 @@
 pub mod check;
 pub mod set;
 pub mod solve;
+pub mod table;
 pub mod upsize;
 pub mod validate;
 
