@@ -8,7 +8,7 @@ use tabled::builder::Builder;
 use tabled::settings::Style;
 
 use super::{
-    csv_bytes, input_warnings_markdown, num, JsonInputWarning, Out, OutputFile, OutputSet,
+    csv_bytes, input_warnings_markdown, num, words, JsonInputWarning, Out, OutputFile, OutputSet,
     ReportError, CAUTIONS,
 };
 use crate::criteria::{Criteria, Scope};
@@ -114,19 +114,7 @@ impl CheckReport<'_> {
         let o = self.out();
         let f = o.sym(Quantity::Flow);
         let flow = |q: f64| format!("{} {f}", o.flow_text(q));
-        // "PRV PRV-1" reads badly: the kind is left out when the id already starts with it.
-        let link = |i: usize| {
-            let l = &net.links[i];
-            let kind = match &l.kind {
-                LinkKind::Valve(v) => v.kind.name().to_uppercase(),
-                _ => l.kind_name().to_string(),
-            };
-            if l.id.to_lowercase().starts_with(&kind.to_lowercase()) {
-                l.id.clone()
-            } else {
-                format!("{kind} {}", l.id)
-            }
-        };
+        let link = |i: usize| words::link_label(net, i);
         match note {
             HydrantNote::FloorViolatedWithoutFireFlow {
                 junction,
@@ -194,6 +182,21 @@ impl CheckReport<'_> {
             ),
             HydrantNote::Error { reason } => reason.clone(),
         }
+    }
+
+    /// The control notes of the service conditions, each after its condition's name.
+    fn service_notes(&self) -> Vec<String> {
+        self.service
+            .notes
+            .iter()
+            .map(|n| {
+                format!(
+                    "{}: {}",
+                    n.condition.name(),
+                    words::control_note(self.network, &n.note)
+                )
+            })
+            .collect()
     }
 
     fn notes_text(&self, r: &HydrantResult) -> String {
@@ -776,8 +779,8 @@ impl CheckReport<'_> {
         }
         if !self.service.notes.is_empty() {
             s.push_str("\nControls in the service conditions:\n\n");
-            for n in &self.service.notes {
-                s.push_str(&format!("- {}\n", md(n)));
+            for n in self.service_notes() {
+                s.push_str(&format!("- {}\n", md(&n)));
             }
         }
         s.push_str("\n## Cautions\n\n");
@@ -896,7 +899,7 @@ impl CheckReport<'_> {
                     reasons: w.reasons.iter().map(|r| self.reason_text(r)).collect(),
                 })
                 .collect(),
-            service_notes: self.service.notes.clone(),
+            service_notes: self.service_notes(),
             sweep: stats.map(|s| JsonStats {
                 solves: s.solves,
                 factorizations: s.factorizations,

@@ -11,6 +11,7 @@ pub mod solve;
 pub mod table;
 pub mod upsize;
 pub mod validate;
+pub mod words;
 
 use std::path::{Path, PathBuf};
 

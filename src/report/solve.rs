@@ -27,7 +27,10 @@ pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
         o.fmt(Quantity::Flow, report.source_outflow_m3s)
     ));
     for note in &report.notes {
-        s.push_str(&format!("Note:       {note}\n"));
+        s.push_str(&format!(
+            "Note:       {}\n",
+            super::words::control_note(report, note)
+        ));
     }
 
     let mut junctions: Vec<_> = report
