@@ -389,6 +389,13 @@ impl CheckReport<'_> {
         )
     }
 
+    /// Whether the check has findings: a hydrant that does not pass, or a service-pressure
+    /// exception. `firemain check` exits with its findings status when this is true.
+    pub fn has_findings(&self) -> bool {
+        self.results.iter().any(|r| r.outcome != Outcome::Pass)
+            || self.service.exceptions().next().is_some()
+    }
+
     /// All files of the check, as one set.
     pub fn output_set(&self, stats: Option<&SweepStats>) -> Result<OutputSet, ReportError> {
         Ok(OutputSet {
