@@ -6,7 +6,7 @@ use serde::Serialize;
 
 use crate::criteria::Criteria;
 use crate::hydraulics::{Hydraulics, SolveError};
-use crate::steady::{control_notes, solve_condition, Condition};
+use crate::steady::{control_notes, solve_condition, Condition, ControlNote};
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
@@ -49,7 +49,14 @@ pub struct ServiceReport {
     pub low_demand_factor: f64,
     pub rows: Vec<ServiceRow>,
     /// Notes about controls in either condition.
-    pub notes: Vec<String>,
+    pub notes: Vec<ServiceNote>,
+}
+
+/// A note about the controls in one of the service conditions.
+#[derive(Clone, Debug, Serialize)]
+pub struct ServiceNote {
+    pub condition: Condition,
+    pub note: ControlNote,
 }
 
 impl ServiceReport {
@@ -71,10 +78,10 @@ pub fn service_check(
     };
     let peak = solve_condition(hydraulics, Condition::PeakHour)?;
     let low = solve_condition(hydraulics, low_condition)?;
-    let mut notes: Vec<String> = Vec::new();
+    let mut notes = Vec::new();
     for (condition, sol) in [(Condition::PeakHour, &peak), (low_condition, &low)] {
         for note in control_notes(hydraulics, sol) {
-            notes.push(format!("{}: {note}", condition.name()));
+            notes.push(ServiceNote { condition, note });
         }
     }
     let cut = |sol: &crate::hydraulics::Solution| {

@@ -4,7 +4,7 @@
 use serde::Serialize;
 
 use crate::hydraulics::{Hydraulics, LinkState, Solution, SolveError, SolveRequest};
-use crate::model::{LinkKind, Network};
+use crate::model::{LinkKind, Network, ValveKind, ValveStatus};
 
 /// A demand condition of the network's `[demand]` factors.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
@@ -115,8 +115,8 @@ pub struct SteadyReport {
     pub source_outflow_m3s: f64,
     pub nodes: Vec<NodeResult>,
     pub links: Vec<LinkResult>,
-    /// Messages about controls that could not hold or settle.
-    pub notes: Vec<String>,
+    /// Controls that could not hold or settle.
+    pub notes: Vec<ControlNote>,
 }
 
 /// Collects per-element results of `sol`.
@@ -207,10 +207,25 @@ fn source_outflows(net: &Network, sol: &Solution) -> Vec<f64> {
     out
 }
 
-/// Plain-words notes about controls: valves that could not hold their setting, pumps that
-/// cannot lift, elements whose state did not settle, junctions cut off.
-pub fn control_notes(hydraulics: &Hydraulics<'_>, sol: &Solution) -> Vec<String> {
-    use crate::model::{ValveKind, ValveStatus};
+/// A fact about the controls of one solved state, for the report to put into words (see
+/// `report::words::control_note`). Indices are into the network's links and nodes.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub enum ControlNote {
+    /// An active PRV or PSV that cannot hold its setting and is wide open.
+    ValveWideOpen { link: usize, valve: ValveKind },
+    /// An active PRV or PSV shut because the grade downstream is above the grade upstream.
+    ValveShut { link: usize, valve: ValveKind },
+    /// A pump asked for a head above its shutoff head, delivering nothing.
+    PumpNoFlow { link: usize },
+    /// An element whose state kept switching and was frozen in `state`.
+    Unsettled { link: usize, state: LinkState },
+    /// Junctions without demand cut off from every source by closed elements (all of them).
+    CutOff { junctions: Vec<usize> },
+}
+
+/// Notes about controls: valves that could not hold their setting, pumps that cannot lift,
+/// elements whose state did not settle, junctions cut off.
+pub fn control_notes(hydraulics: &Hydraulics<'_>, sol: &Solution) -> Vec<ControlNote> {
     let net = hydraulics.network();
     let mut notes = Vec::new();
     for (i, l) in net.links.iter().enumerate() {
@@ -220,49 +235,36 @@ pub fn control_notes(hydraulics: &Hydraulics<'_>, sol: &Solution) -> Vec<String>
                     && matches!(v.kind, ValveKind::Prv | ValveKind::Psv)
                     && s == LinkState::Open =>
             {
-                notes.push(format!(
-                    "{} {} cannot hold its setting and is wide open",
-                    v.kind.name().to_uppercase(),
-                    l.id
-                ));
+                notes.push(ControlNote::ValveWideOpen {
+                    link: i,
+                    valve: v.kind,
+                });
             }
             (LinkKind::Valve(v), LinkState::Closed)
                 if v.status == ValveStatus::Active
                     && matches!(v.kind, ValveKind::Prv | ValveKind::Psv) =>
             {
-                notes.push(format!(
-                    "{} {} is shut: the grade downstream is above the grade upstream",
-                    v.kind.name().to_uppercase(),
-                    l.id
-                ));
+                notes.push(ControlNote::ValveShut {
+                    link: i,
+                    valve: v.kind,
+                });
             }
-            (LinkKind::Pump(_), LinkState::NoFlow) => notes.push(format!(
-                "pump {} delivers no flow: the head asked of it is above its shutoff head",
-                l.id
-            )),
+            (LinkKind::Pump(_), LinkState::NoFlow) => {
+                notes.push(ControlNote::PumpNoFlow { link: i })
+            }
             _ => {}
         }
     }
     for &i in &sol.unsettled {
-        notes.push(format!(
-            "the state of {} {} did not settle; it was frozen as {}",
-            net.links[i].kind_name(),
-            net.links[i].id,
-            sol.states[i].name()
-        ));
+        notes.push(ControlNote::Unsettled {
+            link: i,
+            state: sol.states[i],
+        });
     }
     if !sol.isolated.is_empty() {
-        let ids: Vec<&str> = sol
-            .isolated
-            .iter()
-            .take(10)
-            .map(|&j| net.nodes[j].id.as_str())
-            .collect();
-        notes.push(format!(
-            "{} junction(s) without demand are cut off by closed elements and have no pressure: {}",
-            sol.isolated.len(),
-            ids.join(", ")
-        ));
+        notes.push(ControlNote::CutOff {
+            junctions: sol.isolated.clone(),
+        });
     }
     notes
 }

@@ -8,8 +8,10 @@
 pub mod check;
 pub mod set;
 pub mod solve;
+pub mod table;
 pub mod upsize;
 pub mod validate;
+pub mod words;
 
 use std::path::{Path, PathBuf};
 
@@ -79,29 +81,29 @@ pub fn input_warnings(network: &Diagnostics, criteria: &Diagnostics) -> Vec<Diag
         .collect()
 }
 
-/// The "Input warnings" section of a Markdown report.
-pub fn input_warnings_markdown(warnings: &[Diagnostic]) -> String {
-    let mut s = String::from("\n## Input warnings\n\n");
+/// The "Input warnings" section of a report: every plausibility warning with its location and
+/// fix, or a line saying there were none.
+pub fn input_warnings_section(warnings: &[Diagnostic]) -> table::Section {
+    let section = table::Section::titled("Input warnings");
     if warnings.is_empty() {
-        s.push_str("None: the network and criteria files raised no plausibility warning.\n");
-        return s;
+        return section
+            .paragraph("None: the network and criteria files raised no plausibility warning.");
     }
-    s.push_str(&format!(
-        "{} plausibility warning(s) about the input files (common practice, not a published standard); the analysis went ahead, but check each:\n\n",
-        warnings.len()
-    ));
-    for d in warnings {
-        s.push_str(&format!(
-            "- `{}`: {}{}\n",
-            d.location,
-            d.message.replace('\n', " "),
-            d.fix
-                .as_ref()
-                .map(|f| format!("; fix: {}", f.replace('\n', " ")))
-                .unwrap_or_default()
-        ));
-    }
-    s
+    section
+        .paragraph(format!(
+            "{} plausibility warning(s) about the input files (common practice, not a published standard); the analysis went ahead, but check each:",
+            warnings.len()
+        ))
+        .list(warnings.iter().map(|d| {
+            table::Text::new().code(d.location.to_string()).plain(format!(
+                ": {}{}",
+                d.message,
+                d.fix
+                    .as_ref()
+                    .map(|f| format!("; fix: {f}"))
+                    .unwrap_or_default()
+            ))
+        }))
 }
 
 /// One input warning in `report.json`.

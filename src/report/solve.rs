@@ -1,8 +1,6 @@
 //! Reports of one steady state (`firemain solve`): a terminal summary and result CSV files.
 
-use tabled::builder::Builder;
-use tabled::settings::Style;
-
+use super::table::{Markup, Section, Table, Terminal};
 use super::{csv_bytes, num, Out, OutputFile, ReportError};
 use crate::steady::SteadyReport;
 use crate::units::{Quantity, UnitSystem};
@@ -27,7 +25,10 @@ pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
         o.fmt(Quantity::Flow, report.source_outflow_m3s)
     ));
     for note in &report.notes {
-        s.push_str(&format!("Note:       {note}\n"));
+        s.push_str(&format!(
+            "Note:       {}\n",
+            super::words::control_note(report, note)
+        ));
     }
 
     let mut junctions: Vec<_> = report
@@ -40,24 +41,23 @@ pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
     let p = o.sym(Quantity::Pressure);
     let l = o.sym(Quantity::Length);
     let pressure_table = |title: &str, rows: Vec<&(f64, &crate::steady::NodeResult)>| {
-        let mut b = Builder::default();
-        b.push_record([
+        let header = vec![
             "junction".to_string(),
             "zone".to_string(),
             format!("elevation ({l})"),
             format!("grade ({l})"),
             format!("pressure ({p})"),
-        ]);
-        for (pk, n) in rows {
-            b.push_record([
+        ];
+        let table = Table::new(header).with_rows(rows.into_iter().map(|(pk, n)| {
+            vec![
                 n.id.clone(),
                 n.zone.clone().unwrap_or_default(),
                 o.fmt(Quantity::Length, n.elevation_m),
                 o.fmt(Quantity::Length, n.grade_m),
                 o.fmt(Quantity::Pressure, *pk),
-            ]);
-        }
-        format!("\n{title}\n{}\n", b.build().with(Style::sharp()))
+            ]
+        }));
+        Terminal.section(&Section::titled(title).table(table), 1)
     };
     s.push_str(&pressure_table(
         "Lowest pressures",
@@ -75,29 +75,25 @@ pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
         .filter_map(|r| r.velocity_m_per_s.map(|v| (v.abs(), r)))
         .collect();
     fast.sort_by(|a, b| b.0.total_cmp(&a.0).then_with(|| a.1.id.cmp(&b.1.id)));
-    let mut b = Builder::default();
-    b.push_record([
+    let header = vec![
         "pipe".to_string(),
         "from".to_string(),
         "to".to_string(),
         format!("flow ({f})"),
         format!("velocity ({})", o.sym(Quantity::Velocity)),
         format!("headloss ({l} per 1000 {l})"),
-    ]);
-    for (v, r) in fast.iter().take(5) {
-        b.push_record([
+    ];
+    let table = Table::new(header).with_rows(fast.iter().take(5).map(|(v, r)| {
+        vec![
             r.id.clone(),
             r.from.clone(),
             r.to.clone(),
             o.fmt(Quantity::Flow, r.flow_m3s),
             o.fmt(Quantity::Velocity, *v),
             r.headloss_per_1000.map(|h| num(h, 2)).unwrap_or_default(),
-        ]);
-    }
-    s.push_str(&format!(
-        "\nHighest pipe velocities\n{}\n",
-        b.build().with(Style::sharp())
-    ));
+        ]
+    }));
+    s.push_str(&Terminal.section(&Section::titled("Highest pipe velocities").table(table), 1));
     s
 }
 

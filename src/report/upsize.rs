@@ -1,12 +1,10 @@
 //! Reports of `firemain upsize`: the plan, the hydrants before and after, the proposed
 //! network's pipes.csv, and a Markdown report.
 
-use tabled::builder::Builder;
-use tabled::settings::Style;
-
 use super::check::CheckReport;
+use super::table::{Document, Markdown, Markup, Section, Table, Terminal, Text};
 use super::{
-    csv_bytes, input_warnings_markdown, num, plain_number, Out, OutputFile, OutputSet, ReportError,
+    csv_bytes, input_warnings_section, num, plain_number, Out, OutputFile, OutputSet, ReportError,
     CAUTIONS,
 };
 use crate::fireflow::{HydrantResult, Outcome};
@@ -63,7 +61,8 @@ impl UpsizeReport<'_> {
             .collect()
     }
 
-    fn plan_rows(&self) -> (Vec<String>, Vec<Vec<String>>) {
+    /// The upsizings, pipe by pipe (terminal and upsize_report.md).
+    fn plan_table(&self) -> Table {
         let o = self.out();
         let (d, l) = (o.sym(Quantity::Diameter), o.sym(Quantity::Length));
         let header = vec![
@@ -73,24 +72,20 @@ impl UpsizeReport<'_> {
             format!("length ({l})"),
             "cost".to_string(),
         ];
-        let rows = self
-            .plan
-            .upsizings
-            .iter()
-            .map(|u| {
-                vec![
-                    self.network.links[u.link].id.clone(),
-                    num(o.diameter(u.from_diameter_m), 1),
-                    num(o.diameter(u.to_diameter_m), 1),
-                    num(o.length(u.length_m), 0),
-                    num(u.cost, 0),
-                ]
-            })
-            .collect();
-        (header, rows)
+        let rows = self.plan.upsizings.iter().map(|u| {
+            vec![
+                self.network.links[u.link].id.clone(),
+                num(o.diameter(u.from_diameter_m), 1),
+                num(o.diameter(u.to_diameter_m), 1),
+                num(o.length(u.length_m), 0),
+                num(u.cost, 0),
+            ]
+        });
+        Table::new(header).with_rows(rows)
     }
 
-    fn hydrant_rows(&self) -> (Vec<String>, Vec<Vec<String>>) {
+    /// The targeted hydrants before and after (terminal and upsize_report.md).
+    fn hydrant_table(&self) -> Table {
         let o = self.out();
         let f = o.sym(Quantity::Flow);
         let header = vec![
@@ -102,33 +97,19 @@ impl UpsizeReport<'_> {
             "after".to_string(),
         ];
         let flow = |q: Option<f64>| q.map(|q| o.flow_text_down(q)).unwrap_or_default();
-        let rows = self
-            .plan
-            .targets
-            .iter()
-            .filter_map(|&h| {
-                let b = Self::result_of(&self.plan.before, h)?;
-                let a = Self::result_of(&self.plan.after, h)?;
-                Some(vec![
-                    self.network.hydrants[h].id.clone(),
-                    flow(Some(b.required_m3s)),
-                    flow(b.available_m3s),
-                    flow(a.available_m3s),
-                    b.outcome.name().to_string(),
-                    a.outcome.name().to_string(),
-                ])
-            })
-            .collect();
-        (header, rows)
-    }
-
-    fn table(header: Vec<String>, rows: Vec<Vec<String>>) -> String {
-        let mut b = Builder::default();
-        b.push_record(header);
-        for r in rows {
-            b.push_record(r);
-        }
-        b.build().with(Style::sharp()).to_string()
+        let rows = self.plan.targets.iter().filter_map(|&h| {
+            let b = Self::result_of(&self.plan.before, h)?;
+            let a = Self::result_of(&self.plan.after, h)?;
+            Some(vec![
+                self.network.hydrants[h].id.clone(),
+                flow(Some(b.required_m3s)),
+                flow(b.available_m3s),
+                flow(a.available_m3s),
+                b.outcome.name().to_string(),
+                a.outcome.name().to_string(),
+            ])
+        });
+        Table::new(header).with_rows(rows)
     }
 
     fn headline(&self) -> String {
@@ -185,15 +166,14 @@ impl UpsizeReport<'_> {
             "A screening proposal: a licensed engineer must design and check any replacement.\n",
         );
         if !self.plan.upsizings.is_empty() {
-            let (h, r) = self.plan_rows();
-            s.push_str(&format!("\nUpsizings\n{}\n", Self::table(h, r)));
+            s.push_str(
+                &Terminal.section(&Section::titled("Upsizings").table(self.plan_table()), 1),
+            );
         }
-        let (h, r) = self.hydrant_rows();
-        if !r.is_empty() {
-            s.push_str(&format!(
-                "\nTargeted hydrants, available fire flow\n{}\n",
-                Self::table(h, r)
-            ));
+        let hydrants = self.hydrant_table();
+        if !hydrants.rows.is_empty() {
+            let section = Section::titled("Targeted hydrants, available fire flow").table(hydrants);
+            s.push_str(&Terminal.section(&section, 1));
         }
         s.push_str(&self.after.terminal_weak_mains());
         s
@@ -271,73 +251,79 @@ impl UpsizeReport<'_> {
 
     /// `upsize_report.md`.
     fn markdown(&self) -> String {
-        let o = self.out();
-        let mut s = format!("# Main upsizing proposal: {}\n\n", self.network.name);
-        s.push_str(&format!(
-            "Criteria: {} ({}). Date: {}. Run id: {}. Produced by firemain {}.\n\n",
-            self.after.criteria.name,
-            self.after.criteria.reference,
-            self.generated,
-            self.after.run_id,
-            self.version
-        ));
-        s.push_str(&format!("{}\n\n", self.headline()));
-        s.push_str(&format!(
-            "Cost basis: {}. New mains: {} {}.\n",
-            self.costs.unit_label(self.network.units),
-            match self.network.headloss {
-                crate::model::HeadlossFormula::HazenWilliams => "Hazen-Williams C",
-                crate::model::HeadlossFormula::DarcyWeisbach => "absolute roughness",
-            },
-            self.after
-                .criteria
-                .new_pipe_roughness
-                .map(|r| match self.network.headloss {
-                    crate::model::HeadlossFormula::HazenWilliams => num(r, 0),
-                    crate::model::HeadlossFormula::DarcyWeisbach =>
-                        format!("{} {}", num(o.diameter(r), 3), o.sym(Quantity::Diameter)),
-                })
-                .unwrap_or_else(|| "at the default for new ductile iron".into())
-        ));
-        s.push_str(&input_warnings_markdown(self.after.input_warnings));
-        let md_table = |h: Vec<String>, rows: Vec<Vec<String>>| {
-            let mut t = format!("| {} |\n|{}\n", h.join(" | "), "---|".repeat(h.len()));
-            for r in rows {
-                t.push_str(&format!("| {} |\n", r.join(" | ")));
-            }
-            t
-        };
+        Markdown.document(&self.document())
+    }
+
+    /// The proposal's sections, in order.
+    pub fn document(&self) -> Document {
+        let mut sections = vec![
+            self.facts_section(),
+            input_warnings_section(self.after.input_warnings),
+        ];
         if !self.plan.upsizings.is_empty() {
-            let (h, r) = self.plan_rows();
-            s.push_str(&format!("\n## Upsizings\n\n{}", md_table(h, r)));
+            sections.push(Section::titled("Upsizings").table(self.plan_table()));
         }
-        let (h, r) = self.hydrant_rows();
-        s.push_str(&format!("\n## Targeted hydrants\n\n{}", md_table(h, r)));
+        sections.push(Section::titled("Targeted hydrants").table(self.hydrant_table()));
         if !self.plan.set_aside.is_empty() {
-            s.push_str("\n## Set aside\n\n");
-            for a in &self.plan.set_aside {
-                s.push_str(&format!(
-                    "- {}: {}\n",
-                    self.network.hydrants[a.hydrant].id, a.reason
-                ));
-            }
+            sections.push(
+                Section::titled("Set aside").list(self.plan.set_aside.iter().map(|a| {
+                    Text::from(format!(
+                        "{}: {}",
+                        self.network.hydrants[a.hydrant].id, a.reason
+                    ))
+                })),
+            );
         }
         let newly = self.newly_failing();
         if !newly.is_empty() {
-            s.push_str("\n## Hydrants that fail only with the plan\n\n");
-            for r in newly {
-                s.push_str(&format!("- {}\n", self.network.hydrants[r.hydrant].id));
-            }
+            sections.push(
+                Section::titled("Hydrants that fail only with the plan").list(
+                    newly
+                        .iter()
+                        .map(|r| Text::from(self.network.hydrants[r.hydrant].id.as_str())),
+                ),
+            );
         }
-        s.push_str(&format!(
-            "\n## Search\n\n{} greedy round(s); {} hydrant analyses (full fire-flow searches), all on verified solves.\n",
+        sections.push(Section::titled("Search").paragraph(format!(
+            "{} greedy round(s); {} hydrant analyses (full fire-flow searches), all on verified solves.",
             self.plan.rounds, self.plan.analyses
-        ));
-        s.push_str("\n## Cautions\n\n");
-        for c in PLAN_CAUTIONS.iter().chain(CAUTIONS) {
-            s.push_str(&format!("- {c}\n"));
+        )));
+        sections.push(
+            Section::titled("Cautions")
+                .list(PLAN_CAUTIONS.iter().chain(CAUTIONS).map(|&c| c.into())),
+        );
+        Document {
+            title: format!("Main upsizing proposal: {}", self.network.name),
+            sections,
         }
-        s
+    }
+
+    /// The criteria, the run, the plan in one line and the cost basis.
+    fn facts_section(&self) -> Section {
+        let o = self.out();
+        let criteria = self.after.criteria;
+        Section::untitled()
+            .paragraph(format!(
+                "Criteria: {} ({}). Date: {}. Run id: {}. Produced by firemain {}.",
+                criteria.name, criteria.reference, self.generated, self.after.run_id, self.version
+            ))
+            .paragraph(self.headline())
+            .paragraph(format!(
+                "Cost basis: {}. New mains: {} {}.",
+                self.costs.unit_label(self.network.units),
+                match self.network.headloss {
+                    crate::model::HeadlossFormula::HazenWilliams => "Hazen-Williams C",
+                    crate::model::HeadlossFormula::DarcyWeisbach => "absolute roughness",
+                },
+                criteria
+                    .new_pipe_roughness
+                    .map(|r| match self.network.headloss {
+                        crate::model::HeadlossFormula::HazenWilliams => num(r, 0),
+                        crate::model::HeadlossFormula::DarcyWeisbach =>
+                            format!("{} {}", num(o.diameter(r), 3), o.sym(Quantity::Diameter)),
+                    })
+                    .unwrap_or_else(|| "at the default for new ductile iron".into())
+            ))
     }
 
     /// All output files as one set; `network_files` as for [`UpsizeReport::files`].

@@ -1,8 +1,6 @@
 //! Report of `firemain validate`: the findings, then a summary of the network.
 
-use tabled::builder::Builder;
-use tabled::settings::Style;
-
+use super::table::{Markup, Section, Table, Terminal};
 use super::{num, Out};
 use crate::model::validate::NetworkSummary;
 use crate::model::{Diagnostics, Network, Severity};
@@ -101,10 +99,9 @@ pub fn summary(net: &Network, sum: &NetworkSummary) -> String {
         ),
     ));
     if !sum.zones.is_empty() {
-        let mut b = Builder::default();
-        b.push_record(["zone", "junctions", "fed by"]);
-        for z in &sum.zones {
-            b.push_record([
+        let header = vec!["zone".to_string(), "junctions".into(), "fed by".into()];
+        let table = Table::new(header).with_rows(sum.zones.iter().map(|z| {
+            vec![
                 z.name.clone(),
                 z.junctions.to_string(),
                 if z.feeds.is_empty() {
@@ -112,29 +109,32 @@ pub fn summary(net: &Network, sum: &NetworkSummary) -> String {
                 } else {
                     z.feeds.join(", ")
                 },
-            ]);
-        }
-        s.push_str(&format!("\nZones\n{}\n", b.build().with(Style::sharp())));
+            ]
+        }));
+        s.push_str(&Terminal.section(&Section::titled("Zones").table(table), 1));
     }
-    let mut b = Builder::default();
     let l = o.sym(Quantity::Length);
-    b.push_record([
+    let mut table = Table::new(vec![
         format!("diameter ({})", o.sym(Quantity::Diameter)),
         format!("length ({l})"),
         "share".to_string(),
     ]);
     let total: f64 = sum.length_by_diameter_m.iter().map(|(_, len)| len).sum();
     for (d, len) in &sum.length_by_diameter_m {
-        b.push_record([
+        table.push(vec![
             num(o.diameter(*d), 1),
             num(o.length(*len), 0),
             format!("{}%", num(100.0 * len / total.max(f64::MIN_POSITIVE), 1)),
         ]);
     }
-    b.push_record(["total".to_string(), num(o.length(total), 0), "100%".into()]);
-    s.push_str(&format!(
-        "\nLength of pipe by diameter\n{}\n",
-        b.build().with(Style::sharp())
+    table.push(vec![
+        "total".to_string(),
+        num(o.length(total), 0),
+        "100%".into(),
+    ]);
+    s.push_str(&Terminal.section(
+        &Section::titled("Length of pipe by diameter").table(table),
+        1,
     ));
     s
 }

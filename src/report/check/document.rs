@@ -1,0 +1,255 @@
+//! The check report as a document: its sections in the order they are read, from which
+//! `report.md` is drawn (and any further markup format would be).
+
+use std::collections::BTreeMap;
+
+use super::{CheckReport, SUPPLY_PIPES_SHOWN, WEAK_MAINS_SHOWN};
+use crate::fireflow::{HydrantResult, Outcome};
+use crate::report::table::{Document, Markdown, Markup, Section, Table, Text};
+use crate::report::{input_warnings_section, num, CAUTIONS};
+use crate::units::Quantity;
+
+impl CheckReport<'_> {
+    /// `report.md`: a document to attach to a permit application.
+    pub fn markdown(&self) -> String {
+        Markdown.document(&self.document())
+    }
+
+    /// The report's sections, in order: the one place that order is declared.
+    pub fn document(&self) -> Document {
+        let mut sections = vec![
+            self.facts_section(),
+            self.summary_section(),
+            input_warnings_section(self.input_warnings),
+            self.compliance_section(),
+        ];
+        sections.extend(self.weak_mains_section());
+        sections.push(self.service_section());
+        sections.push(Section::titled("Cautions").list(CAUTIONS.iter().map(|&c| c.into())));
+        sections.push(self.units_section());
+        Document {
+            title: format!("Fire-flow screening report: {}", self.network.name),
+            sections,
+        }
+    }
+
+    /// The untitled table of what was analysed, under what assumptions, when and by what.
+    fn facts_section(&self) -> Section {
+        let net = self.network;
+        let o = self.out();
+        let rows = [
+            ("Network", net.name.clone()),
+            ("Criteria", self.criteria.name.clone()),
+            ("Criteria reference", self.criteria.reference.clone()),
+            (
+                "Demand condition",
+                format!(
+                    "max-day = {} x average day (fire flow); peak hour = {} x; {} = {} x (service pressures)",
+                    net.demand_factors.max_day,
+                    self.service.peak_hour_factor,
+                    self.service.low_condition.name(),
+                    self.service.low_demand_factor
+                ),
+            ),
+            ("Fire-flow condition", self.condition_line()),
+            (
+                "Source grades used",
+                net.sources()
+                    .iter()
+                    .map(|n| {
+                        format!(
+                            "{} {} at {} {}",
+                            n.kind.name(),
+                            n.id,
+                            num(o.length(n.grade_m.unwrap_or(n.elevation_m)), 1),
+                            o.sym(Quantity::Length)
+                        )
+                    })
+                    .collect::<Vec<_>>()
+                    .join("; "),
+            ),
+            (
+                "Assumptions",
+                format!(
+                    "steady state; demand-driven (demands are met whatever the pressure); sources at fixed grades; head loss by {}; one hydrant flowing at a time",
+                    net.headloss.name()
+                ),
+            ),
+            ("Date", self.generated.clone()),
+            ("Run id", self.run_id.clone()),
+            ("Produced by", format!("firemain {}", self.version)),
+        ];
+        Section::untitled().table(
+            Table::untitled().with_rows(rows.into_iter().map(|(k, v)| vec![k.to_string(), v])),
+        )
+    }
+
+    fn summary_section(&self) -> Section {
+        let o = self.out();
+        Section::titled("Summary").paragraph(
+            Text::new()
+                .plain(format!(
+                    "{} hydrants analysed{}: ",
+                    self.results.len(),
+                    if self.partial { " (a selection)" } else { "" }
+                ))
+                .strong(format!("{} pass", self.count(Outcome::Pass)))
+                .plain(", ")
+                .strong(format!("{} fail", self.count(Outcome::Fail)))
+                .plain(format!(
+                    ", {} error. Service pressures: {} of {} junctions outside {}-{} {}.",
+                    self.count(Outcome::Error),
+                    self.service.exceptions().count(),
+                    self.service.rows.len(),
+                    num(o.pressure(self.criteria.service_min_kpa), 0),
+                    num(o.pressure(self.criteria.service_max_kpa), 0),
+                    o.sym(Quantity::Pressure)
+                )),
+        )
+    }
+
+    /// The compliance table by zone, each zone's hydrants by margin, then the hydrants' notes.
+    fn compliance_section(&self) -> Section {
+        let mut section = Section::titled("Compliance table").paragraph(
+            "Available fire flow at each hydrant, sorted by margin (available minus required) within each zone; the weakest first.",
+        );
+        let mut zones: BTreeMap<String, Vec<&HydrantResult>> = BTreeMap::new();
+        for r in self.by_margin() {
+            zones.entry(self.zone(r)).or_default().push(r);
+        }
+        for (zone, rows) in zones {
+            let table = self.compliance_table(rows);
+            section = if zone.is_empty() && self.network.zones.is_empty() {
+                section.table(table)
+            } else if zone.is_empty() {
+                section.section(Section::titled("Hydrants without a zone").table(table))
+            } else {
+                section.section(Section::titled(format!("Zone {zone}")).table(table))
+            };
+        }
+        let noted: Vec<Text> = self
+            .results
+            .iter()
+            .filter(|r| !r.notes.is_empty())
+            .map(|r| {
+                Text::new()
+                    .strong(self.hydrant_id(r))
+                    .plain(": ")
+                    .plain(self.notes_text(r))
+            })
+            .collect();
+        if !noted.is_empty() {
+            section = section.section(Section::titled("Notes").list(noted));
+        }
+        section
+    }
+
+    /// The top weak mains and, per failing hydrant, the pipes with the largest shares of its
+    /// head loss; `None` when no main limits a failing hydrant.
+    fn weak_mains_section(&self) -> Option<Section> {
+        if self.weak_mains.is_empty() {
+            return None;
+        }
+        let o = self.out();
+        let l = o.sym(Quantity::Length);
+        let paths = self
+            .by_margin()
+            .into_iter()
+            .filter(|r| !r.supply_paths.is_empty())
+            .map(|r| {
+                let pipes: Vec<String> = r
+                    .supply_paths
+                    .iter()
+                    .take(SUPPLY_PIPES_SHOWN)
+                    .map(|p| {
+                        format!(
+                            "{} ({}%, {}, {})",
+                            self.network.links[p.link].id,
+                            num(100.0 * p.share, 0),
+                            num(p.unit_headloss, 1),
+                            num(o.velocity(p.velocity_m_per_s), 1)
+                        )
+                    })
+                    .collect();
+                Text::new().strong(self.hydrant_id(r)).plain(format!(
+                    " (lowest pressure at {}): {}",
+                    self.node_id(r.min_pressure_junction),
+                    pipes.join(", ")
+                ))
+            });
+        Some(
+            Section::titled("Weak mains")
+                .paragraph(format!(
+                    "Pipes on the supply paths of failing hydrants, at their required flow, ranked by their share of the head lost between the sources and the lowest-pressure junction, summed over the failing hydrants they limit (the top {} of {}; all in weak_mains.csv).",
+                    WEAK_MAINS_SHOWN.min(self.weak_mains.len()),
+                    self.weak_mains.len()
+                ))
+                .table(self.weak_mains_table())
+                .paragraph(format!(
+                    "Largest shares of head loss per failing hydrant (pipe: share, {l} per 1000 {l}, {}):",
+                    o.sym(Quantity::Velocity)
+                ))
+                .list(paths),
+        )
+    }
+
+    /// Junctions outside the service-pressure range, and the controls of those conditions.
+    fn service_section(&self) -> Section {
+        let net = self.network;
+        let o = self.out();
+        let section = Section::titled("Service-pressure exceptions");
+        let exceptions: Vec<_> = self.service.exceptions().collect();
+        let mut section = if exceptions.is_empty() {
+            section.paragraph(format!(
+                "Every junction is within {}-{} {}.",
+                num(o.pressure(self.criteria.service_min_kpa), 0),
+                num(o.pressure(self.criteria.service_max_kpa), 0),
+                o.sym(Quantity::Pressure)
+            ))
+        } else {
+            let p = o.sym(Quantity::Pressure);
+            let header = vec![
+                "junction".to_string(),
+                "zone".to_string(),
+                format!("elevation ({})", o.sym(Quantity::Length)),
+                format!("peak hour ({p})"),
+                format!("{} ({p})", self.service.low_condition.name()),
+                "result".to_string(),
+                "notes".to_string(),
+            ];
+            let pressure = |k: Option<f64>| k.map(|k| num(o.pressure(k), 1)).unwrap_or_default();
+            section.table(
+                Table::new(header).with_rows(exceptions.into_iter().map(|r| {
+                    let node = &net.nodes[r.junction];
+                    vec![
+                        node.id.clone(),
+                        net.zone_name(r.junction).unwrap_or_default().to_string(),
+                        num(o.length(node.elevation_m), 1),
+                        pressure(r.peak_hour_kpa),
+                        pressure(r.low_demand_kpa),
+                        r.result.name().to_string(),
+                        self.service_note(r),
+                    ]
+                })),
+            )
+        };
+        let notes = self.service_notes();
+        if !notes.is_empty() {
+            section = section
+                .paragraph("Controls in the service conditions:")
+                .list(notes.into_iter().map(Text::from));
+        }
+        section
+    }
+
+    /// The closing line: the units of the report.
+    fn units_section(&self) -> Section {
+        let o = self.out();
+        Section::untitled().paragraph(format!(
+            "Flows in {}, pressures in {}, elevations and grades in {}.",
+            o.sym(Quantity::Flow),
+            o.sym(Quantity::Pressure),
+            o.sym(Quantity::Length)
+        ))
+    }
+}

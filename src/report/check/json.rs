@@ -1,0 +1,260 @@
+//! `report.json`: everything the other formats show, machine-readable.
+
+use serde::Serialize;
+
+use super::CheckReport;
+use crate::criteria::Scope;
+use crate::fireflow::{Outcome, SweepStats};
+use crate::report::{JsonInputWarning, ReportError, CAUTIONS};
+use crate::units::Quantity;
+
+/// Version of the layout of `report.json`; raised on any incompatible change.
+pub const JSON_SCHEMA_VERSION: u32 = 1;
+
+impl CheckReport<'_> {
+    /// `report.json`: everything above, machine-readable.
+    pub fn json(&self, stats: Option<&SweepStats>) -> Result<Vec<u8>, ReportError> {
+        let o = self.out();
+        let flow = |q: Option<f64>| q.map(|q| round(o.flow(q), 4));
+        let pressure = |p: Option<f64>| p.map(|p| round(o.pressure(p), 4));
+        let doc = JsonReport {
+            schema_version: JSON_SCHEMA_VERSION,
+            generator: format!("firemain {}", self.version),
+            generated: self.generated.clone(),
+            run_id: self.run_id.clone(),
+            units: JsonUnits {
+                flow: o.sym(Quantity::Flow),
+                pressure: o.sym(Quantity::Pressure),
+                length: o.sym(Quantity::Length),
+                velocity: o.sym(Quantity::Velocity),
+            },
+            network: self.network.name.clone(),
+            criteria: JsonCriteria {
+                name: self.criteria.name.clone(),
+                reference: self.criteria.reference.clone(),
+                residual_floor: round(o.pressure(self.criteria.residual_floor_kpa), 4),
+                scope: self.criteria.scope,
+                search_cap: round(o.flow(self.criteria.search_cap_m3s), 4),
+                max_velocity: self
+                    .criteria
+                    .max_velocity_m_per_s
+                    .map(|v| round(o.velocity(v), 4)),
+                service_min_pressure: round(o.pressure(self.criteria.service_min_kpa), 4),
+                service_max_pressure: round(o.pressure(self.criteria.service_max_kpa), 4),
+            },
+            demand_factors: JsonDemand {
+                max_day: self.network.demand_factors.max_day,
+                peak_hour: self.service.peak_hour_factor,
+                low_demand_condition: self.service.low_condition.name(),
+                low_demand: self.service.low_demand_factor,
+            },
+            summary: JsonSummary {
+                hydrants: self.results.len(),
+                pass: self.count(Outcome::Pass),
+                fail: self.count(Outcome::Fail),
+                error: self.count(Outcome::Error),
+                service_exceptions: self.service.exceptions().count(),
+                partial: self.partial,
+            },
+            input_warnings: self.input_warnings.iter().map(Into::into).collect(),
+            hydrants: self
+                .results
+                .iter()
+                .map(|r| JsonHydrant {
+                    hydrant: self.hydrant_id(r).to_string(),
+                    junction: self.network.nodes[r.junction].id.clone(),
+                    zone: self.network.zone_name(r.junction).map(str::to_string),
+                    requirement: self.required_label(r),
+                    required_flow: round(o.flow(r.required_m3s), 4),
+                    available_flow: flow(r.available_m3s),
+                    static_pressure: pressure(r.static_kpa),
+                    residual_pressure: pressure(r.residual_kpa),
+                    min_pressure: pressure(r.min_pressure_kpa),
+                    min_pressure_junction: r
+                        .min_pressure_junction
+                        .map(|j| self.network.nodes[j].id.clone()),
+                    critical_junction: r
+                        .critical_junction
+                        .map(|j| self.network.nodes[j].id.clone()),
+                    critical_pipe: r.critical_link.map(|i| self.network.links[i].id.clone()),
+                    limited_by: r.limited_by.map(|l| l.name()),
+                    result: r.outcome.name(),
+                    notes: r.notes.iter().map(|n| self.note_text(n)).collect(),
+                    supply_paths: r
+                        .supply_paths
+                        .iter()
+                        .map(|p| JsonShare {
+                            pipe: self.network.links[p.link].id.clone(),
+                            share: round(p.share, 4),
+                            unit_headloss: round(p.unit_headloss, 4),
+                            velocity: round(o.velocity(p.velocity_m_per_s), 4),
+                        })
+                        .collect(),
+                })
+                .collect(),
+            service: self
+                .service
+                .rows
+                .iter()
+                .map(|r| JsonService {
+                    junction: self.network.nodes[r.junction].id.clone(),
+                    zone: self.network.zone_name(r.junction).map(str::to_string),
+                    pressure_peak_hour: pressure(r.peak_hour_kpa),
+                    pressure_low_demand: pressure(r.low_demand_kpa),
+                    result: r.result.name(),
+                })
+                .collect(),
+            weak_mains: self
+                .weak_mains
+                .iter()
+                .map(|w| JsonWeakMain {
+                    pipe: self.network.links[w.link].id.clone(),
+                    hydrants_limited: w.hydrants_limited,
+                    worst_share: round(w.worst_share, 4),
+                    worst_unit_headloss: round(w.worst_unit_headloss, 4),
+                    max_velocity: round(o.velocity(w.max_velocity_m_per_s), 4),
+                    reasons: w.reasons.iter().map(|r| self.reason_text(r)).collect(),
+                })
+                .collect(),
+            service_notes: self.service_notes(),
+            sweep: stats.map(|s| JsonStats {
+                solves: s.solves,
+                factorizations: s.factorizations,
+                factorizations_per_hydrant_mean: round(s.factorizations_per_hydrant_mean, 3),
+                factorizations_per_hydrant_max: s.factorizations_per_hydrant_max,
+            }),
+            cautions: CAUTIONS.to_vec(),
+        };
+        serde_json::to_vec_pretty(&doc).map_err(|e| ReportError::Render {
+            what: "report.json".into(),
+            message: e.to_string(),
+        })
+    }
+}
+
+/// Rounds for JSON so that files do not carry solver noise in the last digits.
+fn round(v: f64, decimals: i32) -> f64 {
+    let k = 10f64.powi(decimals);
+    let r = (v * k).round() / k;
+    if r == 0.0 {
+        0.0
+    } else {
+        r
+    }
+}
+
+#[derive(Serialize)]
+struct JsonReport {
+    schema_version: u32,
+    generator: String,
+    generated: String,
+    run_id: String,
+    units: JsonUnits,
+    network: String,
+    criteria: JsonCriteria,
+    demand_factors: JsonDemand,
+    summary: JsonSummary,
+    input_warnings: Vec<JsonInputWarning>,
+    hydrants: Vec<JsonHydrant>,
+    service: Vec<JsonService>,
+    weak_mains: Vec<JsonWeakMain>,
+    service_notes: Vec<String>,
+    /// Work counters; `null` unless --stats (they are not part of the result).
+    sweep: Option<JsonStats>,
+    cautions: Vec<&'static str>,
+}
+
+#[derive(Serialize)]
+struct JsonUnits {
+    flow: &'static str,
+    pressure: &'static str,
+    length: &'static str,
+    velocity: &'static str,
+}
+
+#[derive(Serialize)]
+struct JsonCriteria {
+    name: String,
+    reference: String,
+    residual_floor: f64,
+    scope: Scope,
+    search_cap: f64,
+    max_velocity: Option<f64>,
+    service_min_pressure: f64,
+    service_max_pressure: f64,
+}
+
+#[derive(Serialize)]
+struct JsonDemand {
+    max_day: f64,
+    peak_hour: f64,
+    low_demand_condition: &'static str,
+    low_demand: f64,
+}
+
+#[derive(Serialize)]
+struct JsonSummary {
+    hydrants: usize,
+    pass: usize,
+    fail: usize,
+    error: usize,
+    service_exceptions: usize,
+    partial: bool,
+}
+
+#[derive(Serialize)]
+struct JsonHydrant {
+    hydrant: String,
+    junction: String,
+    zone: Option<String>,
+    requirement: String,
+    required_flow: f64,
+    available_flow: Option<f64>,
+    static_pressure: Option<f64>,
+    residual_pressure: Option<f64>,
+    min_pressure: Option<f64>,
+    min_pressure_junction: Option<String>,
+    critical_junction: Option<String>,
+    critical_pipe: Option<String>,
+    limited_by: Option<&'static str>,
+    result: &'static str,
+    notes: Vec<String>,
+    /// Failing hydrants: supply-path pipes by share of head loss (unit head loss per 1000
+    /// length units).
+    supply_paths: Vec<JsonShare>,
+}
+
+#[derive(Serialize)]
+struct JsonShare {
+    pipe: String,
+    share: f64,
+    unit_headloss: f64,
+    velocity: f64,
+}
+
+#[derive(Serialize)]
+struct JsonWeakMain {
+    pipe: String,
+    hydrants_limited: usize,
+    worst_share: f64,
+    worst_unit_headloss: f64,
+    max_velocity: f64,
+    reasons: Vec<String>,
+}
+
+#[derive(Serialize)]
+struct JsonService {
+    junction: String,
+    zone: Option<String>,
+    pressure_peak_hour: Option<f64>,
+    pressure_low_demand: Option<f64>,
+    result: &'static str,
+}
+
+#[derive(Serialize)]
+struct JsonStats {
+    solves: u64,
+    factorizations: u64,
+    factorizations_per_hydrant_mean: f64,
+    factorizations_per_hydrant_max: u32,
+}
