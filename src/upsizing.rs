@@ -160,8 +160,10 @@ pub enum Progress {
     Verifying,
 }
 
-/// Runs the fire-flow search for `hydrants` on `net`.
+/// Runs the fire-flow search for `hydrants` on `net`, a network with the topology of `base`'s
+/// (whose ordering and symbolic analysis it shares).
 fn check(
+    base: &Hydraulics<'_>,
     net: &Network,
     criteria: &Criteria,
     hydrants: &[usize],
@@ -171,7 +173,7 @@ fn check(
     if hydrants.is_empty() {
         return Ok(Vec::new());
     }
-    let hydraulics = Hydraulics::new(net)?;
+    let hydraulics = base.with_links_replaced(net)?;
     let setup = FireFlowSetup::new(&hydraulics, criteria)?;
     let (results, _) = sweep(&setup, hydrants, threads, &|_| {})?;
     *analyses += hydrants.len();
@@ -179,15 +181,16 @@ fn check(
 }
 
 /// Whether every hydrant of `groups` passes on `net`, checking the groups in order and
-/// stopping at the first group where one fails.
+/// stopping at the first group where one fails (`net` has the topology of `base`'s network).
 fn still_pass(
+    base: &Hydraulics<'_>,
     net: &Network,
     criteria: &Criteria,
     groups: &[Vec<usize>],
     threads: Option<usize>,
     analyses: &mut usize,
 ) -> Result<bool, UpsizeError> {
-    let hydraulics = Hydraulics::new(net)?;
+    let hydraulics = base.with_links_replaced(net)?;
     let setup = FireFlowSetup::new(&hydraulics, criteria)?;
     for group in groups.iter().filter(|g| !g.is_empty()) {
         let (results, _) = sweep(&setup, group, threads, &|_| {})?;
@@ -227,7 +230,17 @@ pub fn plan_upsizing(
         .unwrap_or_else(|| (0..net.hydrants.len()).collect());
     let mut analyses = 0;
     progress(Progress::Initial);
-    let before = check(net, criteria, &selection, config.threads, &mut analyses)?;
+    // Upsizing changes diameters and roughnesses only: every trial network shares this
+    // ordering and symbolic analysis.
+    let base = Hydraulics::new(net)?;
+    let before = check(
+        &base,
+        net,
+        criteria,
+        &selection,
+        config.threads,
+        &mut analyses,
+    )?;
     let new_roughness = criteria.new_pipe_roughness.unwrap_or(match net.headloss {
         HeadlossFormula::HazenWilliams => DEFAULT_NEW_PIPE_C,
         HeadlossFormula::DarcyWeisbach => DEFAULT_NEW_PIPE_ROUGHNESS_M,
@@ -387,7 +400,14 @@ pub fn plan_upsizing(
         }
         current = apply(net, &plan, new_roughness);
         let still: Vec<usize> = failing.iter().map(|r| r.hydrant).collect();
-        for r in check(&current, criteria, &still, config.threads, &mut analyses)? {
+        for r in check(
+            &base,
+            &current,
+            criteria,
+            &still,
+            config.threads,
+            &mut analyses,
+        )? {
             latest.insert(r.hydrant, r);
         }
     }
@@ -449,6 +469,7 @@ pub fn plan_upsizing(
                     .iter()
                     .partition(|h| helped.get(link).is_some_and(|set| set.contains(h)));
                 if still_pass(
+                    &base,
                     &network,
                     criteria,
                     &[first, rest],
@@ -476,7 +497,14 @@ pub fn plan_upsizing(
             .filter(|h| !passing.contains(h))
             .collect();
         let network = apply(net, &plan, new_roughness);
-        let results = check(&network, criteria, &failing, config.threads, &mut analyses)?;
+        let results = check(
+            &base,
+            &network,
+            criteria,
+            &failing,
+            config.threads,
+            &mut analyses,
+        )?;
         for r in results {
             let spent = cost_of(&plan);
             let mut options: Vec<(f64, usize, f64)> = Vec::new();
@@ -512,6 +540,7 @@ pub fn plan_upsizing(
                 trial.insert(link, d);
                 let trial_net = apply(net, &trial, new_roughness);
                 let alone = check(
+                    &base,
                     &trial_net,
                     criteria,
                     &[r.hydrant],
@@ -522,6 +551,7 @@ pub fn plan_upsizing(
                     continue;
                 }
                 let all = check(
+                    &base,
                     &trial_net,
                     criteria,
                     &targets,
@@ -541,6 +571,7 @@ pub fn plan_upsizing(
     progress(Progress::Verifying);
     let proposed = apply(net, &plan, new_roughness);
     let after = check(
+        &base,
         &proposed,
         criteria,
         &selection,

@@ -265,12 +265,19 @@ pub fn junction_pairs(net: &Network) -> Vec<(usize, usize)> {
         .collect()
 }
 
-impl<'n> Hydraulics<'n> {
-    /// Prepares the solver for `net`: link laws, matrix pattern, and the symbolic
-    /// factorization (once per network).
-    pub fn new(net: &'n Network) -> Result<Self, SolveError> {
-        let nj = net.n_junctions;
-        let nn = net.nodes.len();
+/// What the solver takes from each element apart from the topology: the parts of
+/// [`Hydraulics`] that a change of pipe diameter or roughness renews.
+struct Elements {
+    laws: Vec<LinkLaw>,
+    roles: Vec<Role>,
+    settings: Vec<f64>,
+    source_grade: Vec<f64>,
+    valve_kinds: Vec<Option<ValveKind>>,
+    pressure_valves: Vec<usize>,
+}
+
+impl Elements {
+    fn of(net: &Network) -> Self {
         let laws: Vec<LinkLaw> = net
             .links
             .iter()
@@ -305,7 +312,37 @@ impl<'n> Hydraulics<'n> {
             })
             .collect();
         let source_grade = net.nodes.iter().map(|n| n.grade_m.unwrap_or(0.0)).collect();
+        let valve_kinds: Vec<Option<ValveKind>> = net
+            .links
+            .iter()
+            .map(|l| match &l.kind {
+                LinkKind::Valve(v) => Some(v.kind),
+                _ => None,
+            })
+            .collect();
+        let pressure_valves = valve_kinds
+            .iter()
+            .enumerate()
+            .filter(|(_, k)| matches!(k, Some(ValveKind::Prv | ValveKind::Psv)))
+            .map(|(i, _)| i)
+            .collect();
+        Elements {
+            laws,
+            roles,
+            settings,
+            source_grade,
+            valve_kinds,
+            pressure_valves,
+        }
+    }
+}
 
+impl<'n> Hydraulics<'n> {
+    /// Prepares the solver for `net`: link laws, matrix pattern, and the symbolic
+    /// factorization (once per network).
+    pub fn new(net: &'n Network) -> Result<Self, SolveError> {
+        let nj = net.n_junctions;
+        let nn = net.nodes.len();
         if nj == 0 {
             return Err(SolveError::Internal("the network has no junctions".into()));
         }
@@ -362,20 +399,6 @@ impl<'n> Hydraulics<'n> {
                 }
             })
             .collect();
-        let valve_kinds: Vec<Option<ValveKind>> = net
-            .links
-            .iter()
-            .map(|l| match &l.kind {
-                LinkKind::Valve(v) => Some(v.kind),
-                _ => None,
-            })
-            .collect();
-        let pressure_valves = valve_kinds
-            .iter()
-            .enumerate()
-            .filter(|(_, k)| matches!(k, Some(ValveKind::Prv | ValveKind::Psv)))
-            .map(|(i, _)| i)
-            .collect();
         let mut degree = vec![0usize; nn + 1];
         for l in &net.links {
             degree[l.from] += 1;
@@ -394,16 +417,17 @@ impl<'n> Hydraulics<'n> {
             fill[l.to] += 1;
         }
         let analysis = SymbolicAnalysis::new(&pattern).map_err(SolveError::Internal)?;
+        let elements = Elements::of(net);
         Ok(Hydraulics {
             net,
             n_junctions: nj,
-            laws,
-            roles,
-            settings,
-            source_grade,
+            laws: elements.laws,
+            roles: elements.roles,
+            settings: elements.settings,
+            source_grade: elements.source_grade,
             ends,
-            valve_kinds,
-            pressure_valves,
+            valve_kinds: elements.valve_kinds,
+            pressure_valves: elements.pressure_valves,
             link_rows,
             link_slots,
             pattern,
@@ -412,6 +436,46 @@ impl<'n> Hydraulics<'n> {
             adj_ptr,
             adj_links,
             analysis,
+        })
+    }
+
+    /// The solver for `net`, a network with the same nodes and links joining the same ends as
+    /// this one's (e.g. with pipes replaced by other diameters or roughnesses): the ordering,
+    /// the symbolic analysis and the index maps, which depend only on which nodes the links
+    /// join, are shared; only the link laws, roles and settings and the source grades are made
+    /// anew. The result is the one [`Hydraulics::new`] would give, without re-ordering and
+    /// re-analysing the matrix. An error when the topology differs.
+    pub fn with_links_replaced<'m>(&self, net: &'m Network) -> Result<Hydraulics<'m>, SolveError> {
+        let same_topology = net.n_junctions == self.n_junctions
+            && net.nodes.len() == self.net.nodes.len()
+            && net.links.len() == self.ends.len()
+            && net
+                .links
+                .iter()
+                .zip(&self.ends)
+                .all(|(l, &(a, b))| l.from == a && l.to == b);
+        if !same_topology {
+            return Err(SolveError::TopologyChanged);
+        }
+        let elements = Elements::of(net);
+        Ok(Hydraulics {
+            net,
+            n_junctions: self.n_junctions,
+            laws: elements.laws,
+            roles: elements.roles,
+            settings: elements.settings,
+            source_grade: elements.source_grade,
+            ends: self.ends.clone(),
+            valve_kinds: elements.valve_kinds,
+            pressure_valves: elements.pressure_valves,
+            link_rows: self.link_rows.clone(),
+            link_slots: self.link_slots.clone(),
+            pattern: self.pattern.clone(),
+            row_of: self.row_of.clone(),
+            diag_slot: self.diag_slot.clone(),
+            adj_ptr: self.adj_ptr.clone(),
+            adj_links: self.adj_links.clone(),
+            analysis: self.analysis.clone(),
         })
     }
 
