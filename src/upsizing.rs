@@ -29,7 +29,7 @@ use serde::Serialize;
 use thiserror::Error;
 
 use crate::criteria::Criteria;
-use crate::fireflow::{sweep, FireFlowSetup, HydrantNote, HydrantResult, Outcome};
+use crate::fireflow::{sweep, FireFlowSetup, HydrantNote, HydrantResult, Outcome, SweepError};
 use crate::hydraulics::{Hydraulics, SolveError};
 use crate::model::{HeadlossFormula, Network, Pipe};
 use crate::units::{Quantity, UnitSystem, KPA_PER_M_OF_HEAD};
@@ -62,7 +62,7 @@ pub enum UpsizeError {
     #[error("{0}")]
     Solve(#[from] SolveError),
     #[error("cannot start worker threads: {0}")]
-    Threads(#[from] rayon::ThreadPoolBuildError),
+    Threads(#[from] SweepError),
 }
 
 /// How a replacement is priced.

@@ -14,7 +14,7 @@ pub mod supply_paths;
 mod sweep;
 
 pub use search::analyse_hydrant;
-pub use sweep::{sweep, SweepStats};
+pub use sweep::{sweep, SweepError, SweepStats};
 
 use serde::Serialize;
 

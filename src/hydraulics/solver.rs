@@ -409,7 +409,7 @@ impl<'n> Hydraulics<'n> {
             return Err(SolveError::Internal("the network has no junctions".into()));
         }
         let pairs = junction_pairs(net);
-        let pattern = OrderedPattern::new(nj, &pairs).map_err(SolveError::Internal)?;
+        let pattern = OrderedPattern::new(nj, &pairs)?;
         let off_slot: Vec<Option<usize>> = net
             .links
             .iter()
@@ -462,7 +462,7 @@ impl<'n> Hydraulics<'n> {
             })
             .collect();
         let (adj_ptr, adj_links) = adjacency(net);
-        let analysis = SymbolicAnalysis::new(&pattern).map_err(SolveError::Internal)?;
+        let analysis = SymbolicAnalysis::new(&pattern)?;
         let elements = Elements::of(net);
         Ok(Hydraulics {
             net,
