@@ -25,7 +25,6 @@
 
 use std::collections::{BTreeMap, BTreeSet};
 
-use serde::Serialize;
 use thiserror::Error;
 
 use crate::criteria::Criteria;
@@ -118,7 +117,7 @@ pub struct UpsizeConfig {
 }
 
 /// One pipe replacement of a plan.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct Upsizing {
     pub link: usize,
     pub from_diameter_m: f64,
@@ -128,7 +127,7 @@ pub struct Upsizing {
 }
 
 /// A hydrant that upsizing cannot help, and why.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct SetAside {
     pub hydrant: usize,
     pub reason: &'static str,

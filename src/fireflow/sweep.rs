@@ -6,13 +6,12 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use std::time::{Duration, Instant};
 
 use rayon::prelude::*;
-use serde::Serialize;
 use thiserror::Error;
 
 use super::{analyse_hydrant, FireFlowSetup, HydrantResult};
 
 /// Work done by a sweep, for `--stats`.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct SweepStats {
     pub hydrants: usize,
     pub solves: u64,
