@@ -29,6 +29,7 @@ use thiserror::Error;
 
 use crate::criteria::Criteria;
 use crate::fireflow::{sweep, FireFlowSetup, HydrantNote, HydrantResult, Outcome, SweepError};
+use crate::hydraulics::headloss::{HW_DIAMETER_EXPONENT, HW_FLOW_EXPONENT};
 use crate::hydraulics::{Hydraulics, SolveError};
 use crate::model::{HeadlossFormula, Network, Pipe};
 use crate::units::{Quantity, UnitSystem, KPA_PER_M_OF_HEAD};
@@ -213,7 +214,8 @@ fn still_pass(
 fn resistance_ratio(net: &Network, pipe: &Pipe, to_d: f64, new_roughness: f64) -> f64 {
     match net.headloss {
         HeadlossFormula::HazenWilliams => {
-            (pipe.roughness / new_roughness).powf(1.852) * (pipe.diameter_m / to_d).powf(4.8704)
+            (pipe.roughness / new_roughness).powf(HW_FLOW_EXPONENT)
+                * (pipe.diameter_m / to_d).powf(HW_DIAMETER_EXPONENT)
         }
         // Darcy-Weisbach at a similar friction factor: r ∝ D⁻⁵.
         HeadlossFormula::DarcyWeisbach => (pipe.diameter_m / to_d).powi(5),

@@ -44,10 +44,6 @@ impl Tolerance {
         head_m: 1.0e-6,
         flow_m3s: 1.0e-7,
     };
-    /// For the many solves of a fire-flow search: 2e-4 m (0.0003 psi) on the estimated
-    /// remaining error, still well inside the
-    /// 0.01 psi resolution of a residual pressure, and 1e-4 m³/s (1.6 gpm) on link flows (the
-    /// fire flow itself is a demand, exact whatever the tolerance).
     /// For the solves of a fire-flow search that place a flow (the held solve, bracket probes):
     /// 2e-3 m (0.003 psi) and 3e-4 m³/s. A flow found where a junction is at the floor moves by
     /// δh/(1.852·(S − floor)) relative, under 0.05 % for 2 m or more between static head and
@@ -60,6 +56,10 @@ impl Tolerance {
         head_m: 2.0e-3,
         flow_m3s: 3.0e-4,
     };
+    /// For the many solves of a fire-flow search: 2e-4 m (0.0003 psi) on the estimated
+    /// remaining error, still well inside the 0.01 psi resolution of a residual pressure, and
+    /// 1e-4 m³/s (1.6 gpm) on link flows (the fire flow itself is a demand, exact whatever the
+    /// tolerance).
     pub const SEARCH: Tolerance = Tolerance {
         head_m: 2.0e-4,
         flow_m3s: 1.0e-4,
@@ -557,7 +557,6 @@ impl<'n> Hydraulics<'n> {
         (self.pattern.nnz(), self.analysis.factor_len())
     }
 
-    /// The link law (for reports of head loss).
     /// The linearised response of heads (per node, m) and link flows (m³/s) to one more m³/s
     /// drawn at junction `node`, from the workspace's current factorization (that of the last
     /// solve); `None` when there is none. This is the sensitivity of the last state to a
@@ -582,6 +581,7 @@ impl<'n> Hydraulics<'n> {
         Some((heads, flows))
     }
 
+    /// The link law (for reports of head loss).
     pub fn law(&self, link: usize) -> &LinkLaw {
         &self.laws[link]
     }
@@ -1511,6 +1511,37 @@ impl Solution {
 #[cfg(test)]
 mod tests {
     use super::Tolerance;
+
+    /// Each `Tolerance` constant's doc comment states its own values (a doc that drifted onto
+    /// another constant gave readers the wrong figures; common practice, no source).
+    #[test]
+    fn each_tolerance_doc_states_its_values() {
+        let source = include_str!("solver.rs");
+        for (name, t) in [
+            ("STEADY", Tolerance::STEADY),
+            ("BRACKET", Tolerance::BRACKET),
+            ("SEARCH", Tolerance::SEARCH),
+        ] {
+            let decl = format!("pub const {name}: Tolerance");
+            let at = source.find(&decl).expect("declaration");
+            let doc: String = source[..at]
+                .lines()
+                .rev()
+                .skip(1)
+                .take_while(|l| l.trim_start().starts_with("///"))
+                .collect::<Vec<_>>()
+                .join(" ");
+            for value in [
+                format!("{:e} m ", t.head_m),
+                format!("{:e} m³/s", t.flow_m3s),
+            ] {
+                assert!(
+                    doc.contains(&value),
+                    "the doc of {name} lacks {value:?}: {doc}"
+                );
+            }
+        }
+    }
 
     /// The tolerances docs/fire-flow-method.md states are the ones the solver uses (the doc is
     /// the source of the figures users read; common practice, no source).
