@@ -652,11 +652,11 @@ impl<'n> Hydraulics<'n> {
     /// [`Hydraulics::cold_start`]).
     ///
     /// Each iteration runs the phases in order: the states' pins and factorization reuse
-    /// ([`Self::refresh_states`], after a state change), the assembly of the step
-    /// ([`Self::assemble_step`]), the linear solve ([`Self::linear_solve`]), the step with its
-    /// line search ([`Self::take_step`]), the flows of regulating valves
-    /// ([`Self::regulating_valve_flows`]), the convergence test ([`Self::converged`]) and, once
-    /// converged for the current states, control switching ([`Self::switch_controls`]).
+    /// (`refresh_states`, after a state change), the assembly of the step
+    /// (`assemble_step`), the linear solve (`linear_solve`), the step with its
+    /// line search (`take_step`), the flows of regulating valves
+    /// (`regulating_valve_flows`), the convergence test (`converged`) and, once
+    /// converged for the current states, control switching (`switch_controls`).
     pub fn solve(
         &self,
         ws: &mut Workspace,
