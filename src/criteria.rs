@@ -54,7 +54,7 @@ struct UpsizingTable {
     min_main_diameter: Option<Spanned<f64>>,
 }
 
-/// Which junctions the residual floor applies to during a fire flow.
+/// Which junctions the residual floor applies to during a fire flow (report.json writes it).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Scope {
@@ -98,8 +98,7 @@ pub struct Criteria {
 }
 
 /// Where a required fire flow came from.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize)]
-#[serde(rename_all = "lowercase")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum RequiredSource {
     Hydrant,
     Class,

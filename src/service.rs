@@ -2,14 +2,11 @@
 //! under peak-hour demand, and at or below its maximum under minimum-hour demand (average-day
 //! demand when the network gives no minimum-hour factor).
 
-use serde::Serialize;
-
 use crate::criteria::Criteria;
 use crate::hydraulics::{Hydraulics, SolveError};
 use crate::steady::{control_notes, solve_condition, Condition, ControlNote};
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum ServiceResult {
     Pass,
     /// Below the minimum at peak hour.
@@ -29,7 +26,7 @@ impl ServiceResult {
 }
 
 /// One junction's service pressures, kPa.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct ServiceRow {
     pub junction: usize,
     /// `None` when the junction is cut off from every source in that condition.
@@ -41,7 +38,7 @@ pub struct ServiceRow {
 }
 
 /// The service-pressure check of a network.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct ServiceReport {
     pub peak_hour_factor: f64,
     /// The low-demand condition used: min-hour, or average-day without a min-hour factor.
@@ -53,7 +50,7 @@ pub struct ServiceReport {
 }
 
 /// A note about the controls in one of the service conditions.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct ServiceNote {
     pub condition: Condition,
     pub note: ControlNote,

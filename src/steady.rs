@@ -1,14 +1,11 @@
 //! One steady state at a design condition (`firemain solve`): solve, then collect per-element
 //! results in SI for the report layer.
 
-use serde::Serialize;
-
 use crate::hydraulics::{Hydraulics, LinkState, Solution, SolveError, SolveRequest};
 use crate::model::{LinkKind, Network, ValveKind, ValveStatus};
 
 /// A demand condition of the network's `[demand]` factors.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Condition {
     /// Average-day demand (x1).
     Average,
@@ -69,7 +66,7 @@ pub fn solve_condition(
 }
 
 /// Results at one node, SI.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct NodeResult {
     pub id: String,
     pub kind: &'static str,
@@ -83,7 +80,7 @@ pub struct NodeResult {
 }
 
 /// Results at one link, SI.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct LinkResult {
     pub id: String,
     pub kind: &'static str,
@@ -100,7 +97,7 @@ pub struct LinkResult {
 }
 
 /// A whole steady state, ready to report.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct SteadyReport {
     pub network: String,
     pub condition: Condition,
@@ -209,7 +206,7 @@ fn source_outflows(net: &Network, sol: &Solution) -> Vec<f64> {
 
 /// A fact about the controls of one solved state, for the report to put into words (see
 /// `report::words::control_note`). Indices are into the network's links and nodes.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq)]
 pub enum ControlNote {
     /// An active PRV or PSV that cannot hold its setting and is wide open.
     ValveWideOpen { link: usize, valve: ValveKind },

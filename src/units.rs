@@ -4,7 +4,7 @@
 //! are read (`model`), and results once when they are written (`report`), with the functions here.
 //! Anyone can reproduce a firemain result from the formulas in `hydraulics` and these constants.
 
-use serde::{Deserialize, Serialize};
+use serde::Deserialize;
 
 /// Standard gravity, m/s² (CGPM 1901; exact by definition).
 pub const GRAVITY_M_PER_S2: f64 = 9.80665;
@@ -30,7 +30,7 @@ pub const KPA_PER_PSI: f64 = 6.894757;
 pub const M3S_PER_GPM: f64 = L_PER_US_GAL / 1000.0 / 60.0;
 
 /// The unit system of a network or criteria file: every number in its files uses it.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum UnitSystem {
     /// ft, in, gpm, psi, ft/s.

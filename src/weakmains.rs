@@ -4,8 +4,6 @@
 //! head lost on its binding junction's supply paths ([`crate::fireflow::supply_paths`]); this
 //! module sums them per pipe and flags the pipes whose size, roughness or velocity explain it.
 
-use serde::Serialize;
-
 use crate::criteria::Criteria;
 use crate::fireflow::{HydrantResult, Outcome};
 use crate::model::{HeadlossFormula, LinkKind, Network};
@@ -30,8 +28,7 @@ pub fn default_min_main_diameter_m(units: UnitSystem) -> f64 {
 }
 
 /// Why a main is flagged.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-#[serde(tag = "kind", rename_all = "kebab-case")]
+#[derive(Clone, Debug, PartialEq)]
 pub enum WeakReason {
     /// Unit head loss under fire flow above [`HIGH_UNIT_HEADLOSS`].
     HighUnitHeadloss { per_1000: f64 },
@@ -49,7 +46,7 @@ pub enum WeakReason {
 }
 
 /// A main that limits failing hydrants, aggregated over all of them.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct WeakMain {
     pub link: usize,
     /// Failing hydrants whose supply paths it is on (among their largest shares).

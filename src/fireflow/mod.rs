@@ -14,9 +14,7 @@ pub mod supply_paths;
 mod sweep;
 
 pub use search::analyse_hydrant;
-pub use sweep::{sweep, SweepStats};
-
-use serde::Serialize;
+pub use sweep::{sweep, SweepError, SweepStats};
 
 use crate::criteria::{Criteria, RequiredSource, Scope};
 use crate::hydraulics::{
@@ -27,8 +25,7 @@ use crate::steady::Condition;
 use crate::units::head_m_from_pressure_kpa;
 
 /// The binding constraint at the available flow.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum LimitedBy {
     /// The hydrant's own junction reaches the floor.
     HydrantPressure,
@@ -56,8 +53,7 @@ impl LimitedBy {
 }
 
 /// Pass or fail against the required flow, or an analysis error.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Outcome {
     Pass,
     Fail,
@@ -75,8 +71,7 @@ impl Outcome {
 }
 
 /// A finding about one hydrant, in SI; the report layer words it in the user's units.
-#[derive(Clone, Debug, PartialEq, Serialize)]
-#[serde(tag = "kind", rename_all = "kebab-case")]
+#[derive(Clone, Debug, PartialEq)]
 pub enum HydrantNote {
     /// The floor is already violated with no fire flow.
     FloorViolatedWithoutFireFlow { junction: usize, pressure_kpa: f64 },
@@ -116,7 +111,7 @@ pub enum HydrantNote {
 }
 
 /// The result for one hydrant, SI units.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct HydrantResult {
     /// Index into `Network::hydrants`.
     pub hydrant: usize,

@@ -14,15 +14,13 @@
 //! It lives with the fire-flow search, which records each failing hydrant's shares; the weak
 //! mains analysis downstream aggregates them.
 
-use serde::Serialize;
-
 use crate::hydraulics::Solution;
 use crate::model::{LinkKind, Network};
 
 /// Pipes kept per failing hydrant (the largest shares).
 pub const PIPES_PER_HYDRANT: usize = 12;
 /// One pipe on a failing hydrant's supply paths, at the required flow.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct PipeShare {
     pub link: usize,
     /// Share of the head lost between the sources and the binding junction (0..1).

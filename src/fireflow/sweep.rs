@@ -6,12 +6,12 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use std::time::{Duration, Instant};
 
 use rayon::prelude::*;
-use serde::Serialize;
+use thiserror::Error;
 
 use super::{analyse_hydrant, FireFlowSetup, HydrantResult};
 
 /// Work done by a sweep, for `--stats`.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct SweepStats {
     pub hydrants: usize,
     pub solves: u64,
@@ -23,6 +23,15 @@ pub struct SweepStats {
     pub threads: usize,
 }
 
+/// Why a sweep could not run. A hydrant whose analysis fails is a result of its own (an
+/// `error` row), never a sweep error.
+#[derive(Debug, Error)]
+pub enum SweepError {
+    /// The pool of worker threads could not be started (the message is the system's).
+    #[error(transparent)]
+    Threads(#[from] rayon::ThreadPoolBuildError),
+}
+
 /// Analyses the hydrants `indices` with `threads` workers (`None`: all cores). `progress` is
 /// called with the number of hydrants done so far, from any thread.
 pub fn sweep(
@@ -30,7 +39,7 @@ pub fn sweep(
     indices: &[usize],
     threads: Option<usize>,
     progress: &(dyn Fn(usize) + Sync),
-) -> Result<(Vec<HydrantResult>, SweepStats), rayon::ThreadPoolBuildError> {
+) -> Result<(Vec<HydrantResult>, SweepStats), SweepError> {
     let started = Instant::now();
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads.unwrap_or(0))

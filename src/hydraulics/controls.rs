@@ -7,8 +7,6 @@
 //! keeps its last state, so the outer loop always ends. Such an element is reported as one
 //! whose control could not settle.
 
-use serde::Serialize;
-
 use crate::model::{Link, LinkKind, PipeStatus, ValveKind, ValveStatus};
 
 /// Switches allowed per element and solve before its state is frozen.
@@ -22,8 +20,7 @@ pub const SWITCH_HEAD_TOL_M: f64 = 1.0e-3;
 pub const SWITCH_FLOW_TOL_M3S: f64 = 1.0e-7;
 
 /// The operating state of a link.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum LinkState {
     /// Pipes and valves: conducting by their head-loss law.
     Open,

@@ -10,6 +10,8 @@
 
 use std::sync::Arc;
 
+use thiserror::Error;
+
 use faer::dyn_stack::{MemBuffer, MemStack, StackReq};
 use faer::linalg::cholesky::llt::factor::{
     cholesky_in_place, cholesky_in_place_scratch, LltRegularization,
@@ -28,6 +30,22 @@ pub trait SpdFactorization: Send {
     fn refactor(&mut self, values: &[f64]) -> Result<(), NotPositiveDefinite>;
     /// Overwrites `rhs` with the solution of A·x = rhs, using the last factorization.
     fn solve_in_place(&mut self, rhs: &mut [f64]);
+}
+
+/// Why the ordering or the symbolic analysis of a junction matrix failed. None of these is a
+/// property of the user's network that the user can fix, except its size.
+#[derive(Debug, Clone, PartialEq, Eq, Error)]
+pub enum FactorError {
+    #[error("fill-reducing ordering failed: {0}")]
+    Ordering(String),
+    #[error("symbolic factorization failed: {0}")]
+    Symbolic(String),
+    #[error("symbolic factorization is not simplicial")]
+    NotSimplicial,
+    #[error("the network is too large for 32-bit matrix indices")]
+    TooLarge,
+    #[error("the factor's columns do not start with their diagonal")]
+    DiagonalNotFirst,
 }
 
 /// The matrix was not numerically positive definite (a junction cut off from every fixed grade).
@@ -52,7 +70,7 @@ pub struct OrderedPattern {
 impl OrderedPattern {
     /// The pattern with a diagonal for each of `n` indices and an off-diagonal entry for each
     /// pair (a, b), a ≠ b (duplicates allowed).
-    pub fn new(n: usize, pairs: &[(usize, usize)]) -> Result<Self, String> {
+    pub fn new(n: usize, pairs: &[(usize, usize)]) -> Result<Self, FactorError> {
         // Natural-order lower triangle, for the ordering.
         let (col_ptr, row_idx) = compressed_columns(n, pairs, |a, b| (a.min(b), a.max(b)));
         let natural = SymbolicSparseColMat::<usize>::new_checked(n, n, col_ptr, None, row_idx);
@@ -67,7 +85,7 @@ impl OrderedPattern {
             amd::Control::default(),
             MemStack::new(&mut mem),
         )
-        .map_err(|e| format!("fill-reducing ordering failed: {e:?}"))?;
+        .map_err(|e| FactorError::Ordering(format!("{e:?}")))?;
         // perm[new] = old, so the position of original index i is perm_inv[i].
         let position = perm_inv;
         // Ordered upper triangle: the entry of (a, b) in the column of the later position.
@@ -166,7 +184,7 @@ impl std::fmt::Debug for SymbolicAnalysis {
 
 impl SymbolicAnalysis {
     /// Analyses the ordered pattern (done once per network).
-    pub fn new(pattern: &OrderedPattern) -> Result<Arc<Self>, String> {
+    pub fn new(pattern: &OrderedPattern) -> Result<Arc<Self>, FactorError> {
         let n = pattern.n;
         let sym = SymbolicSparseColMat::<usize>::new_checked(
             n,
@@ -188,14 +206,13 @@ impl SymbolicAnalysis {
                 ..Default::default()
             },
         )
-        .map_err(|e| format!("symbolic factorization failed: {e:?}"))?;
+        .map_err(|e| FactorError::Symbolic(format!("{e:?}")))?;
         let SymbolicCholeskyRaw::Simplicial(simplicial) = symbolic.raw() else {
-            return Err("symbolic factorization is not simplicial".into());
+            return Err(FactorError::NotSimplicial);
         };
-        let too_large = |_| "the network is too large for 32-bit matrix indices".to_string();
-        let to_u32 = |v: &[usize]| -> Result<Vec<u32>, String> {
+        let to_u32 = |v: &[usize]| -> Result<Vec<u32>, FactorError> {
             v.iter()
-                .map(|&x| u32::try_from(x).map_err(too_large))
+                .map(|&x| u32::try_from(x).map_err(|_| FactorError::TooLarge))
                 .collect()
         };
         let l_col_ptr = to_u32(simplicial.col_ptr())?;
@@ -204,7 +221,7 @@ impl SymbolicAnalysis {
         for j in 0..n {
             let (first, end) = (l_col_ptr[j] as usize, l_col_ptr[j + 1] as usize);
             if first >= end || l_row_idx[first] as usize != j {
-                return Err("the factor's columns do not start with their diagonal".into());
+                return Err(FactorError::DiagonalNotFirst);
             }
             for &i in &l_row_idx[first + 1..end] {
                 counts[i as usize + 1] += 1;

@@ -39,6 +39,12 @@ pub enum SolveError {
     Singular { junctions: Vec<String> },
     #[error("internal solver error: {0}")]
     Internal(String),
+    /// The ordering or symbolic analysis of the junction matrix failed.
+    #[error("internal solver error: {0}")]
+    Factor(#[from] factor::FactorError),
+    /// [`Hydraulics::with_links_replaced`] was given a network whose nodes or link ends differ.
+    #[error("internal solver error: the network's nodes or link ends differ from those the solver was prepared for")]
+    TopologyChanged,
 }
 
 fn list_values(items: &[(String, f64)]) -> String {

@@ -44,10 +44,6 @@ impl Tolerance {
         head_m: 1.0e-6,
         flow_m3s: 1.0e-7,
     };
-    /// For the many solves of a fire-flow search: 2e-4 m (0.0003 psi) on the estimated
-    /// remaining error, still well inside the
-    /// 0.01 psi resolution of a residual pressure, and 1e-4 m³/s (1.6 gpm) on link flows (the
-    /// fire flow itself is a demand, exact whatever the tolerance).
     /// For the solves of a fire-flow search that place a flow (the held solve, bracket probes):
     /// 2e-3 m (0.003 psi) and 3e-4 m³/s. A flow found where a junction is at the floor moves by
     /// δh/(1.852·(S − floor)) relative, under 0.05 % for 2 m or more between static head and
@@ -60,6 +56,10 @@ impl Tolerance {
         head_m: 2.0e-3,
         flow_m3s: 3.0e-4,
     };
+    /// For the many solves of a fire-flow search: 2e-4 m (0.0003 psi) on the estimated
+    /// remaining error, still well inside the 0.01 psi resolution of a residual pressure, and
+    /// 1e-4 m³/s (1.6 gpm) on link flows (the fire flow itself is a demand, exact whatever the
+    /// tolerance).
     pub const SEARCH: Tolerance = Tolerance {
         head_m: 2.0e-4,
         flow_m3s: 1.0e-4,
@@ -258,6 +258,69 @@ pub struct Solution {
     pub unsettled: Vec<usize>,
 }
 
+/// The iterate of one solve and the bookkeeping of its steps (see [`Hydraulics::solve`]).
+struct Iterate {
+    heads: Vec<f64>,
+    flows: Vec<f64>,
+    states: Vec<LinkState>,
+    /// The junction the request holds at a head, and the flow it draws beyond its demand.
+    held: Option<usize>,
+    drawn: Option<f64>,
+    /// State changes of each link so far.
+    switches: Vec<u8>,
+    unsettled: Vec<usize>,
+    isolated: Vec<usize>,
+    /// The states changed: pins and factorization reuse must be decided anew.
+    dirty: bool,
+    need_factor: bool,
+    /// The largest head and flow changes of the last step (infinite after a restart).
+    previous_step: f64,
+    previous_flow_step: f64,
+    factorizations: u32,
+    /// Whether the flows may violate continuity (at the start, and after a state change):
+    /// the line search needs a start that satisfies it.
+    continuity_pending: bool,
+}
+
+impl Iterate {
+    fn into_solution(self, iterations: u32) -> Solution {
+        Solution {
+            heads_m: self.heads,
+            flows_m3s: self.flows,
+            states: self.states,
+            iterations,
+            factorizations: self.factorizations,
+            fixed_head_outflow_m3s: self.drawn,
+            isolated: self.isolated,
+            unsettled: self.unsettled,
+        }
+    }
+}
+
+/// The links at each node, in compressed form: node n's links are
+/// `adj_links[adj_ptr[n]..adj_ptr[n + 1]]`, in link order.
+fn adjacency(net: &Network) -> (Vec<usize>, Vec<usize>) {
+    let nn = net.nodes.len();
+    let mut degree = vec![0usize; nn + 1];
+    for l in &net.links {
+        degree[l.from] += 1;
+        degree[l.to] += 1;
+    }
+    let mut adj_ptr = vec![0usize; nn + 1];
+    for n in 0..nn {
+        adj_ptr[n + 1] = adj_ptr[n] + degree[n];
+    }
+    let mut fill = adj_ptr.clone();
+    let mut adj_links = vec![0usize; adj_ptr[nn]];
+    for (i, l) in net.links.iter().enumerate() {
+        adj_links[fill[l.from]] = i;
+        fill[l.from] += 1;
+        adj_links[fill[l.to]] = i;
+        fill[l.to] += 1;
+    }
+    (adj_ptr, adj_links)
+}
+
 /// The (from, to) junctions of every link joining two different junctions: the off-diagonal
 /// entries of the junction matrix (links to a source only touch its diagonal).
 pub fn junction_pairs(net: &Network) -> Vec<(usize, usize)> {
@@ -269,12 +332,19 @@ pub fn junction_pairs(net: &Network) -> Vec<(usize, usize)> {
         .collect()
 }
 
-impl<'n> Hydraulics<'n> {
-    /// Prepares the solver for `net`: link laws, matrix pattern, and the symbolic
-    /// factorization (once per network).
-    pub fn new(net: &'n Network) -> Result<Self, SolveError> {
-        let nj = net.n_junctions;
-        let nn = net.nodes.len();
+/// What the solver takes from each element apart from the topology: the parts of
+/// [`Hydraulics`] that a change of pipe diameter or roughness renews.
+struct Elements {
+    laws: Vec<LinkLaw>,
+    roles: Vec<Role>,
+    settings: Vec<f64>,
+    source_grade: Vec<f64>,
+    valve_kinds: Vec<Option<ValveKind>>,
+    pressure_valves: Vec<usize>,
+}
+
+impl Elements {
+    fn of(net: &Network) -> Self {
         let laws: Vec<LinkLaw> = net
             .links
             .iter()
@@ -309,12 +379,41 @@ impl<'n> Hydraulics<'n> {
             })
             .collect();
         let source_grade = net.nodes.iter().map(|n| n.grade_m.unwrap_or(0.0)).collect();
+        let valve_kinds: Vec<Option<ValveKind>> = net
+            .links
+            .iter()
+            .map(|l| match &l.kind {
+                LinkKind::Valve(v) => Some(v.kind),
+                _ => None,
+            })
+            .collect();
+        let pressure_valves = valve_kinds
+            .iter()
+            .enumerate()
+            .filter(|(_, k)| matches!(k, Some(ValveKind::Prv | ValveKind::Psv)))
+            .map(|(i, _)| i)
+            .collect();
+        Elements {
+            laws,
+            roles,
+            settings,
+            source_grade,
+            valve_kinds,
+            pressure_valves,
+        }
+    }
+}
 
+impl<'n> Hydraulics<'n> {
+    /// Prepares the solver for `net`: link laws, matrix pattern, and the symbolic
+    /// factorization (once per network).
+    pub fn new(net: &'n Network) -> Result<Self, SolveError> {
+        let nj = net.n_junctions;
         if nj == 0 {
             return Err(SolveError::Internal("the network has no junctions".into()));
         }
         let pairs = junction_pairs(net);
-        let pattern = OrderedPattern::new(nj, &pairs).map_err(SolveError::Internal)?;
+        let pattern = OrderedPattern::new(nj, &pairs)?;
         let off_slot: Vec<Option<usize>> = net
             .links
             .iter()
@@ -366,48 +465,19 @@ impl<'n> Hydraulics<'n> {
                 }
             })
             .collect();
-        let valve_kinds: Vec<Option<ValveKind>> = net
-            .links
-            .iter()
-            .map(|l| match &l.kind {
-                LinkKind::Valve(v) => Some(v.kind),
-                _ => None,
-            })
-            .collect();
-        let pressure_valves = valve_kinds
-            .iter()
-            .enumerate()
-            .filter(|(_, k)| matches!(k, Some(ValveKind::Prv | ValveKind::Psv)))
-            .map(|(i, _)| i)
-            .collect();
-        let mut degree = vec![0usize; nn + 1];
-        for l in &net.links {
-            degree[l.from] += 1;
-            degree[l.to] += 1;
-        }
-        let mut adj_ptr = vec![0usize; nn + 1];
-        for n in 0..nn {
-            adj_ptr[n + 1] = adj_ptr[n] + degree[n];
-        }
-        let mut fill = adj_ptr.clone();
-        let mut adj_links = vec![0usize; adj_ptr[nn]];
-        for (i, l) in net.links.iter().enumerate() {
-            adj_links[fill[l.from]] = i;
-            fill[l.from] += 1;
-            adj_links[fill[l.to]] = i;
-            fill[l.to] += 1;
-        }
-        let analysis = SymbolicAnalysis::new(&pattern).map_err(SolveError::Internal)?;
+        let (adj_ptr, adj_links) = adjacency(net);
+        let analysis = SymbolicAnalysis::new(&pattern)?;
+        let elements = Elements::of(net);
         Ok(Hydraulics {
             net,
             n_junctions: nj,
-            laws,
-            roles,
-            settings,
-            source_grade,
+            laws: elements.laws,
+            roles: elements.roles,
+            settings: elements.settings,
+            source_grade: elements.source_grade,
             ends,
-            valve_kinds,
-            pressure_valves,
+            valve_kinds: elements.valve_kinds,
+            pressure_valves: elements.pressure_valves,
             link_rows,
             link_slots,
             pattern,
@@ -416,6 +486,46 @@ impl<'n> Hydraulics<'n> {
             adj_ptr,
             adj_links,
             analysis,
+        })
+    }
+
+    /// The solver for `net`, a network with the same nodes and links joining the same ends as
+    /// this one's (e.g. with pipes replaced by other diameters or roughnesses): the ordering,
+    /// the symbolic analysis and the index maps, which depend only on which nodes the links
+    /// join, are shared; only the link laws, roles and settings and the source grades are made
+    /// anew. The result is the one [`Hydraulics::new`] would give, without re-ordering and
+    /// re-analysing the matrix. An error when the topology differs.
+    pub fn with_links_replaced<'m>(&self, net: &'m Network) -> Result<Hydraulics<'m>, SolveError> {
+        let same_topology = net.n_junctions == self.n_junctions
+            && net.nodes.len() == self.net.nodes.len()
+            && net.links.len() == self.ends.len()
+            && net
+                .links
+                .iter()
+                .zip(&self.ends)
+                .all(|(l, &(a, b))| l.from == a && l.to == b);
+        if !same_topology {
+            return Err(SolveError::TopologyChanged);
+        }
+        let elements = Elements::of(net);
+        Ok(Hydraulics {
+            net,
+            n_junctions: self.n_junctions,
+            laws: elements.laws,
+            roles: elements.roles,
+            settings: elements.settings,
+            source_grade: elements.source_grade,
+            ends: self.ends.clone(),
+            valve_kinds: elements.valve_kinds,
+            pressure_valves: elements.pressure_valves,
+            link_rows: self.link_rows.clone(),
+            link_slots: self.link_slots.clone(),
+            pattern: self.pattern.clone(),
+            row_of: self.row_of.clone(),
+            diag_slot: self.diag_slot.clone(),
+            adj_ptr: self.adj_ptr.clone(),
+            adj_links: self.adj_links.clone(),
+            analysis: self.analysis.clone(),
         })
     }
 
@@ -451,7 +561,6 @@ impl<'n> Hydraulics<'n> {
         (self.pattern.nnz(), self.analysis.factor_len())
     }
 
-    /// The link law (for reports of head loss).
     /// The linearised response of heads (per node, m) and link flows (m³/s) to one more m³/s
     /// drawn at junction `node`, from the workspace's current factorization (that of the last
     /// solve); `None` when there is none. This is the sensitivity of the last state to a
@@ -476,6 +585,7 @@ impl<'n> Hydraulics<'n> {
         Some((heads, flows))
     }
 
+    /// The link law (for reports of head loss).
     pub fn law(&self, link: usize) -> &LinkLaw {
         &self.laws[link]
     }
@@ -544,12 +654,59 @@ impl<'n> Hydraulics<'n> {
 
     /// Solves `request`, starting from `start` (a previous solution of the same network, or
     /// [`Hydraulics::cold_start`]).
+    ///
+    /// Each iteration runs the phases in order: the states' pins and factorization reuse
+    /// (`refresh_states`, after a state change), the assembly of the step
+    /// (`assemble_step`), the linear solve (`linear_solve`), the step with its
+    /// line search (`take_step`), the flows of regulating valves
+    /// (`regulating_valve_flows`), the convergence test (`converged`) and, once
+    /// converged for the current states, control switching (`switch_controls`).
     pub fn solve(
         &self,
         ws: &mut Workspace,
         request: &SolveRequest<'_>,
         start: &Solution,
     ) -> Result<Solution, SolveError> {
+        let mut it = self.start_iterate(ws, request, start);
+        for iteration in 1..=MAX_ITERATIONS {
+            if it.dirty {
+                self.refresh_states(ws, request, &mut it)?;
+            }
+            self.assemble_step(ws, &it);
+            let factored_now = it.need_factor;
+            let full_step_h = self.linear_solve(ws, &mut it)?;
+            let Some((step_h, mut step_q)) = self.take_step(ws, &mut it, full_step_h, factored_now)
+            else {
+                continue;
+            };
+            self.regulating_valve_flows(ws, &mut it, &mut step_q);
+            if let (Some(j), Some(q)) = (it.held, it.drawn.as_mut()) {
+                let now = self.imbalance(j, &it.flows, &ws.demand);
+                step_q = step_q.max((now - *q).abs());
+                *q = now;
+            }
+            if self.converged(ws, &mut it, iteration, step_h, step_q, factored_now) {
+                if !self.switch_controls(request, &mut it) {
+                    return Ok(it.into_solution(iteration));
+                }
+                it.dirty = true;
+                it.continuity_pending = true;
+                it.previous_step = f64::INFINITY;
+                it.previous_flow_step = f64::INFINITY;
+            }
+        }
+        let nj = self.n_junctions;
+        Err(self.no_convergence(&it.heads, &it.flows, &it.states, &ws.node_step[..nj]))
+    }
+
+    /// The demands of `request` into the workspace, and the first iterate: `start`'s heads,
+    /// flows and states, sources at their grades.
+    fn start_iterate(
+        &self,
+        ws: &mut Workspace,
+        request: &SolveRequest<'_>,
+        start: &Solution,
+    ) -> Iterate {
         let net = self.net;
         let nj = self.n_junctions;
         let nl = net.links.len();
@@ -562,9 +719,9 @@ impl<'n> Hydraulics<'n> {
         // A junction held at a head is pinned there like the junction a PRV regulates; the
         // flow it draws beyond its demand follows from continuity after every step.
         let held = request.fixed_head.map(|(j, _)| j);
-        let mut drawn = held.map(|j| self.imbalance(j, &start.flows_m3s, &ws.demand));
+        let drawn = held.map(|j| self.imbalance(j, &start.flows_m3s, &ws.demand));
         let mut heads = start.heads_m.clone();
-        let mut flows = start.flows_m3s.clone();
+        let flows = start.flows_m3s.clone();
         let mut states = start.states.clone();
         heads[nj..].copy_from_slice(&self.source_grade[nj..]);
         // A PRV or PSV whose controlled junction the request holds starts in the state its
@@ -578,314 +735,352 @@ impl<'n> Hydraulics<'n> {
                 }
             }
         }
-        let mut switches = vec![0u8; nl];
-        let mut unsettled: Vec<usize> = Vec::new();
-        let mut isolated: Vec<usize> = Vec::new();
-        let mut dirty = true;
-        let mut need_factor = true;
-        let mut previous_step = f64::INFINITY;
-        let mut previous_flow_step = f64::INFINITY;
-        let mut factorizations = 0u32;
-        // Whether the flows may violate continuity (at the start, and after a state change):
-        // the line search needs a start that satisfies it.
-        let mut continuity_pending = true;
+        Iterate {
+            heads,
+            flows,
+            states,
+            held,
+            drawn,
+            switches: vec![0u8; nl],
+            unsettled: Vec::new(),
+            isolated: Vec::new(),
+            dirty: true,
+            need_factor: true,
+            previous_step: f64::INFINITY,
+            previous_flow_step: f64::INFINITY,
+            factorizations: 0,
+            continuity_pending: true,
+        }
+    }
 
-        for iteration in 1..=MAX_ITERATIONS {
-            if dirty {
-                isolated = self.pin_and_isolate(ws, request, &mut states, &mut flows)?;
-                for &j in &isolated {
-                    ws.pinned[j] = Some(heads[j]);
-                }
-                dirty = false;
-                // The factorization serves chord steps when it was made for these states and
-                // the same held junction, or for a held junction when none is held now: the
-                // matrix then differs only in that junction's row and column, which a border
-                // restores (see `solve_bordered`).
-                let (reusable, border) = match &ws.factor_key {
-                    Some((key, st)) if st == &states => match (*key, held) {
-                        (k, h) if k == h => (true, None),
-                        (Some(k), None) => (true, Some(k)),
-                        _ => (false, None),
+    /// After a state change: pins the junctions the states fix, finds the cut-off ones, and
+    /// decides whether the current factorization still serves.
+    fn refresh_states(
+        &self,
+        ws: &mut Workspace,
+        request: &SolveRequest<'_>,
+        it: &mut Iterate,
+    ) -> Result<(), SolveError> {
+        it.isolated = self.pin_and_isolate(ws, request, &mut it.states, &mut it.flows)?;
+        for &j in &it.isolated {
+            ws.pinned[j] = Some(it.heads[j]);
+        }
+        it.dirty = false;
+        // The factorization serves chord steps when it was made for these states and
+        // the same held junction, or for a held junction when none is held now: the
+        // matrix then differs only in that junction's row and column, which a border
+        // restores (see `solve_bordered`).
+        let (reusable, border) = match &ws.factor_key {
+            Some((key, st)) if st == &it.states => match (*key, it.held) {
+                (k, h) if k == h => (true, None),
+                (Some(k), None) => (true, Some(k)),
+                _ => (false, None),
+            },
+            _ => (false, None),
+        };
+        it.need_factor = !reusable;
+        ws.border_at = if reusable { border } else { None };
+        Ok(())
+    }
+
+    /// Assembles the junction system of the step: the right-hand side and, when a new
+    /// factorization is needed, the matrix values; also each link's conductance and the
+    /// known part of its flow change.
+    fn assemble_step(&self, ws: &mut Workspace, it: &Iterate) {
+        let nj = self.n_junctions;
+        let nl = self.ends.len();
+        let (heads, flows, states) = (&it.heads, &it.flows, &it.states);
+        let need_factor = it.need_factor;
+        // The step of every fixed node: a pinned junction moves to its target in this step,
+        // sources stay where they are.
+        for j in 0..nj {
+            ws.node_step[j] = match ws.pinned[j] {
+                Some(target) => target - heads[j],
+                None => 0.0,
+            };
+            ws.rhs[self.row_of[j]] = -ws.demand[j];
+        }
+        if need_factor {
+            ws.values.iter_mut().for_each(|v| *v = 0.0);
+        }
+        // One pass over the links: conductance g, the known part k of the flow change, the
+        // continuity residual and the known changes into the right-hand side, and (when
+        // refactoring) the matrix values.
+        for i in 0..nl {
+            let (a, b) = self.ends[i];
+            let q = flows[i];
+            let (g, k) = if a == b {
+                (0.0, -q)
+            } else {
+                match states[i] {
+                    st if st.conducts() => {
+                        let (phi, slope) = self.laws[i].evaluate_with(q, &mut ws.memo[i]);
+                        let g = if need_factor {
+                            1.0 / slope
+                        } else {
+                            ws.g_factored[i]
+                        };
+                        (g, -g * (phi - (heads[a] - heads[b])))
+                    }
+                    LinkState::Regulating => match self.valve_kinds[i] {
+                        Some(ValveKind::Fcv) => (0.0, self.settings[i] - q),
+                        _ => (0.0, 0.0),
                     },
-                    _ => (false, None),
-                };
-                need_factor = !reusable;
-                ws.border_at = if reusable { border } else { None };
+                    _ => (0.0, -q),
+                }
+            };
+            if need_factor {
+                ws.g_factored[i] = g;
             }
-
-            // The step of every fixed node: a pinned junction moves to its target in this step,
-            // sources stay where they are.
-            for j in 0..nj {
-                ws.node_step[j] = match ws.pinned[j] {
-                    Some(target) => target - heads[j],
-                    None => 0.0,
-                };
-                ws.rhs[self.row_of[j]] = -ws.demand[j];
+            ws.known[i] = k;
+            if a == b {
+                continue;
+            }
+            // Rows and slots of pinned junctions are overwritten below, so only the
+            // off-diagonal entry needs both ends free.
+            let carried = q + k;
+            let [row_a, row_b] = self.link_rows[i];
+            if row_a != NO_ROW {
+                ws.rhs[row_a as usize] += g * ws.node_step[b] - carried;
+            }
+            if row_b != NO_ROW {
+                ws.rhs[row_b as usize] += g * ws.node_step[a] + carried;
             }
             if need_factor {
-                ws.values.iter_mut().for_each(|v| *v = 0.0);
-            }
-            // One pass over the links: conductance g, the known part k of the flow change, the
-            // continuity residual and the known changes into the right-hand side, and (when
-            // refactoring) the matrix values.
-            for i in 0..nl {
-                let (a, b) = self.ends[i];
-                let q = flows[i];
-                let (g, k) = if a == b {
-                    (0.0, -q)
-                } else {
-                    match states[i] {
-                        st if st.conducts() => {
-                            let (phi, slope) = self.laws[i].evaluate_with(q, &mut ws.memo[i]);
-                            let g = if need_factor {
-                                1.0 / slope
-                            } else {
-                                ws.g_factored[i]
-                            };
-                            (g, -g * (phi - (heads[a] - heads[b])))
-                        }
-                        LinkState::Regulating => match self.valve_kinds[i] {
-                            Some(ValveKind::Fcv) => (0.0, self.settings[i] - q),
-                            _ => (0.0, 0.0),
-                        },
-                        _ => (0.0, -q),
-                    }
-                };
-                if need_factor {
-                    ws.g_factored[i] = g;
+                let [diag_a, diag_b, off] = self.link_slots[i];
+                if diag_a != NO_ROW {
+                    ws.values[diag_a as usize] += g;
                 }
-                ws.known[i] = k;
-                if a == b {
-                    continue;
+                if diag_b != NO_ROW {
+                    ws.values[diag_b as usize] += g;
                 }
-                // Rows and slots of pinned junctions are overwritten below, so only the
-                // off-diagonal entry needs both ends free.
-                let carried = q + k;
-                let [row_a, row_b] = self.link_rows[i];
-                if row_a != NO_ROW {
-                    ws.rhs[row_a as usize] += g * ws.node_step[b] - carried;
+                if off != NO_ROW && ws.pinned[a].is_none() && ws.pinned[b].is_none() {
+                    ws.values[off as usize] -= g;
                 }
-                if row_b != NO_ROW {
-                    ws.rhs[row_b as usize] += g * ws.node_step[a] + carried;
-                }
-                if need_factor {
-                    let [diag_a, diag_b, off] = self.link_slots[i];
-                    if diag_a != NO_ROW {
-                        ws.values[diag_a as usize] += g;
-                    }
-                    if diag_b != NO_ROW {
-                        ws.values[diag_b as usize] += g;
-                    }
-                    if off != NO_ROW && ws.pinned[a].is_none() && ws.pinned[b].is_none() {
-                        ws.values[off as usize] -= g;
-                    }
-                }
-            }
-            for j in 0..nj {
-                if ws.pinned[j].is_some() {
-                    ws.rhs[self.row_of[j]] = ws.node_step[j];
-                    if need_factor {
-                        ws.values[self.diag_slot[j]] = 1.0;
-                    }
-                }
-            }
-            let factored_now = need_factor;
-            if need_factor {
-                ws.factor_key = None;
-                ws.factor
-                    .refactor(&ws.values)
-                    .map_err(|_| self.singular_error(ws))?;
-                ws.factor_key = Some((held, states.clone()));
-                ws.border_at = None;
-                ws.border_z = None;
-                factorizations += 1;
-            }
-            match ws.border_at {
-                Some(h) => self.solve_bordered(ws, h),
-                None => ws.factor.solve_in_place(&mut ws.rhs),
-            }
-            let mut full_step_h = 0.0_f64;
-            for j in 0..nj {
-                let d = ws.rhs[self.row_of[j]];
-                if !d.is_finite() {
-                    return Err(SolveError::Internal(
-                        "the linear solve produced a non-finite head".into(),
-                    ));
-                }
-                ws.node_step[j] = d;
-            }
-            for j in 0..nj {
-                if ws.pinned[j].is_none() {
-                    full_step_h = full_step_h.max(ws.node_step[j].abs());
-                }
-            }
-
-            // Update heads and flows, with a line search on large steps once continuity holds
-            // (a Newton step from far away can overshoot, e.g. when a fire flow is added to a
-            // state with near-zero flows in the pipes around the hydrant).
-            // Steps that shrink at least twofold need no line search: the iteration contracts.
-            let contracting = full_step_h < 0.5 * previous_step;
-            let search =
-                !continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M && !contracting;
-            if search {
-                self.compute_flow_step(ws);
-            }
-            let alpha = if search {
-                match self.line_search(ws, &flows, &states, factored_now) {
-                    Some(alpha) => alpha,
-                    None => {
-                        // A chord step on a stale factorization that does not descend:
-                        // discard it and take a Newton step instead.
-                        need_factor = true;
-                        previous_step = f64::INFINITY;
-                        previous_flow_step = f64::INFINITY;
-                        continue;
-                    }
-                }
-            } else {
-                1.0
-            };
-            continuity_pending = false;
-            let mut step_h = 0.0_f64;
-            for j in 0..nj {
-                let d = ws.node_step[j];
-                if ws.pinned[j].is_none() {
-                    heads[j] += alpha * d;
-                    step_h = step_h.max((alpha * d).abs());
-                } else {
-                    heads[j] += d;
-                }
-            }
-            let mut step_q = 0.0_f64;
-            if search {
-                for i in 0..nl {
-                    let dq = alpha * ws.flow_step[i];
-                    flows[i] += dq;
-                    step_q = step_q.max(dq.abs());
-                }
-            } else {
-                // The full step, computed as it is applied (one pass over the links).
-                for i in 0..nl {
-                    let (a, b) = self.ends[i];
-                    let dq = ws.known[i] + ws.g_factored[i] * (ws.node_step[a] - ws.node_step[b]);
-                    flows[i] += dq;
-                    step_q = step_q.max(dq.abs());
-                }
-            }
-            // Regulating PRV/PSV: flow from continuity at the junction they hold.
-            for &i in &self.pressure_valves {
-                if states[i] != LinkState::Regulating {
-                    continue;
-                }
-                let l = &net.links[i];
-                let held = match self.valve_kind(i) {
-                    Some(ValveKind::Prv) => l.to,
-                    Some(ValveKind::Psv) => l.from,
-                    _ => continue,
-                };
-                let old = flows[i];
-                let residual = self.imbalance(held, &flows, &ws.demand);
-                // At `to` the valve flow enters; at `from` it leaves.
-                flows[i] = if held == l.to {
-                    old - residual
-                } else {
-                    old + residual
-                };
-                step_q = step_q.max((flows[i] - old).abs());
-                // The valve's other end saw the old flow in this step: continuity there is off
-                // by the change until the next step, so the next step takes no line search.
-                if (flows[i] - old).abs() > 1e-12 {
-                    continuity_pending = true;
-                }
-            }
-            if let (Some(j), Some(q)) = (held, drawn.as_mut()) {
-                let now = self.imbalance(j, &flows, &ws.demand);
-                step_q = step_q.max((now - *q).abs());
-                *q = now;
-            }
-            let ratio = step_h / previous_step;
-            let flow_ratio = step_q / previous_flow_step;
-            previous_step = step_h;
-            previous_flow_step = step_q;
-            let flow_tolerance = match drawn {
-                Some(q) => ws
-                    .tolerance
-                    .flow_m3s
-                    .min(DRAWN_FLOW_RELATIVE * q.abs())
-                    .max(Tolerance::STEADY.flow_m3s),
-                None => ws.tolerance.flow_m3s,
-            };
-            need_factor = step_h > CHORD_MAX_STEP_M
-                || ratio > CHORD_MAX_RATIO
-                || (flow_ratio > CHORD_MAX_RATIO && step_q > flow_tolerance);
-
-            // A regulating valve's other end sees its new flow one step late: a step that moved
-            // such a flow converges only linearly, whatever the factorization, so the step
-            // alone does not bound the remaining error.
-            let newton = factored_now && !continuity_pending;
-            let flows_converged = Self::within(step_q, flow_ratio, newton, flow_tolerance);
-            let heads_converged = Self::within(step_h, ratio, newton, ws.tolerance.head_m)
-                || (iteration >= STALL_CHECK_AFTER
-                    && flows_converged
-                    && self.equations_hold(ws, &heads, &flows, &states, flow_tolerance));
-            if heads_converged && flows_converged {
-                // Converged for these states: apply the switching rules.
-                let mut changed = false;
-                for i in 0..nl {
-                    if self.roles[i] != Role::Controlled {
-                        continue;
-                    }
-                    let l = &net.links[i];
-                    let view = LinkView {
-                        state: states[i],
-                        head_from: heads[l.from],
-                        head_to: heads[l.to],
-                        flow: flows[i],
-                        setting: self.settings[i],
-                        open_loss: open_valve_loss,
-                        shutoff_m: match &l.kind {
-                            LinkKind::Pump(p) => p.shutoff_at_speed_m(),
-                            _ => 0.0,
-                        },
-                    };
-                    let next = if self.is_held_by_request(i, request) {
-                        controls::next_state_with_held_end(l, &view)
-                    } else {
-                        controls::next_state(l, &view)
-                    };
-                    if next != states[i] {
-                        if switches[i] < MAX_SWITCHES {
-                            switches[i] += 1;
-                            states[i] = next;
-                            if !next.conducts() && next != LinkState::Regulating {
-                                flows[i] = 0.0;
-                            }
-                            changed = true;
-                        } else if !unsettled.contains(&i) {
-                            unsettled.push(i);
-                        }
-                    }
-                }
-                if !changed {
-                    let fixed_head_outflow_m3s = drawn;
-                    return Ok(Solution {
-                        heads_m: heads,
-                        flows_m3s: flows,
-                        states,
-                        iterations: iteration,
-                        factorizations,
-                        fixed_head_outflow_m3s,
-                        isolated,
-                        unsettled,
-                    });
-                }
-                dirty = true;
-                continuity_pending = true;
-                previous_step = f64::INFINITY;
-                previous_flow_step = f64::INFINITY;
             }
         }
-        Err(self.no_convergence(&heads, &flows, &states, &ws.node_step[..nj]))
+        for j in 0..nj {
+            if ws.pinned[j].is_some() {
+                ws.rhs[self.row_of[j]] = ws.node_step[j];
+                if need_factor {
+                    ws.values[self.diag_slot[j]] = 1.0;
+                }
+            }
+        }
+    }
+
+    /// Factorizes the assembled matrix when needed and solves for the head step of every
+    /// junction (into `ws.node_step`); returns the largest head step of a free junction, m.
+    fn linear_solve(&self, ws: &mut Workspace, it: &mut Iterate) -> Result<f64, SolveError> {
+        let nj = self.n_junctions;
+        if it.need_factor {
+            ws.factor_key = None;
+            ws.factor
+                .refactor(&ws.values)
+                .map_err(|_| self.singular_error(ws))?;
+            ws.factor_key = Some((it.held, it.states.clone()));
+            ws.border_at = None;
+            ws.border_z = None;
+            it.factorizations += 1;
+        }
+        match ws.border_at {
+            Some(h) => self.solve_bordered(ws, h),
+            None => ws.factor.solve_in_place(&mut ws.rhs),
+        }
+        let mut full_step_h = 0.0_f64;
+        for j in 0..nj {
+            let d = ws.rhs[self.row_of[j]];
+            if !d.is_finite() {
+                return Err(SolveError::Internal(
+                    "the linear solve produced a non-finite head".into(),
+                ));
+            }
+            ws.node_step[j] = d;
+        }
+        for j in 0..nj {
+            if ws.pinned[j].is_none() {
+                full_step_h = full_step_h.max(ws.node_step[j].abs());
+            }
+        }
+        Ok(full_step_h)
+    }
+
+    /// Updates heads and flows by the step, with a line search on large steps once continuity
+    /// holds (a Newton step from far away can overshoot, e.g. when a fire flow is added to a
+    /// state with near-zero flows in the pipes around the hydrant). Returns the largest head
+    /// and flow changes taken, or `None` when a chord step that does not descend was
+    /// discarded (the next iteration then takes a Newton step).
+    fn take_step(
+        &self,
+        ws: &mut Workspace,
+        it: &mut Iterate,
+        full_step_h: f64,
+        factored_now: bool,
+    ) -> Option<(f64, f64)> {
+        let nj = self.n_junctions;
+        let nl = self.ends.len();
+        // Steps that shrink at least twofold need no line search: the iteration contracts.
+        let contracting = full_step_h < 0.5 * it.previous_step;
+        let search = !it.continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M && !contracting;
+        if search {
+            self.compute_flow_step(ws);
+        }
+        let alpha = if search {
+            match self.line_search(ws, &it.flows, &it.states, factored_now) {
+                Some(alpha) => alpha,
+                None => {
+                    // A chord step on a stale factorization that does not descend:
+                    // discard it and take a Newton step instead.
+                    it.need_factor = true;
+                    it.previous_step = f64::INFINITY;
+                    it.previous_flow_step = f64::INFINITY;
+                    return None;
+                }
+            }
+        } else {
+            1.0
+        };
+        it.continuity_pending = false;
+        let mut step_h = 0.0_f64;
+        for j in 0..nj {
+            let d = ws.node_step[j];
+            if ws.pinned[j].is_none() {
+                it.heads[j] += alpha * d;
+                step_h = step_h.max((alpha * d).abs());
+            } else {
+                it.heads[j] += d;
+            }
+        }
+        let mut step_q = 0.0_f64;
+        if search {
+            for i in 0..nl {
+                let dq = alpha * ws.flow_step[i];
+                it.flows[i] += dq;
+                step_q = step_q.max(dq.abs());
+            }
+        } else {
+            // The full step, computed as it is applied (one pass over the links).
+            for i in 0..nl {
+                let (a, b) = self.ends[i];
+                let dq = ws.known[i] + ws.g_factored[i] * (ws.node_step[a] - ws.node_step[b]);
+                it.flows[i] += dq;
+                step_q = step_q.max(dq.abs());
+            }
+        }
+        Some((step_h, step_q))
+    }
+
+    /// Regulating PRV/PSV: flow from continuity at the junction they hold; `step_q` takes the
+    /// largest change.
+    fn regulating_valve_flows(&self, ws: &Workspace, it: &mut Iterate, step_q: &mut f64) {
+        for &i in &self.pressure_valves {
+            if it.states[i] != LinkState::Regulating {
+                continue;
+            }
+            let l = &self.net.links[i];
+            let held = match self.valve_kind(i) {
+                Some(ValveKind::Prv) => l.to,
+                Some(ValveKind::Psv) => l.from,
+                _ => continue,
+            };
+            let old = it.flows[i];
+            let residual = self.imbalance(held, &it.flows, &ws.demand);
+            // At `to` the valve flow enters; at `from` it leaves.
+            it.flows[i] = if held == l.to {
+                old - residual
+            } else {
+                old + residual
+            };
+            *step_q = step_q.max((it.flows[i] - old).abs());
+            // The valve's other end saw the old flow in this step: continuity there is off
+            // by the change until the next step, so the next step takes no line search.
+            if (it.flows[i] - old).abs() > 1e-12 {
+                it.continuity_pending = true;
+            }
+        }
+    }
+
+    /// The convergence test of the step just taken (largest changes `step_h`, m, and
+    /// `step_q`, m³/s): records the steps, decides whether the next step needs a new
+    /// factorization, and says whether heads and flows have converged for the current states.
+    fn converged(
+        &self,
+        ws: &Workspace,
+        it: &mut Iterate,
+        iteration: u32,
+        step_h: f64,
+        step_q: f64,
+        factored_now: bool,
+    ) -> bool {
+        let ratio = step_h / it.previous_step;
+        let flow_ratio = step_q / it.previous_flow_step;
+        it.previous_step = step_h;
+        it.previous_flow_step = step_q;
+        let flow_tolerance = match it.drawn {
+            Some(q) => ws
+                .tolerance
+                .flow_m3s
+                .min(DRAWN_FLOW_RELATIVE * q.abs())
+                .max(Tolerance::STEADY.flow_m3s),
+            None => ws.tolerance.flow_m3s,
+        };
+        it.need_factor = step_h > CHORD_MAX_STEP_M
+            || ratio > CHORD_MAX_RATIO
+            || (flow_ratio > CHORD_MAX_RATIO && step_q > flow_tolerance);
+
+        // A regulating valve's other end sees its new flow one step late: a step that moved
+        // such a flow converges only linearly, whatever the factorization, so the step alone
+        // does not bound the remaining error.
+        let newton = factored_now && !it.continuity_pending;
+        let flows_converged = Self::within(step_q, flow_ratio, newton, flow_tolerance);
+        let heads_converged = Self::within(step_h, ratio, newton, ws.tolerance.head_m)
+            || (iteration >= STALL_CHECK_AFTER
+                && flows_converged
+                && self.equations_hold(ws, &it.heads, &it.flows, &it.states, flow_tolerance));
+        heads_converged && flows_converged
+    }
+
+    /// Converged for the current states: applies the switching rules of every controlled
+    /// link. Returns whether a state changed; a link that switched [`MAX_SWITCHES`] times
+    /// keeps its state and is listed as unsettled.
+    fn switch_controls(&self, request: &SolveRequest<'_>, it: &mut Iterate) -> bool {
+        let mut changed = false;
+        for i in 0..self.ends.len() {
+            if self.roles[i] != Role::Controlled {
+                continue;
+            }
+            let l = &self.net.links[i];
+            let view = LinkView {
+                state: it.states[i],
+                head_from: it.heads[l.from],
+                head_to: it.heads[l.to],
+                flow: it.flows[i],
+                setting: self.settings[i],
+                open_loss: open_valve_loss,
+                shutoff_m: match &l.kind {
+                    LinkKind::Pump(p) => p.shutoff_at_speed_m(),
+                    _ => 0.0,
+                },
+            };
+            let next = if self.is_held_by_request(i, request) {
+                controls::next_state_with_held_end(l, &view)
+            } else {
+                controls::next_state(l, &view)
+            };
+            if next != it.states[i] {
+                if it.switches[i] < MAX_SWITCHES {
+                    it.switches[i] += 1;
+                    it.states[i] = next;
+                    if !next.conducts() && next != LinkState::Regulating {
+                        it.flows[i] = 0.0;
+                    }
+                    changed = true;
+                } else if !it.unsettled.contains(&i) {
+                    it.unsettled.push(i);
+                }
+            }
+        }
+        changed
     }
 
     /// Whether the remaining error after a step of size `step`, which was `ratio` times the one
@@ -1324,6 +1519,37 @@ impl Solution {
 #[cfg(test)]
 mod tests {
     use super::Tolerance;
+
+    /// Each `Tolerance` constant's doc comment states its own values (a doc that drifted onto
+    /// another constant gave readers the wrong figures; common practice, no source).
+    #[test]
+    fn each_tolerance_doc_states_its_values() {
+        let source = include_str!("solver.rs");
+        for (name, t) in [
+            ("STEADY", Tolerance::STEADY),
+            ("BRACKET", Tolerance::BRACKET),
+            ("SEARCH", Tolerance::SEARCH),
+        ] {
+            let decl = format!("pub const {name}: Tolerance");
+            let at = source.find(&decl).expect("declaration");
+            let doc: String = source[..at]
+                .lines()
+                .rev()
+                .skip(1)
+                .take_while(|l| l.trim_start().starts_with("///"))
+                .collect::<Vec<_>>()
+                .join(" ");
+            for value in [
+                format!("{:e} m ", t.head_m),
+                format!("{:e} m³/s", t.flow_m3s),
+            ] {
+                assert!(
+                    doc.contains(&value),
+                    "the doc of {name} lacks {value:?}: {doc}"
+                );
+            }
+        }
+    }
 
     /// The tolerances docs/fire-flow-method.md states are the ones the solver uses (the doc is
     /// the source of the figures users read; common practice, no source).

@@ -5,7 +5,7 @@
 use std::path::Path;
 
 use super::diagnostic::{Diagnostics, Location};
-use super::table::{read_table, TableSpec};
+use super::table::{read_table, Cells, TableSpec};
 use crate::units::{Quantity, UnitSystem};
 
 const COSTS: TableSpec<'static> = TableSpec {
@@ -22,39 +22,29 @@ pub fn load_cost_table(path: &Path, units: UnitSystem) -> Result<Vec<(f64, f64)>
     };
     let mut rows = Vec::new();
     for row in table.rows() {
-        let mut parsed = [0.0; 2];
-        let mut ok = true;
-        for (k, name) in ["diameter", "cost_per_length"].into_iter().enumerate() {
-            let cell = table.cell(row, name);
-            match cell.text.parse::<f64>() {
-                Ok(v) if v.is_finite() && v > 0.0 => parsed[k] = v,
-                _ => {
-                    diags.error(
-                        cell.location(&file),
-                        format!("`{}` is not a positive number (column `{name}`)", cell.text),
-                        match name {
-                            "diameter" => format!(
-                                "give the inside diameter in {}",
-                                units.symbol(Quantity::Diameter)
-                            ),
-                            _ => format!(
-                                "give the cost per {} of pipe laid",
-                                units.symbol(Quantity::Length)
-                            ),
-                        },
-                    );
-                    ok = false;
-                }
-            }
-        }
-        if ok {
-            let d = units.to_si(Quantity::Diameter, parsed[0]);
+        let mut c = Cells::new(&table, row, units, &mut diags);
+        let diameter = c.positive_plain(
+            "diameter",
+            &format!(
+                "give the inside diameter in {}",
+                units.symbol(Quantity::Diameter)
+            ),
+        );
+        let cost = c.positive_plain(
+            "cost_per_length",
+            &format!(
+                "give the cost per {} of pipe laid",
+                units.symbol(Quantity::Length)
+            ),
+        );
+        if let (Some(diameter), Some(cost)) = (diameter, cost) {
+            let d = units.to_si(Quantity::Diameter, diameter);
             // Cost per length unit -> cost per metre.
-            let per_m = parsed[1] / units.to_si(Quantity::Length, 1.0);
+            let per_m = cost / units.to_si(Quantity::Length, 1.0);
             if rows.iter().any(|&(e, _): &(f64, f64)| (e - d).abs() < 1e-9) {
                 diags.error(
                     Location::line(file.clone(), row.line),
-                    format!("diameter {} appears twice", parsed[0]),
+                    format!("diameter {diameter} appears twice"),
                     "give each diameter once",
                 );
             }
@@ -73,4 +63,42 @@ pub fn load_cost_table(path: &Path, units: UnitSystem) -> Result<Vec<(f64, f64)>
     }
     rows.sort_by(|a, b| a.0.total_cmp(&b.0));
     Ok(rows)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn load(text: &str) -> Result<Vec<(f64, f64)>, Diagnostics> {
+        let dir = tempfile::tempdir().expect("temporary folder");
+        let path = dir.path().join("costs.csv");
+        std::fs::write(&path, text).expect("write the table");
+        load_cost_table(&path, UnitSystem::Us)
+    }
+
+    #[test]
+    fn reads_sorted_rows_in_si() {
+        // 1 in = 0.0254 m and 1 ft = 0.3048 m exactly (NIST SP 811, 2008, appendix B).
+        let rows = load("diameter,cost_per_length\n12,305\n8,152.4\n").expect("table");
+        assert_eq!(rows.len(), 2);
+        assert!((rows[0].0 - 8.0 * 0.0254).abs() < 1e-12);
+        assert!((rows[0].1 - 152.4 / 0.3048).abs() < 1e-9);
+        assert!((rows[1].0 - 12.0 * 0.0254).abs() < 1e-12);
+    }
+
+    #[test]
+    fn every_bad_cell_is_located_with_a_fix() {
+        // Wording pinned by this test (common practice, no source).
+        let d = load("diameter,cost_per_length\nx,10\n8,-1\n8,5\n8,6\n").expect_err("errors");
+        let text = d.to_string();
+        for expected in [
+            "costs.csv:2:1: error: `x` is not a positive number (column `diameter`); fix: give the inside diameter in in",
+            "costs.csv:3:2: error: `-1` is not a positive number (column `cost_per_length`); fix: give the cost per ft of pipe laid",
+            "costs.csv:5: error: diameter 8 appears twice; fix: give each diameter once",
+        ] {
+            assert!(text.contains(expected), "missing `{expected}` in:\n{text}");
+        }
+        let d = load("diameter,cost_per_length\n").expect_err("no rows");
+        assert!(d.to_string().contains("the cost table has no rows"), "{d}");
+    }
 }

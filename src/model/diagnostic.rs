@@ -5,11 +5,8 @@
 
 use std::fmt;
 
-use serde::Serialize;
-
 /// How bad a finding is.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Serialize)]
-#[serde(rename_all = "lowercase")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord)]
 pub enum Severity {
     /// The input cannot be analysed until this is fixed.
     Error,
@@ -31,7 +28,7 @@ impl fmt::Display for Severity {
 
 /// Where a finding is: a file, and where known a line and a column (1-based; the column is the
 /// field number in a CSV row, or the character column in a TOML file).
-#[derive(Clone, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Eq)]
 pub struct Location {
     pub file: String,
     pub line: Option<u64>,
@@ -81,7 +78,7 @@ impl fmt::Display for Location {
 }
 
 /// One finding about the input.
-#[derive(Clone, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Eq)]
 pub struct Diagnostic {
     pub severity: Severity,
     pub location: Location,
@@ -102,7 +99,7 @@ impl fmt::Display for Diagnostic {
 }
 
 /// Every finding of a load or a validation, in the order found.
-#[derive(Clone, Debug, Default, PartialEq, Eq, Serialize)]
+#[derive(Clone, Debug, Default, PartialEq, Eq)]
 pub struct Diagnostics {
     items: Vec<Diagnostic>,
 }

@@ -10,12 +10,12 @@ use serde::Deserialize;
 use toml::Spanned;
 
 use super::diagnostic::{Diagnostics, Location};
-use super::limits::{self, Limit};
+use super::limits;
 use super::network::{
     DemandFactors, HeadlossFormula, Hydrant, Link, LinkKind, Network, Node, NodeKind, Pipe,
     PipeStatus, Pump, Valve, ValveKind, ValveStatus,
 };
-use super::table::{read_table, Cell, Row, Table, TableSpec};
+use super::table::{read_table, Cell, Cells, Row, Table, TableSpec};
 use super::toml_input::{read_toml, span_location};
 use crate::units::{display_value, Quantity, UnitSystem};
 
@@ -302,12 +302,7 @@ impl Reader {
     }
 
     fn cells<'t>(&mut self, table: &'t Table, row: &'t Row) -> Cells<'t, '_> {
-        Cells {
-            table,
-            row,
-            units: self.units,
-            diags: &mut self.diags,
-        }
+        Cells::new(table, row, self.units, &mut self.diags)
     }
 
     /// Registers a node id; an error when it is already used.
@@ -542,7 +537,7 @@ impl Reader {
                 HeadlossFormula::HazenWilliams => {
                     c.within(roughness, "roughness", &limits::C_FACTOR)
                 }
-                HeadlossFormula::DarcyWeisbach => c.relative_roughness(roughness, diameter),
+                HeadlossFormula::DarcyWeisbach => relative_roughness(&mut c, roughness, diameter),
             };
             let minor_loss = c.non_negative(
                 Some(minor_loss),
@@ -909,208 +904,31 @@ pub fn pump_curve(a: f64, q1: f64, h1: f64, q2: f64, h2: f64) -> Option<(f64, f6
     (c.is_finite() && c > 0.0 && b.is_finite() && b > 0.0).then_some((b, c))
 }
 
-/// The cells of one row, with unit conversion and diagnostics.
-struct Cells<'a, 'd> {
-    table: &'a Table,
-    row: &'a Row,
-    units: UnitSystem,
-    diags: &'d mut Diagnostics,
-}
-
-impl<'a> Cells<'a, '_> {
-    fn file(&self) -> &str {
-        &self.table.file
+/// Refuses a Darcy-Weisbach roughness (SI) above [`limits::MAX_RELATIVE_ROUGHNESS`] of the
+/// diameter: no roughness height exceeds the pipe's radius.
+fn relative_roughness(
+    c: &mut Cells<'_, '_>,
+    roughness: Option<f64>,
+    diameter: Option<f64>,
+) -> Option<f64> {
+    let (r, d) = (roughness?, diameter);
+    let Some(d) = d else { return Some(r) };
+    if r <= limits::MAX_RELATIVE_ROUGHNESS * d {
+        return Some(r);
     }
-
-    fn cell(&self, name: &'a str) -> Cell<'a> {
-        self.table.cell(self.row, name)
-    }
-
-    fn text(&self, name: &'a str) -> Option<&'a str> {
-        let cell = self.cell(name);
-        (!cell.is_empty()).then_some(cell.text)
-    }
-
-    fn id(&mut self, name: &'a str) -> Option<Cell<'a>> {
-        let cell = self.cell(name);
-        if cell.is_empty() {
-            let loc = cell.location(self.file());
-            self.diags
-                .error(loc, "the id is empty", "give every element an id");
-            return None;
-        }
-        Some(cell)
-    }
-
-    /// A number without unit conversion; `None` when empty or not a number (an error then).
-    fn plain(&mut self, name: &'a str) -> Option<f64> {
-        let cell = self.cell(name);
-        if cell.is_empty() {
-            return None;
-        }
-        match cell.text.parse::<f64>() {
-            Ok(v) if v.is_finite() => Some(v),
-            _ => {
-                let loc = cell.location(self.file());
-                self.diags.error(
-                    loc,
-                    format!("`{}` is not a finite number (column `{name}`)", cell.text),
-                    "write a plain decimal number such as 12.5 or 1.25e1",
-                );
-                None
-            }
-        }
-    }
-
-    fn required_plain(&mut self, name: &'a str) -> Option<f64> {
-        let cell = self.cell(name);
-        if cell.is_empty() {
-            let loc = cell.location(self.file());
-            self.diags.error(
-                loc,
-                format!("`{name}` is empty"),
-                format!("give a value for `{name}`"),
-            );
-            return None;
-        }
-        self.plain(name)
-    }
-
-    /// A number in the file's unit of `q`, converted to SI.
-    fn number(&mut self, name: &'a str, q: Quantity) -> Option<f64> {
-        self.plain(name).map(|v| self.units.to_si(q, v))
-    }
-
-    fn required_number(&mut self, name: &'a str, q: Quantity) -> Option<f64> {
-        self.required_plain(name).map(|v| self.units.to_si(q, v))
-    }
-
-    fn check(
-        &mut self,
-        value: Option<f64>,
-        name: &'a str,
-        fix: &str,
-        ok: fn(f64) -> bool,
-        rule: &str,
-    ) -> Option<f64> {
-        let v = value?;
-        if ok(v) {
-            return Some(v);
-        }
-        let cell = self.cell(name);
-        let loc = cell.location(self.file());
-        self.diags.error(
-            loc,
-            format!("`{name}` must be {rule}, got {}", cell.text),
-            fix,
-        );
-        None
-    }
-
-    /// Refuses a value (SI) beyond `limit`: a magnitude no water system has.
-    fn within(&mut self, value: Option<f64>, name: &'a str, limit: &Limit) -> Option<f64> {
-        let v = value?;
-        if limit.holds(v) {
-            return Some(v);
-        }
-        let cell = self.cell(name);
-        let loc = cell.location(self.file());
-        // The value as written: converting 1e308 psi to kPa would overflow to infinity.
-        let written = cell
-            .text
-            .parse::<f64>()
-            .unwrap_or_else(|_| limit.quantity.map_or(v, |q| self.units.from_si(q, v)));
-        let what = format!("`{name}`");
-        self.diags.error(
-            loc,
-            limit.message(&what, written, self.units),
-            limit.fix(&what, self.units),
-        );
-        None
-    }
-
-    /// Refuses a Darcy-Weisbach roughness (SI) above [`limits::MAX_RELATIVE_ROUGHNESS`] of the
-    /// diameter: no roughness height exceeds the pipe's radius.
-    fn relative_roughness(&mut self, roughness: Option<f64>, diameter: Option<f64>) -> Option<f64> {
-        let (r, d) = (roughness?, diameter);
-        let Some(d) = d else { return Some(r) };
-        if r <= limits::MAX_RELATIVE_ROUGHNESS * d {
-            return Some(r);
-        }
-        let loc = self.cell("roughness").location(self.file());
-        let u = self.units.symbol(Quantity::Diameter);
-        self.diags.error(
-            loc,
-            format!(
-                "`roughness` {} {u} is more than half the diameter {} {u}: beyond any pipe (a roughness height cannot exceed the radius)",
-                display_value(self.units.from_si(Quantity::Diameter, r)),
-                display_value(self.units.from_si(Quantity::Diameter, d)),
-            ),
-            format!("Darcy-Weisbach roughness is the absolute roughness in {u}, the diameter unit (e.g. 0.0015 mm for plastic)"),
-        );
-        None
-    }
-
-    fn positive(&mut self, value: Option<f64>, name: &'a str, fix: &str) -> Option<f64> {
-        self.check(value, name, fix, |v| v > 0.0, "positive")
-    }
-
-    fn non_negative(&mut self, value: Option<f64>, name: &'a str, fix: &str) -> Option<f64> {
-        self.check(value, name, fix, |v| v >= 0.0, "zero or more")
-    }
-
-    /// One of a fixed set of words, compared without case; `default` when empty.
-    fn choice<T: Copy>(
-        &mut self,
-        name: &'a str,
-        options: &[(&str, T)],
-        default: Option<T>,
-    ) -> Option<T> {
-        let cell = self.cell(name);
-        if cell.is_empty() {
-            if default.is_none() {
-                let loc = cell.location(self.file());
-                let words: Vec<&str> = options.iter().map(|(w, _)| *w).collect();
-                self.diags.error(
-                    loc,
-                    format!("`{name}` is empty"),
-                    format!("write one of: {}", words.join(", ")),
-                );
-            }
-            return default;
-        }
-        let lower = cell.text.to_ascii_lowercase();
-        if let Some((_, v)) = options.iter().find(|(w, _)| *w == lower) {
-            return Some(*v);
-        }
-        let loc = cell.location(self.file());
-        let words: Vec<&str> = options.iter().map(|(w, _)| *w).collect();
-        self.diags.error(
-            loc,
-            format!("unknown {name} `{}`", cell.text),
-            format!("write one of: {}", words.join(", ")),
-        );
-        None
-    }
-
-    /// Optional map coordinates; both or neither.
-    fn position(&mut self) -> Option<[f64; 2]> {
-        let x = self.plain("x");
-        let y = self.plain("y");
-        match (x, y) {
-            (Some(x), Some(y)) => Some([x, y]),
-            (None, None) => None,
-            _ => {
-                let loc = Location::line(self.file(), self.row.line);
-                self.diags.warning(
-                    loc,
-                    "only one of the coordinates x, y is given; the position is ignored",
-                    "give both x and y, or neither",
-                );
-                None
-            }
-        }
-    }
+    let loc = c.cell("roughness").location(c.file());
+    let units = c.units();
+    let u = units.symbol(Quantity::Diameter);
+    c.diagnostics().error(
+        loc,
+        format!(
+            "`roughness` {} {u} is more than half the diameter {} {u}: beyond any pipe (a roughness height cannot exceed the radius)",
+            display_value(units.from_si(Quantity::Diameter, r)),
+            display_value(units.from_si(Quantity::Diameter, d)),
+        ),
+        format!("Darcy-Weisbach roughness is the absolute roughness in {u}, the diameter unit (e.g. 0.0015 mm for plastic)"),
+    );
+    None
 }
 
 #[cfg(test)]

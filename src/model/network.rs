@@ -5,13 +5,10 @@
 
 use std::collections::HashMap;
 
-use serde::Serialize;
-
 use crate::units::UnitSystem;
 
 /// Head-loss formula for every pipe of a network.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum HeadlossFormula {
     HazenWilliams,
     DarcyWeisbach,
@@ -27,7 +24,7 @@ impl HeadlossFormula {
 }
 
 /// Demand multipliers of the design conditions (all relative to average-day demand).
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq)]
 pub struct DemandFactors {
     pub max_day: f64,
     pub peak_hour: f64,
@@ -35,8 +32,7 @@ pub struct DemandFactors {
     pub min_hour: Option<f64>,
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum NodeKind {
     Junction,
     Reservoir,
@@ -77,8 +73,7 @@ impl Node {
     }
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum PipeStatus {
     Open,
     Closed,
@@ -128,8 +123,7 @@ impl Pump {
     }
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum ValveKind {
     /// Pressure-reducing: holds the downstream pressure at the setting.
     Prv,
@@ -152,8 +146,7 @@ impl ValveKind {
     }
 }
 
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum ValveStatus {
     /// The valve regulates.
     Active,

@@ -10,6 +10,8 @@ use std::collections::HashMap;
 use std::path::Path;
 
 use super::diagnostic::{Diagnostics, Location};
+use super::limits::Limit;
+use crate::units::{Quantity, UnitSystem};
 
 /// Largest input file firemain reads. A 300,000-junction network's pipes file is about 30 MB;
 /// anything past this is almost certainly the wrong file, and reading it would exhaust memory.
@@ -87,6 +89,245 @@ impl Table {
                 column: 0,
                 column_name: name,
             },
+        }
+    }
+}
+
+/// The cells of one row, read as typed values (numbers in the file's units converted to SI,
+/// words of a fixed set, ids) with every problem reported at its file:line:column with a fix.
+/// Shared by the readers of every input table (network files, cost table, and new ones).
+pub(crate) struct Cells<'a, 'd> {
+    table: &'a Table,
+    row: &'a Row,
+    units: UnitSystem,
+    diags: &'d mut Diagnostics,
+}
+
+impl<'a, 'd> Cells<'a, 'd> {
+    /// The cells of `row` of `table`, in the file's `units`; problems go to `diags`.
+    pub(crate) fn new(
+        table: &'a Table,
+        row: &'a Row,
+        units: UnitSystem,
+        diags: &'d mut Diagnostics,
+    ) -> Self {
+        Cells {
+            table,
+            row,
+            units,
+            diags,
+        }
+    }
+
+    /// The file name as shown in diagnostics.
+    pub(crate) fn file(&self) -> &str {
+        &self.table.file
+    }
+
+    /// The unit system of the file.
+    pub(crate) fn units(&self) -> UnitSystem {
+        self.units
+    }
+
+    /// Where findings of a reader's own checks go.
+    pub(crate) fn diagnostics(&mut self) -> &mut Diagnostics {
+        self.diags
+    }
+
+    pub(crate) fn cell(&self, name: &'a str) -> Cell<'a> {
+        self.table.cell(self.row, name)
+    }
+
+    pub(crate) fn text(&self, name: &'a str) -> Option<&'a str> {
+        let cell = self.cell(name);
+        (!cell.is_empty()).then_some(cell.text)
+    }
+
+    pub(crate) fn id(&mut self, name: &'a str) -> Option<Cell<'a>> {
+        let cell = self.cell(name);
+        if cell.is_empty() {
+            let loc = cell.location(self.file());
+            self.diags
+                .error(loc, "the id is empty", "give every element an id");
+            return None;
+        }
+        Some(cell)
+    }
+
+    /// A number without unit conversion; `None` when empty or not a number (an error then).
+    pub(crate) fn plain(&mut self, name: &'a str) -> Option<f64> {
+        let cell = self.cell(name);
+        if cell.is_empty() {
+            return None;
+        }
+        match cell.text.parse::<f64>() {
+            Ok(v) if v.is_finite() => Some(v),
+            _ => {
+                let loc = cell.location(self.file());
+                self.diags.error(
+                    loc,
+                    format!("`{}` is not a finite number (column `{name}`)", cell.text),
+                    "write a plain decimal number such as 12.5 or 1.25e1",
+                );
+                None
+            }
+        }
+    }
+
+    pub(crate) fn required_plain(&mut self, name: &'a str) -> Option<f64> {
+        let cell = self.cell(name);
+        if cell.is_empty() {
+            let loc = cell.location(self.file());
+            self.diags.error(
+                loc,
+                format!("`{name}` is empty"),
+                format!("give a value for `{name}`"),
+            );
+            return None;
+        }
+        self.plain(name)
+    }
+
+    /// A number in the file's unit of `q`, converted to SI.
+    pub(crate) fn number(&mut self, name: &'a str, q: Quantity) -> Option<f64> {
+        self.plain(name).map(|v| self.units.to_si(q, v))
+    }
+
+    pub(crate) fn required_number(&mut self, name: &'a str, q: Quantity) -> Option<f64> {
+        self.required_plain(name).map(|v| self.units.to_si(q, v))
+    }
+
+    /// A positive number without unit conversion, for a table whose every value is required
+    /// and positive (the cost table): one message for an empty cell, a cell that is not a
+    /// number and a number that is not positive; `fix` says what to give.
+    pub(crate) fn positive_plain(&mut self, name: &'a str, fix: &str) -> Option<f64> {
+        let cell = self.cell(name);
+        match cell.text.parse::<f64>() {
+            Ok(v) if v.is_finite() && v > 0.0 => Some(v),
+            _ => {
+                let loc = cell.location(self.file());
+                self.diags.error(
+                    loc,
+                    format!("`{}` is not a positive number (column `{name}`)", cell.text),
+                    fix,
+                );
+                None
+            }
+        }
+    }
+
+    fn check(
+        &mut self,
+        value: Option<f64>,
+        name: &'a str,
+        fix: &str,
+        ok: fn(f64) -> bool,
+        rule: &str,
+    ) -> Option<f64> {
+        let v = value?;
+        if ok(v) {
+            return Some(v);
+        }
+        let cell = self.cell(name);
+        let loc = cell.location(self.file());
+        self.diags.error(
+            loc,
+            format!("`{name}` must be {rule}, got {}", cell.text),
+            fix,
+        );
+        None
+    }
+
+    /// Refuses a value (SI) beyond `limit`: a magnitude no water system has.
+    pub(crate) fn within(
+        &mut self,
+        value: Option<f64>,
+        name: &'a str,
+        limit: &Limit,
+    ) -> Option<f64> {
+        let v = value?;
+        if limit.holds(v) {
+            return Some(v);
+        }
+        let cell = self.cell(name);
+        let loc = cell.location(self.file());
+        // The value as written: converting 1e308 psi to kPa would overflow to infinity.
+        let written = cell
+            .text
+            .parse::<f64>()
+            .unwrap_or_else(|_| limit.quantity.map_or(v, |q| self.units.from_si(q, v)));
+        let what = format!("`{name}`");
+        self.diags.error(
+            loc,
+            limit.message(&what, written, self.units),
+            limit.fix(&what, self.units),
+        );
+        None
+    }
+
+    pub(crate) fn positive(&mut self, value: Option<f64>, name: &'a str, fix: &str) -> Option<f64> {
+        self.check(value, name, fix, |v| v > 0.0, "positive")
+    }
+
+    pub(crate) fn non_negative(
+        &mut self,
+        value: Option<f64>,
+        name: &'a str,
+        fix: &str,
+    ) -> Option<f64> {
+        self.check(value, name, fix, |v| v >= 0.0, "zero or more")
+    }
+
+    /// One of a fixed set of words, compared without case; `default` when empty.
+    pub(crate) fn choice<T: Copy>(
+        &mut self,
+        name: &'a str,
+        options: &[(&str, T)],
+        default: Option<T>,
+    ) -> Option<T> {
+        let cell = self.cell(name);
+        if cell.is_empty() {
+            if default.is_none() {
+                let loc = cell.location(self.file());
+                let words: Vec<&str> = options.iter().map(|(w, _)| *w).collect();
+                self.diags.error(
+                    loc,
+                    format!("`{name}` is empty"),
+                    format!("write one of: {}", words.join(", ")),
+                );
+            }
+            return default;
+        }
+        let lower = cell.text.to_ascii_lowercase();
+        if let Some((_, v)) = options.iter().find(|(w, _)| *w == lower) {
+            return Some(*v);
+        }
+        let loc = cell.location(self.file());
+        let words: Vec<&str> = options.iter().map(|(w, _)| *w).collect();
+        self.diags.error(
+            loc,
+            format!("unknown {name} `{}`", cell.text),
+            format!("write one of: {}", words.join(", ")),
+        );
+        None
+    }
+
+    /// Optional map coordinates; both or neither.
+    pub(crate) fn position(&mut self) -> Option<[f64; 2]> {
+        let x = self.plain("x");
+        let y = self.plain("y");
+        match (x, y) {
+            (Some(x), Some(y)) => Some([x, y]),
+            (None, None) => None,
+            _ => {
+                let loc = Location::line(self.file(), self.row.line);
+                self.diags.warning(
+                    loc,
+                    "only one of the coordinates x, y is given; the position is ignored",
+                    "give both x and y, or neither",
+                );
+                None
+            }
         }
     }
 }

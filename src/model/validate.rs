@@ -6,8 +6,6 @@
 
 use std::collections::BTreeMap;
 
-use serde::Serialize;
-
 use super::diagnostic::{Diagnostics, Location};
 use super::network::{HeadlossFormula, LinkKind, Network, PipeStatus};
 use crate::units::{display_value, Quantity, UnitSystem};
@@ -271,7 +269,7 @@ fn check_hydrant_mains(net: &Network, diags: &mut Diagnostics) {
 }
 
 /// A zone's feeds: what delivers water into it.
-#[derive(Clone, Debug, Default, Serialize)]
+#[derive(Clone, Debug, Default)]
 pub struct ZoneSummary {
     pub name: String,
     pub junctions: usize,
@@ -369,7 +367,7 @@ fn check_zones(net: &Network, diags: &mut Diagnostics) {
 }
 
 /// What `validate` prints about a network that loaded.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug)]
 pub struct NetworkSummary {
     pub junctions: usize,
     pub reservoirs: usize,

@@ -182,6 +182,11 @@ impl CheckReport<'_> {
                 "at {} the pumps or valves can settle in states that violate the constraints when solved from another start; a lower flow that every start verifies is reported",
                 flow(*reported_flow_m3s)
             ),
+            HydrantNote::OtherStatesAbove { flow_m3s, links } => format!(
+                "at {} {} settle in other states and the constraints fail: the limit is a change of state, and flows in between may settle either way",
+                flow(*flow_m3s),
+                links.iter().map(|&i| link(i)).collect::<Vec<_>>().join(", ")
+            ),
             HydrantNote::Error { reason } => reason.clone(),
         }
     }
