@@ -41,6 +41,17 @@ pub struct CheckReport<'a> {
     pub weak_mains: &'a [WeakMain],
 }
 
+impl CheckReport<'_> {
+    /// Whether the run has findings (exit status 1): a hydrant that does not pass (it fails, or
+    /// its analysis failed), or a junction outside its service-pressure range.
+    pub fn has_findings(&self) -> bool {
+        self.results
+            .iter()
+            .any(|r| r.outcome != crate::fireflow::Outcome::Pass)
+            || self.service.exceptions().next().is_some()
+    }
+}
+
 /// Weak mains shown on the terminal and in report.md.
 const WEAK_MAINS_SHOWN: usize = 10;
 /// Supply-path pipes shown per failing hydrant in report.md.
