@@ -153,6 +153,20 @@ pub fn head_m_from_pressure_kpa(pressure_kpa: f64) -> f64 {
     pressure_kpa / KPA_PER_M_OF_HEAD
 }
 
+/// Relative tolerance under which two diameters are the same size (candidate sizes, cost-table
+/// rows, a pipe's diameter). Sizes are typed with a few decimals in in or mm and become metres
+/// through one multiplication, which rounds at about 1e-16 of the value; the finest steps
+/// between sizes anyone means to tell apart (1/8 in at 1 in, 0.1 mm at 50 mm) are above 1e-3.
+/// A millionth sits far from both, so the same size typed twice, or in two units, matches and
+/// two real sizes never do (common practice, no source).
+pub const SAME_DIAMETER_REL_TOL: f64 = 1e-6;
+
+/// Whether diameters `a` and `b` (same unit) are the same size, within
+/// [`SAME_DIAMETER_REL_TOL`] of the larger.
+pub fn same_diameter(a: f64, b: f64) -> bool {
+    (a - b).abs() <= SAME_DIAMETER_REL_TOL * a.abs().max(b.abs())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -209,5 +223,19 @@ mod tests {
         }
         assert_eq!(UnitSystem::Si.suffix(Quantity::Flow), "lps");
         assert_eq!(UnitSystem::Us.suffix(Quantity::Velocity), "fps");
+    }
+
+    #[test]
+    fn same_diameter_matches_one_size_in_two_units_and_parts_real_sizes() {
+        // 6 in = 152.4 mm exactly (1 in = 25.4 mm, the international inch); 6 and 6 1/8 in are
+        // two sizes (common practice, no source).
+        let six_in = UnitSystem::Us.to_si(Quantity::Diameter, 6.0);
+        let mm = UnitSystem::Si.to_si(Quantity::Diameter, 152.4);
+        assert!(same_diameter(six_in, mm));
+        assert!(!same_diameter(
+            six_in,
+            UnitSystem::Us.to_si(Quantity::Diameter, 6.125)
+        ));
+        assert!(!same_diameter(0.15, 0.150001));
     }
 }

@@ -32,7 +32,7 @@ use crate::fireflow::{sweep, FireFlowSetup, HydrantNote, HydrantResult, Outcome,
 use crate::hydraulics::headloss::{HW_DIAMETER_EXPONENT, HW_FLOW_EXPONENT};
 use crate::hydraulics::{Hydraulics, SolveError};
 use crate::model::{HeadlossFormula, Network, Pipe};
-use crate::units::{Quantity, UnitSystem, KPA_PER_M_OF_HEAD};
+use crate::units::{same_diameter, Quantity, UnitSystem, KPA_PER_M_OF_HEAD};
 
 /// Default candidate sizes, US: 6-24 in nominal (ductile-iron sizes of AWWA C151).
 pub const DEFAULT_SIZES_IN: [f64; 9] = [6.0, 8.0, 10.0, 12.0, 14.0, 16.0, 18.0, 20.0, 24.0];
@@ -82,12 +82,25 @@ impl CostModel {
         match self {
             CostModel::Table(rows) => rows
                 .iter()
-                .find(|(d, _)| (d - diameter_m).abs() <= 1e-6 * diameter_m.max(1e-3))
+                .find(|&&(d, _)| same_diameter(d, diameter_m))
                 .map(|(_, per_m)| per_m * length_m),
             CostModel::LengthTimesDiameter => Some(
                 units.from_si(Quantity::Length, length_m)
                     * units.from_si(Quantity::Diameter, diameter_m),
             ),
+        }
+    }
+
+    /// The sizes of `sizes_m` (m) that the model cannot price: those without a cost-table row.
+    /// The length × diameter proxy prices every size.
+    pub fn unpriced(&self, sizes_m: &[f64]) -> Vec<f64> {
+        match self {
+            CostModel::Table(rows) => sizes_m
+                .iter()
+                .copied()
+                .filter(|&d| !rows.iter().any(|&(t, _)| same_diameter(t, d)))
+                .collect(),
+            CostModel::LengthTimesDiameter => Vec::new(),
         }
     }
 

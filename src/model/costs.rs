@@ -6,7 +6,7 @@ use std::path::Path;
 
 use super::diagnostic::{Diagnostics, Location};
 use super::table::{read_table, Cells, TableSpec};
-use crate::units::{Quantity, UnitSystem};
+use crate::units::{same_diameter, Quantity, UnitSystem};
 
 const COSTS: TableSpec<'static> = TableSpec {
     known: &["diameter", "cost_per_length"],
@@ -41,7 +41,7 @@ pub fn load_cost_table(path: &Path, units: UnitSystem) -> Result<Vec<(f64, f64)>
             let d = units.to_si(Quantity::Diameter, diameter);
             // Cost per length unit -> cost per metre.
             let per_m = cost / units.to_si(Quantity::Length, 1.0);
-            if rows.iter().any(|&(e, _): &(f64, f64)| (e - d).abs() < 1e-9) {
+            if rows.iter().any(|&(e, _): &(f64, f64)| same_diameter(e, d)) {
                 diags.error(
                     Location::line(file.clone(), row.line),
                     format!("diameter {diameter} appears twice"),

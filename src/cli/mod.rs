@@ -1,8 +1,68 @@
-//! Rules for command-line values that are more than a type: the bounds of `--threads`.
-//! `main.rs` parses the arguments and calls these; the rules live here so that they are tested
-//! and documented with the library.
+//! The commands' side of the library: rules for command-line values that are more than a type
+//! (the bounds of `--threads`, `--hydrant` ids, the `upsize` options checked against a network),
+//! the outcome of a command and its errors, each mapped to the documented exit status. The
+//! binary (`src/main.rs`, `src/commands/`) parses the arguments, calls these and prints; the rules
+//! live here so that they are tested and documented with the library.
 
 use thiserror::Error;
+
+use crate::model::Network;
+use crate::ExitStatus;
+
+mod error;
+pub mod upsize;
+
+pub use error::CliError;
+
+/// How a command that ran to its end came out (errors are [`CliError`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Outcome {
+    /// Nothing to report: everything passes, or the network is valid.
+    Success,
+    /// Something fails its criteria.
+    Findings,
+}
+
+impl Outcome {
+    /// [`Outcome::Findings`] when `findings`, else [`Outcome::Success`].
+    pub fn from_findings(findings: bool) -> Self {
+        if findings {
+            Outcome::Findings
+        } else {
+            Outcome::Success
+        }
+    }
+}
+
+impl From<Outcome> for ExitStatus {
+    fn from(outcome: Outcome) -> Self {
+        match outcome {
+            Outcome::Success => ExitStatus::Success,
+            Outcome::Findings => ExitStatus::Findings,
+        }
+    }
+}
+
+/// The exit status of a command's result: its outcome, or its error's class.
+pub fn exit_status(result: &Result<Outcome, CliError>) -> ExitStatus {
+    match result {
+        Ok(outcome) => (*outcome).into(),
+        Err(e) => e.exit_status(),
+    }
+}
+
+/// The hydrants named by `--hydrant`, each once, in the order first given; empty when none is.
+pub fn select_hydrants(net: &Network, ids: &[String]) -> Result<Vec<usize>, CliError> {
+    let mut selected = Vec::new();
+    for id in ids {
+        match net.hydrant_by_id(id) {
+            Some(h) if selected.contains(&h) => {}
+            Some(h) => selected.push(h),
+            None => return Err(CliError::UnknownHydrant { id: id.clone() }),
+        }
+    }
+    Ok(selected)
+}
 
 /// Worker threads allowed per available core. The sweep is compute-bound, so threads beyond the
 /// cores only share them; a few per core still lets a user oversubscribe on purpose (common
