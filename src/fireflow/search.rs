@@ -30,8 +30,9 @@ use super::{
 use crate::hydraulics::{LinkState, Solution, SolveError, SolveRequest, Tolerance, Workspace};
 use crate::units::{pressure_kpa_from_head_m, UnitSystem, M3S_PER_GPM};
 
-/// Exponent of the supply-curve model used by the secant step (Hazen-Williams, 1/0.54).
-const SUPPLY_CURVE_EXPONENT: f64 = 1.852;
+/// Exponent of the supply-curve model used by the secant step: the Hazen-Williams flow
+/// exponent (1/0.54).
+const SUPPLY_CURVE_EXPONENT: f64 = crate::hydraulics::headloss::HW_FLOW_EXPONENT;
 /// The cap is probed before the hydrant-limited flow when the supply-curve estimate of the
 /// latter exceeds the cap by this factor. Measured on the 10k synthetic network (673 of 2,500
 /// hydrants limited by the cap): 1.0 misdirects 209 hydrants whose held flow is below the cap,

@@ -17,6 +17,9 @@ use super::network::{
 };
 use super::table::{read_table, Cell, Cells, Row, Table, TableSpec};
 use super::toml_input::{read_toml, span_location};
+use super::{
+    HYDRANTS_FILE, JUNCTIONS_FILE, MODEL_FILE, PIPES_FILE, PUMPS_FILE, SOURCES_FILE, VALVES_FILE,
+};
 use crate::units::{display_value, Quantity, UnitSystem};
 
 #[derive(Deserialize)]
@@ -129,8 +132,8 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
         return Err(diags);
     }
     let model: Option<(ModelFile, String)> = read_toml(
-        &dir.join("model.toml"),
-        "model.toml",
+        &dir.join(MODEL_FILE),
+        MODEL_FILE,
         "a network folder needs model.toml with name, units, headloss and a [demand] table (see docs/network-format.md)",
         &mut diags,
     );
@@ -157,8 +160,8 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
     let table = |name: &str, spec: &TableSpec<'_>, reader: &mut Reader| {
         read_table(&dir.join(name), name, spec, &mut reader.diags)
     };
-    let junctions = table("junctions.csv", &JUNCTIONS, &mut reader);
-    let sources = table("sources.csv", &SOURCES, &mut reader);
+    let junctions = table(JUNCTIONS_FILE, &JUNCTIONS, &mut reader);
+    let sources = table(SOURCES_FILE, &SOURCES, &mut reader);
     reader.nodes_unreadable = [&junctions, &sources]
         .iter()
         .any(|t| t.as_ref().is_none_or(|t| t.rows().is_empty()));
@@ -169,21 +172,21 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
     if let Some(t) = &sources {
         reader.sources(t);
     }
-    if let Some(t) = table("pipes.csv", &PIPES, &mut reader) {
+    if let Some(t) = table(PIPES_FILE, &PIPES, &mut reader) {
         reader.pipes(&t);
     }
-    if dir.join("pumps.csv").exists() {
-        if let Some(t) = table("pumps.csv", &PUMPS, &mut reader) {
+    if dir.join(PUMPS_FILE).exists() {
+        if let Some(t) = table(PUMPS_FILE, &PUMPS, &mut reader) {
             reader.pumps(&t);
         }
     }
-    if dir.join("valves.csv").exists() {
-        if let Some(t) = table("valves.csv", &VALVES, &mut reader) {
+    if dir.join(VALVES_FILE).exists() {
+        if let Some(t) = table(VALVES_FILE, &VALVES, &mut reader) {
             reader.valves(&t, n_junctions);
         }
     }
-    let hydrants = if dir.join("hydrants.csv").exists() {
-        match table("hydrants.csv", &HYDRANTS, &mut reader) {
+    let hydrants = if dir.join(HYDRANTS_FILE).exists() {
+        match table(HYDRANTS_FILE, &HYDRANTS, &mut reader) {
             Some(t) => reader.hydrants(&t, n_junctions),
             None => Vec::new(),
         }
@@ -255,7 +258,7 @@ struct Reader {
 
 impl Reader {
     fn demand_factors(&mut self, d: &DemandTable, text: &str) -> DemandFactors {
-        let at = |v: &Spanned<f64>| span_location("model.toml", text, v.span());
+        let at = |v: &Spanned<f64>| span_location(MODEL_FILE, text, v.span());
         let check = |name: &str, v: &Spanned<f64>, diags: &mut Diagnostics| {
             let x = *v.get_ref();
             if !(x.is_finite() && x > 0.0) {

@@ -20,14 +20,22 @@ pub use network::{
 /// and the tables of docs/network-format.md. The first four are required; `hydrants.csv`,
 /// `pumps.csv` and `valves.csv` may be absent.
 pub const NETWORK_FILES: [&str; 7] = [
-    "model.toml",
-    "junctions.csv",
-    "sources.csv",
-    "pipes.csv",
-    "hydrants.csv",
-    "pumps.csv",
-    "valves.csv",
+    MODEL_FILE,
+    JUNCTIONS_FILE,
+    SOURCES_FILE,
+    PIPES_FILE,
+    HYDRANTS_FILE,
+    PUMPS_FILE,
+    VALVES_FILE,
 ];
+/// The name of each file of a network folder (see [`NETWORK_FILES`]).
+pub const MODEL_FILE: &str = "model.toml";
+pub const JUNCTIONS_FILE: &str = "junctions.csv";
+pub const SOURCES_FILE: &str = "sources.csv";
+pub const PIPES_FILE: &str = "pipes.csv";
+pub const HYDRANTS_FILE: &str = "hydrants.csv";
+pub const PUMPS_FILE: &str = "pumps.csv";
+pub const VALVES_FILE: &str = "valves.csv";
 
 /// The bytes of every [`NETWORK_FILES`] file present in `dir`, as (name, bytes), to copy a
 /// network unchanged.

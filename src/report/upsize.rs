@@ -365,7 +365,7 @@ impl UpsizeReport<'_> {
             },
         ];
         for (name, bytes) in network_files {
-            if name != "pipes.csv" {
+            if name != crate::model::PIPES_FILE {
                 files.push(OutputFile {
                     name: format!("{PROPOSED_NETWORK}/{name}"),
                     bytes,
