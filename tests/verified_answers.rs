@@ -405,16 +405,20 @@ fn psv_at_the_hydrant_junction_matches_a_brute_force_scan() {
 // 3. The demo town: every answer re-solves (an invariant of the method; the demo's data is
 // invented and no check value).
 
+/// An `error` row must say why (common practice, no source).
+fn error_row_without_note(id: &str, res: &HydrantResult) -> Option<String> {
+    res.notes
+        .is_empty()
+        .then(|| format!("{id}: error row without a note"))
+}
+
 /// What the ordinary solver says about one hydrant's reported answer; `None` when it agrees.
 fn demo_disagreement(setup: &FireFlowSetup<'_>, res: &HydrantResult) -> Option<String> {
     let net = setup.network();
     let id = &net.hydrants[res.hydrant].id;
     let at = res.junction;
     if res.outcome == Outcome::Error {
-        return res
-            .notes
-            .is_empty()
-            .then(|| format!("{id}: error row without a note"));
+        return error_row_without_note(id, res);
     }
     let Some(q) = res.available_m3s else {
         return Some(format!("{id}: decided without an available flow"));
@@ -604,10 +608,7 @@ fn random_disagreement(setup: &FireFlowSetup<'_>, res: &HydrantResult) -> Option
     let id = &net.hydrants[res.hydrant].id;
     let at = res.junction;
     if res.outcome == Outcome::Error {
-        return res
-            .notes
-            .is_empty()
-            .then(|| format!("{id}: error row without a note"));
+        return error_row_without_note(id, res);
     }
     let q = res.available_m3s?;
     let violated_at_zero = res

@@ -370,6 +370,25 @@ mod tests {
         }
     }
 
+    /// ∫₀^q φ by adaptive Simpson quadrature of `evaluate`, split at the regime boundaries
+    /// `breaks` (|q| values) so that each piece is smooth. Integrated from 0 to q itself, so
+    /// reverse flows run backwards over φ < 0.
+    fn quadrature_content(law: &LinkLaw, q: f64, breaks: &[f64]) -> f64 {
+        let g = |x: f64| law.evaluate(x).0;
+        let a = q.abs();
+        let mut points = vec![0.0];
+        points.extend(breaks.iter().copied().filter(|&b| b < a));
+        points.push(a);
+        let points: Vec<f64> = points.iter().map(|p| p * q.signum()).collect();
+        points
+            .windows(2)
+            .map(|w| {
+                let scale = (g(w[1]) * (w[1] - w[0])).abs();
+                adaptive_simpson(&g, w[0], w[1], 1e-13 * scale)
+            })
+            .sum()
+    }
+
     /// ∫ₐᵇ g by adaptive Simpson quadrature to an absolute tolerance (Lyness, "Notes on the
     /// adaptive Simpson quadrature routine", J. ACM 16(3), 1969; the Richardson term added).
     fn adaptive_simpson(g: &dyn Fn(f64) -> f64, a: f64, b: f64, tolerance: f64) -> f64 {
@@ -441,20 +460,7 @@ mod tests {
                 5e-5, 2.5e-4, 4.0e-4, 5.5e-4, 6.5e-4, 3e-3, 0.05, 0.5, -2.5e-4, -5.5e-4, -0.05,
             ];
             for q in flows {
-                let g = |x: f64| law.evaluate(x).0;
-                let a = q.abs();
-                let mut points = vec![0.0];
-                points.extend(breaks.iter().copied().filter(|&b| b < a));
-                points.push(a);
-                // Integrated from 0 to q itself, so reverse flows run backwards over φ < 0.
-                let points: Vec<f64> = points.iter().map(|p| p * q.signum()).collect();
-                let reference: f64 = points
-                    .windows(2)
-                    .map(|w| {
-                        let scale = (g(w[1]) * (w[1] - w[0])).abs();
-                        adaptive_simpson(&g, w[0], w[1], 1e-13 * scale)
-                    })
-                    .sum();
+                let reference = quadrature_content(&law, q, &breaks);
                 let content = law.content(q);
                 assert_relative_eq!(content, reference, max_relative = 1e-11);
                 // Not the old approximation f(q)·d·|q|³/3 of the friction part (2/3 of the
@@ -474,22 +480,7 @@ mod tests {
         ];
         for law in &laws {
             for q in [5e-5, 2e-4, 0.05, -0.05, -5e-5_f64] {
-                let g = |x: f64| law.evaluate(x).0;
-                let a = q.abs();
-                let mut points = vec![0.0];
-                if a > ZERO_FLOW_M3S {
-                    points.push(ZERO_FLOW_M3S);
-                }
-                points.push(a);
-                // Integrated from 0 to q itself, so reverse flows run backwards over φ < 0.
-                let points: Vec<f64> = points.iter().map(|p| p * q.signum()).collect();
-                let reference: f64 = points
-                    .windows(2)
-                    .map(|w| {
-                        let scale = (g(w[1]) * (w[1] - w[0])).abs();
-                        adaptive_simpson(&g, w[0], w[1], 1e-13 * scale)
-                    })
-                    .sum();
+                let reference = quadrature_content(law, q, &[ZERO_FLOW_M3S]);
                 assert_relative_eq!(law.content(q), reference, max_relative = 1e-11);
             }
         }
