@@ -5,6 +5,8 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand, ValueEnum};
 
+mod commands_flowtest;
+
 use firemain::hydraulics::Hydraulics;
 use firemain::model::{load_network, validate, Loaded};
 use firemain::report::upsize::PROPOSED_NETWORK;
@@ -40,6 +42,9 @@ enum Command {
     /// Propose the cheapest main upsizings that make failing hydrants pass.
     #[command(after_help = EXIT_CODES)]
     Upsize(UpsizeArgs),
+    /// Reduce field hydrant flow tests, compare them with the model, calibrate roughness.
+    #[command(after_help = EXIT_CODES)]
+    Flowtest(commands_flowtest::FlowtestArgs),
     /// Solve the steady state at one demand condition.
     #[command(after_help = EXIT_CODES)]
     Solve {
@@ -104,6 +109,7 @@ fn main() -> ExitCode {
         } => solve_command(&network, condition.into(), out.as_deref()),
         Command::Upsize(args) => upsize_command(&args),
         Command::Check(args) => check_command(&args),
+        Command::Flowtest(args) => commands_flowtest::run(&args),
     };
     ExitCode::from(status as u8)
 }

@@ -1,5 +1,6 @@
 //! Roughness calibration: one Hazen-Williams C (or Darcy-Weisbach roughness) per pipe group,
-//! fitted to the residual-pressure misfits of field tests by bounded Levenberg-Marquardt
+//! fitted as one factor on the group's roughness (so that the pipes of a group keep their
+//! differences, and a group of equal pipes gets one fitted value) to the residual-pressure misfits of field tests by bounded Levenberg-Marquardt
 //! (Levenberg 1944; Marquardt, "An algorithm for least-squares estimation of nonlinear
 //! parameters", J. SIAM 11(2), 1963), the approach of hydrant-test calibration (Walski,
 //! "Technique for calibrating network models", J. Water Resour. Plann. Manage. 109(4), 1983).
@@ -67,7 +68,8 @@ pub struct GroupFit {
     pub length_m: f64,
     /// Length-weighted mean roughness before.
     pub before: f64,
-    /// The fitted roughness (every pipe of the group), or `before` when not identifiable.
+    /// Length-weighted mean roughness after the fit (every pipe's roughness times the group's
+    /// fitted factor), or `before` when not identifiable.
     pub after: f64,
     /// One standard error of `after`; `None` without enough tests to estimate the noise.
     pub standard_error: Option<f64>,
@@ -91,18 +93,19 @@ pub struct Calibration {
     pub calibrated: Network,
 }
 
-/// How a group's roughness enters the fit: C itself, or ln ε (roughness spans decades).
+/// How a group's factor on its roughness enters the fit: the factor itself on C, or its
+/// logarithm on ε (roughness heights span decades).
 #[derive(Clone, Copy)]
 struct Param(HeadlossFormula);
 
 impl Param {
-    fn to_theta(self, v: f64) -> f64 {
+    fn to_theta(self, factor: f64) -> f64 {
         match self.0 {
-            HeadlossFormula::HazenWilliams => v,
-            HeadlossFormula::DarcyWeisbach => v.ln(),
+            HeadlossFormula::HazenWilliams => factor,
+            HeadlossFormula::DarcyWeisbach => factor.ln(),
         }
     }
-    fn value(self, theta: f64) -> f64 {
+    fn factor(self, theta: f64) -> f64 {
         match self.0 {
             HeadlossFormula::HazenWilliams => theta,
             HeadlossFormula::DarcyWeisbach => theta.exp(),
@@ -127,14 +130,14 @@ struct Problem<'a> {
 }
 
 impl Problem<'_> {
-    /// The network with group `g`'s pipes at roughness `value(theta[k])` for each free group.
+    /// The network with the roughness of each free group's pipes times `factor(theta[k])`.
     fn apply(&self, free: &[usize], theta: &[f64]) -> Network {
         let mut net = self.net.clone();
         for (&g, &t) in free.iter().zip(theta) {
-            let v = self.param.value(t);
+            let f = self.param.factor(t);
             for &i in &self.groups[g].pipes {
                 if let LinkKind::Pipe(p) = &mut net.links[i].kind {
-                    p.roughness = v;
+                    p.roughness *= f;
                 }
             }
         }
@@ -176,7 +179,7 @@ impl Problem<'_> {
                     let link = &tnet.links[i];
                     let q = sol.flows_m3s[i];
                     let (_, slope) = h.law(i).evaluate(q);
-                    let dphi = self.loss_derivative(link, q, th);
+                    let dphi = self.loss_derivative(i, link, q, th);
                     dh += dphi / slope * (resp[link.to] - resp[link.from]);
                 }
                 jac[(t, k)] = pressure_kpa_from_head_m(dh);
@@ -187,12 +190,13 @@ impl Problem<'_> {
 
     /// ∂φ/∂θ of pipe `link` at fixed flow `q`, by its law alone (central difference of the
     /// law, not of a solve).
-    fn loss_derivative(&self, link: &crate::model::Link, q: f64, theta: f64) -> f64 {
+    fn loss_derivative(&self, i: usize, link: &crate::model::Link, q: f64, theta: f64) -> f64 {
         let eta = 1e-4 * theta.abs().max(1.0);
+        let original = self.net.links[i].as_pipe().map_or(0.0, |p| p.roughness);
         let phi = |t: f64| {
             let mut l = link.clone();
             if let LinkKind::Pipe(p) = &mut l.kind {
-                p.roughness = self.param.value(t);
+                p.roughness = original * self.param.factor(t);
             }
             LinkLaw::of(&l, self.net.headloss).evaluate(q).0
         };
@@ -221,7 +225,8 @@ fn rms(r: &DVector<f64>) -> f64 {
 }
 
 /// Fits the roughness of `groups` to `tests` (each with its reduced outlet flows, m³/s).
-/// `bounds` are SI (C, or roughness m); `None` for the plausible defaults.
+/// `bounds` (SI: C, or roughness m; `None` for the plausible defaults) hold each group's
+/// length-weighted mean roughness.
 pub fn calibrate(
     net: &Network,
     tests: &[FlowTest],
@@ -234,7 +239,6 @@ pub fn calibrate(
         HeadlossFormula::HazenWilliams => HW_BOUNDS,
         HeadlossFormula::DarcyWeisbach => DW_BOUNDS_M,
     });
-    let (lo, hi) = (param.to_theta(bounds.0), param.to_theta(bounds.1));
     let problem = Problem {
         net,
         tests,
@@ -247,15 +251,23 @@ pub fn calibrate(
         param,
     };
     let means: Vec<(f64, f64)> = groups.iter().map(|g| group_mean(net, g)).collect();
-    let all: Vec<usize> = (0..groups.len()).collect();
-    let start: Vec<f64> = means
+    // Bounds on each group's factor: its length-weighted mean roughness stays within `bounds`.
+    let limits: Vec<(f64, f64)> = means
         .iter()
-        .map(|(v, _)| param.to_theta(*v).clamp(lo, hi))
+        .map(|(m, _)| {
+            let m = if *m > 0.0 { *m } else { 1.0 };
+            (param.to_theta(bounds.0 / m), param.to_theta(bounds.1 / m))
+        })
+        .collect();
+    let all: Vec<usize> = (0..groups.len()).collect();
+    let start: Vec<f64> = limits
+        .iter()
+        .map(|&(lo, hi)| param.to_theta(1.0).clamp(lo, hi))
         .collect();
 
     // Which groups the tests can see, judged at the start.
-    let start_net = problem.apply(&all, &start);
-    let (r0, j0) = problem.evaluate(&start_net, &all, &start)?;
+    let rms_before_kpa = rms(&problem.evaluate(net, &[], &[])?.0);
+    let (r0, j0) = problem.evaluate(&problem.apply(&all, &start), &all, &start)?;
     let informs: Vec<Vec<usize>> = (0..groups.len())
         .map(|k| {
             (0..tests.len())
@@ -268,6 +280,7 @@ pub fn calibrate(
         .copied()
         .filter(|&k| !informs[k].is_empty())
         .collect();
+    let free_limits: Vec<(f64, f64)> = free.iter().map(|&k| limits[k]).collect();
     let (mut theta, mut r, mut jac) = if free.len() == all.len() {
         (start.clone(), r0, j0)
     } else {
@@ -275,9 +288,9 @@ pub fn calibrate(
         let (r, j) = problem.evaluate(&problem.apply(&free, &th), &free, &th)?;
         (th, r, j)
     };
-    let iterations = levenberg_marquardt(&problem, &free, (lo, hi), &mut theta, &mut r, &mut jac)?;
+    let iterations =
+        levenberg_marquardt(&problem, &free, &free_limits, &mut theta, &mut r, &mut jac)?;
 
-    let rms_before_kpa = rms(&problem.evaluate(net, &[], &[])?.0);
     let calibrated = problem.apply(&free, &theta);
     let rms_after_kpa = rms(&r);
     let se = standard_errors(&r, &jac);
@@ -289,14 +302,15 @@ pub fn calibrate(
             let (before, length_m) = means[k];
             let (after, standard_error, at_bound) = match pos {
                 Some(p) => {
-                    let v = param.value(theta[p]);
-                    // Delta method for ln ε: se(ε) ≈ ε·se(ln ε).
+                    let f = param.factor(theta[p]);
+                    let v = before * f;
+                    // se(C) = mean·se(factor); for ln ε by the delta method, se(ε) ≈ ε·se(ln).
                     let se = se.as_ref().map(|s| match param.0 {
-                        HeadlossFormula::HazenWilliams => s[p],
+                        HeadlossFormula::HazenWilliams => before * s[p],
                         HeadlossFormula::DarcyWeisbach => v * s[p],
                     });
-                    let at = (theta[p] - lo).abs() < 1e-9 * lo.abs().max(1.0)
-                        || (theta[p] - hi).abs() < 1e-9 * hi.abs().max(1.0);
+                    let (lo, hi) = limits[k];
+                    let at = (theta[p] - lo).abs() < 1e-9 || (theta[p] - hi).abs() < 1e-9;
                     (v, se, at)
                 }
                 None => (before, None, false),
@@ -330,7 +344,7 @@ pub fn calibrate(
 fn levenberg_marquardt(
     problem: &Problem<'_>,
     free: &[usize],
-    (lo, hi): (f64, f64),
+    limits: &[(f64, f64)],
     theta: &mut Vec<f64>,
     r: &mut DVector<f64>,
     jac: &mut DMatrix<f64>,
@@ -356,7 +370,8 @@ fn levenberg_marquardt(
             let trial: Vec<f64> = theta
                 .iter()
                 .zip(step.iter())
-                .map(|(t, s)| (t + s).clamp(lo, hi))
+                .zip(limits)
+                .map(|((t, s), &(lo, hi))| (t + s).clamp(lo, hi))
                 .collect();
             let (rt, jt) = problem.evaluate(&problem.apply(free, &trial), free, &trial)?;
             let ct = rt.norm_squared();

@@ -693,3 +693,60 @@ fn read_sources(t: &Table, net: &Network, tests: &mut [FlowTest], diags: &mut Di
         tests[ti].source_grades.push((node, grade));
     }
 }
+
+/// The label of every pipe in column `column` of the network's pipes.csv: (link index, label),
+/// pipes with an empty cell left out. An error when the column is absent.
+pub fn pipe_labels(
+    dir: &Path,
+    column: &str,
+    net: &Network,
+) -> Result<Vec<(usize, String)>, Diagnostics> {
+    let column = column.trim().to_ascii_lowercase();
+    let known = ["id", column.as_str()];
+    let spec = TableSpec {
+        known: &known,
+        required: &["id"],
+    };
+    let mut diags = Diagnostics::new();
+    let Some(t) = read_table(&dir.join("pipes.csv"), "pipes.csv", &spec, &mut diags) else {
+        return Err(diags);
+    };
+    if !t.has_column(&column) {
+        let mut d = Diagnostics::new();
+        d.error(
+            Location::file("pipes.csv"),
+            format!("--calibrate-by {column}: pipes.csv has no column `{column}`"),
+            "name a column of pipes.csv (e.g. material), or add a column such as `group` that names each pipe's group",
+        );
+        return Err(d);
+    }
+    let mut labels = Vec::new();
+    for row in t.rows() {
+        let id = t.cell(row, "id");
+        let label = t.cell(row, &column);
+        if let (Some(link), false) = (net.link_by_id(id.text), label.is_empty()) {
+            labels.push((link, label.text.to_string()));
+        }
+    }
+    Ok(labels)
+}
+
+/// The files of a network folder (name, bytes), to copy into a calibrated copy.
+pub fn read_network_files(dir: &Path) -> std::io::Result<Vec<(String, Vec<u8>)>> {
+    let mut out = Vec::new();
+    for name in [
+        "model.toml",
+        "junctions.csv",
+        "sources.csv",
+        "pipes.csv",
+        "hydrants.csv",
+        "pumps.csv",
+        "valves.csv",
+    ] {
+        let path = dir.join(name);
+        if path.exists() {
+            out.push((name.to_string(), std::fs::read(&path)?));
+        }
+    }
+    Ok(out)
+}
