@@ -213,3 +213,256 @@ fn calibration_with_half_psi_noise_is_within_its_standard_error() {
         assert!((g.after - c).abs() < 3.0 * se + 0.5, "{name}: {g:?}");
     }
 }
+
+// ---------------------------------------------------------------------------------------------
+// The command: its files, and bad input refused with file, line, column and a fix. Expected
+// messages and exit codes are firemain's own specification (docs/flow-tests.md, `--help`).
+
+use std::path::Path;
+use std::process::{Command, Output};
+
+const MODEL: &str = "name = \"flow-test network\"\nunits = \"us\"\nheadloss = \"hazen-williams\"\n[demand]\nmax_day_factor = 1.5\npeak_hour_factor = 2.5\n";
+const JUNCTIONS: &str = "id,elevation,demand\nJ1,100,10\nJ2,105,20\nJ3,110,15\nJ4,110,15\n";
+const SOURCES: &str = "id,kind,grade\nR1,reservoir,300\nT1,tank,295\n";
+const PIPES: &str = "# a comment kept as it is\nid,from,to,length,diameter,roughness,minor_loss,status,material\nP1,R1,J1,800,12,120,,,DI\nP2,J1,J2,900,8,110,,,old\nP3,J2,J3,900,8,110,,,old\nP4,J3,J4,900,6,110,,,old\nP5,T1,J4,2500,8,130,,,PVC\n";
+const HYDRANTS: &str = "id,junction\nH1,J2\nH2,J3\nH3,J4\n";
+const HEADER: &str = "test,date,residual_hydrant,static_pressure,residual_pressure,flow_hydrant,outlet_diameter,outlet_coefficient,pitot_pressure,measured_flow,demand_factor,notes\n";
+
+fn network(dir: &Path) {
+    for (name, text) in [
+        ("model.toml", MODEL),
+        ("junctions.csv", JUNCTIONS),
+        ("sources.csv", SOURCES),
+        ("pipes.csv", PIPES),
+        ("hydrants.csv", HYDRANTS),
+    ] {
+        std::fs::write(dir.join(name), text).unwrap();
+    }
+}
+
+fn firemain(args: &[&std::ffi::OsStr]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_firemain"))
+        .args(args)
+        .env("SOURCE_DATE_EPOCH", "1700000000")
+        .output()
+        .expect("run firemain")
+}
+
+/// Runs `flowtest` on the network with `tests` (and `sources`, as flowtest_sources.csv).
+fn run_tests(tests: &str, sources: Option<&str>, extra: &[&str]) -> (Output, tempfile::TempDir) {
+    let dir = tempfile::tempdir().unwrap();
+    let net = dir.path().join("net");
+    std::fs::create_dir(&net).unwrap();
+    network(&net);
+    let t = dir.path().join("flowtests.csv");
+    std::fs::write(&t, tests).unwrap();
+    if let Some(s) = sources {
+        std::fs::write(dir.path().join("flowtest_sources.csv"), s).unwrap();
+    }
+    let out = dir.path().join("out");
+    let mut args: Vec<&std::ffi::OsStr> = vec![
+        "flowtest".as_ref(),
+        net.as_os_str(),
+        "--tests".as_ref(),
+        t.as_os_str(),
+        "--out".as_ref(),
+        out.as_os_str(),
+    ];
+    args.extend(extra.iter().map(|a| std::ffi::OsStr::new(*a)));
+    (firemain(&args), dir)
+}
+
+/// Asserts exit 2, every `(location, words)` in stderr, and no output folder.
+fn assert_refused(tests: &str, sources: Option<&str>, expected: &[(&str, &str)]) {
+    let (out, dir) = run_tests(tests, sources, &[]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    for (loc, words) in expected {
+        let line = err
+            .lines()
+            .find(|l| l.starts_with(loc))
+            .unwrap_or_else(|| panic!("no finding at {loc}:\n{err}"));
+        assert!(
+            line.contains(words),
+            "{loc}: `{words}` not in {line}\n{err}"
+        );
+    }
+    assert!(err.contains("fix:") || err.contains("->"), "{err}");
+    assert!(!dir.path().join("out").exists());
+}
+
+#[test]
+fn command_writes_its_files_as_one_set_and_the_calibrated_copy_changes_only_roughness() {
+    let tests = format!(
+        "{HEADER}A,2026-05-01,H1,70,60,H2,2.5,0.9,20,,1,\nA,,,,,H2,2.5,0.9,20,,,\nB,2026-05-01,H2,68,50,H3,,,,800,1.2,meter\n"
+    );
+    let (out, dir) = run_tests(
+        &tests,
+        Some("test,source,grade\nB,T1,290\n"),
+        &["--calibrate-by", "material"],
+    );
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(matches!(out.status.code(), Some(0) | Some(1)), "{err}");
+    let o = dir.path().join("out");
+    for f in [
+        "flowtest_results.csv",
+        "calibration.csv",
+        "flowtest.md",
+        "manifest-flowtest.toml",
+        "calibrated-network/README.md",
+        "calibrated-network/model.toml",
+    ] {
+        assert!(o.join(f).exists(), "{f}: {err}");
+    }
+    // Same bytes except roughness cells.
+    let before = PIPES.lines().collect::<Vec<_>>();
+    let after = std::fs::read_to_string(o.join("calibrated-network/pipes.csv")).unwrap();
+    let after = after.lines().collect::<Vec<_>>();
+    assert_eq!(before.len(), after.len());
+    for (b, a) in before.iter().zip(&after) {
+        let (bf, af): (Vec<&str>, Vec<&str>) = (b.split(',').collect(), a.split(',').collect());
+        assert_eq!(bf.len(), af.len(), "{b} / {a}");
+        for (k, (x, y)) in bf.iter().zip(&af).enumerate() {
+            if k != 5 || b.starts_with('#') || b.starts_with("id,") {
+                assert_eq!(x, y, "{b} / {a}");
+            }
+        }
+    }
+    let results = std::fs::read_to_string(o.join("flowtest_results.csv")).unwrap();
+    // Test A: two 2½-in outlets at 20 psi, c 0.9: 2 × 29.83·0.9·6.25·√20 = 1,500.7 gpm
+    // (NFPA 291 §4.9.3).
+    assert!(
+        results.contains("A,2026-05-01,H1,H2,2,1500.6")
+            || results.contains("A,2026-05-01,H1,H2,2,1500.7"),
+        "{results}"
+    );
+    assert!(
+        results.contains("B,2026-05-01,H2,H3,1,800.000"),
+        "{results}"
+    );
+    let md = std::fs::read_to_string(o.join("flowtest.md")).unwrap();
+    assert!(
+        md.contains("flowtest_sources.csv") && md.contains("## Calibration by `material`"),
+        "{md}"
+    );
+}
+
+#[test]
+fn bad_tests_are_refused_at_their_cell() {
+    // Unknown hydrant, with a suggestion.
+    assert_refused(
+        &format!("{HEADER}A,,H1,70,60,H9,2.5,0.9,20,,,\n"),
+        None,
+        &[("flowtests.csv:2:6", "`H9` is not a hydrant id")],
+    );
+    // Residual above static.
+    assert_refused(
+        &format!("{HEADER}A,,H1,60,70,H2,2.5,0.9,20,,,\n"),
+        None,
+        &[("flowtests.csv:2:5", "not below the static")],
+    );
+    // The residual hydrant also flows.
+    assert_refused(
+        &format!("{HEADER}A,,H1,70,60,H1,2.5,0.9,20,,,\n"),
+        None,
+        &[(
+            "flowtests.csv:2",
+            "both the residual hydrant and a flow hydrant",
+        )],
+    );
+    // A zero pitot reading; a coefficient outside 0.5-1.0; a non-number.
+    assert_refused(
+        &format!("{HEADER}A,,H1,70,60,H2,2.5,0.9,0,,,\nB,,H1,70,60,H2,2.5,1.2,20,,,\nC,,H1,70,6O,H2,2.5,0.9,20,,,\n"),
+        None,
+        &[
+            ("flowtests.csv:2:9", "`pitot_pressure` must be positive"),
+            ("flowtests.csv:3:8", "outside 0.5-1.0"),
+            ("flowtests.csv:4:5", "not a finite number"),
+        ],
+    );
+    // Both a meter reading and pitot columns; neither.
+    assert_refused(
+        &format!("{HEADER}A,,H1,70,60,H2,2.5,0.9,20,900,,\nB,,H1,70,60,H2,,,,,,\n"),
+        None,
+        &[
+            ("flowtests.csv:2:10", "both a measured flow and pitot"),
+            (
+                "flowtests.csv:3",
+                "neither a pitot reading nor a measured flow",
+            ),
+        ],
+    );
+    // Shared values that differ between rows of one test; a missing required column.
+    assert_refused(
+        &format!("{HEADER}A,,H1,70,60,H2,2.5,0.9,20,,,\nA,,H1,72,60,H2,2.5,0.9,20,,,\n"),
+        None,
+        &[("flowtests.csv:3:4", "differs from an earlier row")],
+    );
+    assert_refused(
+        "test,residual_hydrant,static_pressure,flow_hydrant\nA,H1,70,H2\n",
+        None,
+        &[("flowtests.csv:1", "`residual_pressure` is missing")],
+    );
+    assert_refused(HEADER, None, &[("flowtests.csv", "there are no tests")]);
+}
+
+#[test]
+fn bad_test_sources_are_refused_at_their_cell() {
+    let tests = format!("{HEADER}A,,H1,70,60,H2,2.5,0.9,20,,,\n");
+    assert_refused(
+        &tests,
+        Some("test,source,grade\nZ,T1,290\nA,J1,290\nA,T1,abc\nA,T1,290\nA,T1,291\n"),
+        &[
+            ("flowtest_sources.csv:2:1", "`Z` is not a test"),
+            ("flowtest_sources.csv:3:2", "not a reservoir or tank"),
+            ("flowtest_sources.csv:4:3", "not a finite number"),
+            ("flowtest_sources.csv:6:2", "given twice"),
+        ],
+    );
+}
+
+#[test]
+fn calibrate_by_a_missing_column_is_an_input_error() {
+    let tests = format!("{HEADER}A,,H1,70,60,H2,2.5,0.9,20,,,\n");
+    let (out, dir) = run_tests(&tests, None, &["--calibrate-by", "zone"]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.contains("pipes.csv has no column `zone`"), "{err}");
+    assert!(!dir.path().join("out").exists());
+}
+
+#[test]
+fn demo_calibration_lowers_the_misfit_and_its_copy_loads() {
+    // Invariants only (the demo's data is invented): the fit lowers the RMS misfit, and the
+    // calibrated copy is a valid network with the same pipes.
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/demo-town");
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let o = firemain(&[
+        "flowtest".as_ref(),
+        demo.as_os_str(),
+        "--tests".as_ref(),
+        demo.join("flowtests.csv").as_os_str(),
+        "--calibrate-by".as_ref(),
+        "material".as_ref(),
+        "--out".as_ref(),
+        out.as_os_str(),
+        "--quiet".as_ref(),
+    ]);
+    assert!(
+        matches!(o.status.code(), Some(0) | Some(1)),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let before = firemain::model::load_network(&demo).unwrap().network;
+    let after = firemain::model::load_network(&out.join("calibrated-network"))
+        .unwrap()
+        .network;
+    assert_eq!(before.links.len(), after.links.len());
+    let md = std::fs::read_to_string(out.join("flowtest.md")).unwrap();
+    let rms = |key: &str| -> f64 {
+        let at = md.find(key).unwrap() + key.len();
+        md[at..].split_whitespace().next().unwrap().parse().unwrap()
+    };
+    assert!(rms("RMS residual misfit") > rms("psi before, "), "{md}");
+}

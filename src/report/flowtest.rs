@@ -212,7 +212,7 @@ impl FlowTestReport<'_> {
         let worst = c.worst(&self.tests.tests).map(|w| {
             let t = self.test(w);
             format!(
-                "; worst test {} (residual {} {})",
+                "; worst test {} (residual {}{})",
                 t.id,
                 if w.residual_diff_kpa(t) >= 0.0 {
                     "+"
@@ -243,7 +243,7 @@ impl FlowTestReport<'_> {
         for r in &self.comparison.rows {
             let t = self.test(r);
             s.push_str(&format!(
-                "  {:<10} Q {:>7} {}  static {:>6}/{:<6} residual {:>6}/{:<6} {} (field/model)  at {}: {} {}{}\n",
+                "  {:<10} Q {:>7} {}  static {:>6}/{:<6} residual {:>6}/{:<6} {} (field/model)  at {}: {} {}{}{}\n",
                 t.id,
                 o.flow_text(r.reduced.total_flow_m3s),
                 o.sym(Quantity::Flow),
@@ -261,7 +261,11 @@ impl FlowTestReport<'_> {
                 r.reduced
                     .class
                     .map(|c| format!(" class {}", c.name()))
-                    .unwrap_or_default()
+                    .unwrap_or_default(),
+                match r.reduced.warnings.len() + usize::from(r.hint.is_some()) {
+                    0 => String::new(),
+                    n => format!("  ({n} note(s) in flowtest.md)"),
+                }
             ));
         }
         if let Some((cal, column)) = self.calibration {
