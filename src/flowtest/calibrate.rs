@@ -155,15 +155,29 @@ impl Problem<'_> {
         let m = self.tests.len();
         let mut r = DVector::zeros(m);
         let mut jac = DMatrix::zeros(m, free.len());
+        // One solver set-up for the tests at the network's own source grades.
+        let mut shared: Option<Hydraulics<'_>> = None;
         for (t, test) in self.tests.iter().enumerate() {
             let tnet = network_for_test(net, test);
-            let h = Hydraulics::new(&tnet).map_err(|source| FlowTestError::Solve {
+            let failed = |source| FlowTestError::Solve {
                 test: test.id.clone(),
                 which: "residual",
                 source,
-            })?;
+            };
+            let own;
+            let h = if test.source_grades.is_empty() {
+                if shared.is_none() {
+                    shared = Some(Hydraulics::new(net).map_err(failed)?);
+                }
+                shared.as_ref().ok_or_else(|| {
+                    FlowTestError::Calibration("internal: no solver set-up".into())
+                })?
+            } else {
+                own = Hydraulics::new(&tnet).map_err(failed)?;
+                &own
+            };
             let mut ws = h.workspace();
-            let sol = solve_test(&h, &mut ws, test, &self.draws[t], "residual")?;
+            let sol = solve_test(h, &mut ws, test, &self.draws[t], "residual")?;
             r[t] = residual_point_kpa(&tnet, test, &sol)? - test.residual_kpa;
             let j = tnet.hydrants[test.residual_hydrant].junction;
             // A junction held by a PRV has no response: its column entries stay 0.
@@ -193,14 +207,15 @@ impl Problem<'_> {
     fn loss_derivative(&self, i: usize, link: &crate::model::Link, q: f64, theta: f64) -> f64 {
         let eta = 1e-4 * theta.abs().max(1.0);
         let original = self.net.links[i].as_pipe().map_or(0.0, |p| p.roughness);
-        let phi = |t: f64| {
-            let mut l = link.clone();
+        let mut l = link.clone();
+        let mut phi = |t: f64| {
             if let LinkKind::Pipe(p) = &mut l.kind {
                 p.roughness = original * self.param.factor(t);
             }
             LinkLaw::of(&l, self.net.headloss).evaluate(q).0
         };
-        (phi(theta + eta) - phi(theta - eta)) / (2.0 * eta)
+        let (up, down) = (phi(theta + eta), phi(theta - eta));
+        (up - down) / (2.0 * eta)
     }
 }
 
