@@ -14,11 +14,15 @@
 //! summing over a group's pipes gives its column of the Jacobian: one extra solve per test.
 //! The pipe's own δ = ∂φ_i/∂θ at fixed flow comes from its head-loss law alone.
 
+use std::cell::RefCell;
+
 use nalgebra::{DMatrix, DVector};
 
-use super::compare::{network_for_test, residual_point_kpa, solve_test, test_draws, FlowTestError};
+use super::compare::{
+    network_for_test, residual_point_kpa, solve_test_from, test_draws, FlowTestError,
+};
 use crate::hydraulics::laws::LinkLaw;
-use crate::hydraulics::{Hydraulics, LinkState};
+use crate::hydraulics::{Hydraulics, LinkState, Solution};
 use crate::model::flowtests::FlowTest;
 use crate::model::{HeadlossFormula, LinkKind, Network};
 use crate::units::pressure_kpa_from_head_m;
@@ -29,7 +33,8 @@ pub const HW_BOUNDS: (f64, f64) = (40.0, 160.0);
 /// Plausible Darcy-Weisbach absolute roughness, m: 0.001 mm (drawn plastic) to 5 mm (heavily
 /// tuberculated) (common practice, no source).
 pub const DW_BOUNDS_M: (f64, f64) = (1.0e-6, 5.0e-3);
-/// A group whose 10 % change moves no test's residual pressure by this much (kPa; 0.05 psi,
+/// A group whose probe change (10 % of C, or a doubling of ε: both change a rough pipe's loss
+/// by roughly a fifth) moves no test's residual pressure by this much (kPa; 0.05 psi,
 /// well below a gauge's reading error) is not identifiable from the tests (common practice,
 /// no source).
 pub const IDENTIFIABLE_KPA: f64 = 0.05 * crate::units::KPA_PER_PSI;
@@ -111,11 +116,14 @@ impl Param {
             HeadlossFormula::DarcyWeisbach => theta.exp(),
         }
     }
-    /// A 10 % change of the roughness, in θ.
-    fn tenth(self, theta: f64) -> f64 {
+    /// The change in θ by which a group's identifiability is judged: 10 % of C changes a
+    /// pipe's loss by 1.1^1.852 − 1 ≈ 19 %; ε must about double for the same in rough pipe
+    /// (the friction factor grows about as ε^0.2 to ε^0.3 there, by the Colebrook-White
+    /// equation), and a 10 % change of ε would call nearly every group unidentifiable.
+    fn probe(self, theta: f64) -> f64 {
         match self.0 {
             HeadlossFormula::HazenWilliams => 0.1 * theta.abs(),
-            HeadlossFormula::DarcyWeisbach => 0.1,
+            HeadlossFormula::DarcyWeisbach => std::f64::consts::LN_2,
         }
     }
 }
@@ -127,6 +135,9 @@ struct Problem<'a> {
     draws: Vec<Vec<(usize, f64)>>,
     groups: &'a [Group],
     param: Param,
+    /// The last residual state of each test: the next evaluation starts from it (a change of
+    /// roughness moves a state little, so a warm start saves most of the iterations).
+    starts: RefCell<Vec<Option<Solution>>>,
 }
 
 impl Problem<'_> {
@@ -177,7 +188,10 @@ impl Problem<'_> {
                 &own
             };
             let mut ws = h.workspace();
-            let sol = solve_test(h, &mut ws, test, &self.draws[t], "residual")?;
+            let start = self.starts.borrow()[t].clone();
+            let sol =
+                solve_test_from(h, &mut ws, test, &self.draws[t], "residual", start.as_ref())?;
+            self.starts.borrow_mut()[t] = Some(sol.clone());
             r[t] = residual_point_kpa(&tnet, test, &sol)? - test.residual_kpa;
             let j = tnet.hydrants[test.residual_hydrant].junction;
             // A junction held by a PRV has no response: its column entries stay 0.
@@ -264,6 +278,7 @@ pub fn calibrate(
             .collect(),
         groups,
         param,
+        starts: RefCell::new(vec![None; tests.len()]),
     };
     let means: Vec<(f64, f64)> = groups.iter().map(|g| group_mean(net, g)).collect();
     // Bounds on each group's factor: its length-weighted mean roughness stays within `bounds`.
@@ -286,7 +301,7 @@ pub fn calibrate(
     let informs: Vec<Vec<usize>> = (0..groups.len())
         .map(|k| {
             (0..tests.len())
-                .filter(|&t| (j0[(t, k)] * param.tenth(start[k])).abs() >= IDENTIFIABLE_KPA)
+                .filter(|&t| (j0[(t, k)] * param.probe(start[k])).abs() >= IDENTIFIABLE_KPA)
                 .collect()
         })
         .collect();
@@ -372,13 +387,28 @@ fn levenberg_marquardt(
     for iteration in 1..=MAX_ITERATIONS {
         let a = jac.transpose() * &*jac;
         let g = jac.transpose() * &*r;
+        // Parameters at a bound that the gradient pushes outward stay there for this step
+        // (their rows and columns are decoupled), so that the others get a true step.
+        let held: Vec<bool> = (0..free.len())
+            .map(|k| {
+                let (lo, hi) = limits[k];
+                (theta[k] <= lo + 1e-12 && g[k] > 0.0) || (theta[k] >= hi - 1e-12 && g[k] < 0.0)
+            })
+            .collect();
         let mut accepted = None;
         for _ in 0..12 {
             let mut n = a.clone();
+            let mut rhs = -&g;
             for k in 0..free.len() {
                 n[(k, k)] += lambda * a[(k, k)].max(1e-12);
+                if held[k] {
+                    n.row_mut(k).fill(0.0);
+                    n.column_mut(k).fill(0.0);
+                    n[(k, k)] = 1.0;
+                    rhs[k] = 0.0;
+                }
             }
-            let Some(step) = n.cholesky().map(|c| c.solve(&(-&g))) else {
+            let Some(step) = n.cholesky().map(|c| c.solve(&rhs)) else {
                 lambda *= 4.0;
                 continue;
             };

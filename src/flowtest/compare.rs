@@ -116,12 +116,33 @@ pub fn solve_test(
     draws: &[(usize, f64)],
     which: &'static str,
 ) -> Result<Solution, FlowTestError> {
+    solve_test_from(h, ws, test, draws, which, None)
+}
+
+/// As [`solve_test`], starting from `start` (a solution of the same network topology, e.g. the
+/// same test before the roughness changed) instead of a cold start.
+pub fn solve_test_from(
+    h: &Hydraulics<'_>,
+    ws: &mut Workspace,
+    test: &FlowTest,
+    draws: &[(usize, f64)],
+    which: &'static str,
+    start: Option<&Solution>,
+) -> Result<Solution, FlowTestError> {
     let request = SolveRequest {
         demand_factor: test.demand_factor,
         extra_demand: draws,
         fixed_head: None,
     };
-    h.solve(ws, &request, &h.cold_start())
+    let cold;
+    let start = match start {
+        Some(s) => s,
+        None => {
+            cold = h.cold_start();
+            &cold
+        }
+    };
+    h.solve(ws, &request, start)
         .map_err(|source| FlowTestError::Solve {
             test: test.id.clone(),
             which,
