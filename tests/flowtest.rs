@@ -507,3 +507,103 @@ fn demo_calibration_lowers_the_misfit_and_its_copy_loads() {
     };
     assert!(rms("RMS residual misfit") > rms("psi before, "), "{md}");
 }
+
+#[test]
+fn comparison_of_a_single_main_matches_the_closed_form() {
+    // Reservoir at 60 m, 500 m of 200 mm C 100 to J1 (the residual hydrant), 10 m more to J2
+    // (the flow hydrant), no demand: the static pressure is the reservoir's head, the residual
+    // is it less the Hazen-Williams loss of 500 m at the test flow (Williams & Hazen, Hydraulic
+    // Tables, 1920, SI form as in netkit); the model's projection then follows NFPA 291 §4.13.
+    use firemain::flowtest::compare::compare;
+    use firemain::flowtest::reduce::projected_flow;
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 60.0)
+        .junction("J1", 0.0, 0.0)
+        .junction("J2", 0.0, 0.0)
+        .pipe("P1", "R", "J1", 500.0, 200.0, 100.0)
+        .pipe("P2", "J1", "J2", 10.0, 200.0, 100.0)
+        .hydrant("H1", "J1", None)
+        .hydrant("H2", "J2", None);
+    let net = f.load();
+    let q = 0.030;
+    let test = FlowTest {
+        id: "T".into(),
+        date: None,
+        residual_hydrant: net.hydrant_by_id("H1").unwrap(),
+        static_kpa: 580.0,
+        residual_kpa: 500.0,
+        demand_factor: 1.0,
+        outlets: vec![Outlet {
+            hydrant: net.hydrant_by_id("H2").unwrap(),
+            reading: OutletReading::Metered { flow_m3s: q },
+            line: 2,
+        }],
+        source_grades: Vec::new(),
+        notes: String::new(),
+        line: 2,
+    };
+    let c = compare(&net, std::slice::from_ref(&test), DEFAULT_FLOOR_KPA).unwrap();
+    let row = &c.rows[0];
+    let static_kpa = 60.0 * netkit::KPA_PER_M;
+    let residual_kpa =
+        (60.0 - netkit::hw_loss(netkit::hw_resistance(500.0, 0.2, 100.0), q)) * netkit::KPA_PER_M;
+    assert!((row.model_static_kpa - static_kpa).abs() < 1e-3, "{row:?}");
+    assert!(
+        (row.model_residual_kpa - residual_kpa).abs() < 1e-3,
+        "{row:?}"
+    );
+    let want = projected_flow(q, static_kpa, residual_kpa, DEFAULT_FLOOR_KPA).unwrap();
+    assert!((row.model_projected_m3s.unwrap() - want).abs() < 1e-6 * want);
+    // With the source 2 m lower during the test (flowtest_sources.csv), the static falls by 2 m.
+    let mut low = test.clone();
+    low.source_grades = vec![(net.node_by_id("R").unwrap(), 58.0)];
+    let c = compare(&net, &[low], DEFAULT_FLOOR_KPA).unwrap();
+    assert!((c.rows[0].model_static_kpa - 58.0 * netkit::KPA_PER_M).abs() < 1e-3);
+}
+
+#[test]
+fn si_network_reads_kpa_and_mm_and_writes_its_units() {
+    // Units as docs/flow-tests.md specifies: pressures kPa, outlet diameter mm, flows L/s.
+    let dir = tempfile::tempdir().unwrap();
+    let net = dir.path().join("net");
+    std::fs::create_dir(&net).unwrap();
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 60.0)
+        .junction("J1", 0.0, 1.0)
+        .junction("J2", 0.0, 1.0)
+        .pipe("P1", "R", "J1", 500.0, 200.0, 100.0)
+        .pipe("P2", "J1", "J2", 100.0, 150.0, 100.0)
+        .hydrant("H1", "J1", None)
+        .hydrant("H2", "J2", None);
+    f.write_to(&net);
+    let tests = dir.path().join("flowtests.csv");
+    // 63.5 mm, c 0.9, 170 kPa: 0.0666·0.9·63.5²·√170 = 3,151.3 L/min = 52.52 L/s (NFPA 291-2019
+    // metric form).
+    std::fs::write(
+        &tests,
+        format!("{HEADER}A,,H1,585,540,H2,63.5,0.9,170,,,\n"),
+    )
+    .unwrap();
+    let out = dir.path().join("out");
+    let o = firemain(&[
+        "flowtest".as_ref(),
+        net.as_os_str(),
+        "--tests".as_ref(),
+        tests.as_os_str(),
+        "--out".as_ref(),
+        out.as_os_str(),
+    ]);
+    assert!(
+        matches!(o.status.code(), Some(0) | Some(1)),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let csv = std::fs::read_to_string(out.join("flowtest_results.csv")).unwrap();
+    assert!(
+        csv.contains("measured_flow_lps") && csv.contains("static_model_kpa"),
+        "{csv}"
+    );
+    let row = csv.lines().nth(1).unwrap();
+    let q: f64 = row.split(',').nth(5).unwrap().parse().unwrap();
+    assert!((q - 52.52).abs() < 0.01, "{row}");
+}
