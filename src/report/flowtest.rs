@@ -236,9 +236,16 @@ impl FlowTestReport<'_> {
     pub fn terminal(&self) -> String {
         let o = self.out();
         let mut s = format!(
-            "Field flow tests: {}\n{}\n\n",
+            "Field flow tests: {}\n{}{}\n\n",
             self.network.name,
-            self.summary()
+            self.summary(),
+            self.tests
+                .sources_file
+                .as_ref()
+                .map(|f| format!(
+                    "\nsource levels during the tests from {f} (beside the tests file)"
+                ))
+                .unwrap_or_default()
         );
         for r in &self.comparison.rows {
             let t = self.test(r);
