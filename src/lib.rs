@@ -7,6 +7,7 @@
 pub mod cli;
 pub mod criteria;
 pub mod fireflow;
+pub mod flowtest;
 pub mod hydraulics;
 pub mod model;
 pub mod report;

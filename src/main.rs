@@ -7,7 +7,7 @@ use clap::{Parser, Subcommand};
 
 mod commands;
 
-use commands::{check, solve, upsize, validate};
+use commands::{check, flowtest, solve, upsize, validate};
 
 const EXIT_CODES: &str = "Exit codes: 0 = success (everything passes), 1 = findings (something fails its criteria), \
 2 = input error (command line, network or criteria files), 3 = analysis error (no hydraulic solution, or output not written).";
@@ -34,6 +34,9 @@ enum Command {
     /// Propose the cheapest main upsizings that make failing hydrants pass.
     #[command(after_help = EXIT_CODES)]
     Upsize(upsize::UpsizeArgs),
+    /// Reduce field hydrant flow tests, compare them with the model, calibrate roughness.
+    #[command(after_help = EXIT_CODES)]
+    Flowtest(flowtest::FlowtestArgs),
     /// Solve the steady state at one demand condition.
     #[command(after_help = EXIT_CODES)]
     Solve(solve::SolveArgs),
@@ -45,6 +48,7 @@ fn main() -> ExitCode {
         Command::Solve(args) => solve::run(&args),
         Command::Upsize(args) => upsize::run(&args),
         Command::Check(args) => check::run(&args),
+        Command::Flowtest(args) => flowtest::run(&args),
     };
     if let Err(e) = &result {
         eprint!("{}", e.stderr_text());

@@ -57,6 +57,12 @@ pub enum CliError {
     /// `--budget` is not a positive number.
     #[error("--budget must be a positive number")]
     Budget,
+    /// The field flow tests have errors, listed in `diagnostics`.
+    #[error("the flow tests have errors; nothing was analysed")]
+    FlowTests { diagnostics: Diagnostics },
+    /// The `--calibrate-by` column cannot group the pipes; `diagnostics` say why.
+    #[error("--calibrate-by: the pipes cannot be grouped; nothing was analysed")]
+    CalibrationGroups { diagnostics: Diagnostics },
 
     // Analysis errors (exit status 3).
     /// The network's hydraulics could not be set up.
@@ -71,6 +77,9 @@ pub enum CliError {
     /// The upsizing search failed.
     #[error(transparent)]
     Upsize(#[from] UpsizeError),
+    /// A field flow test could not be simulated, or the calibration failed.
+    #[error(transparent)]
+    FlowTest(#[from] crate::flowtest::compare::FlowTestError),
     /// An output file could not be written.
     #[error(transparent)]
     Report(#[from] ReportError),
@@ -97,11 +106,14 @@ impl CliError {
             | CliError::Sizes { .. }
             | CliError::CostTable { .. }
             | CliError::UnpricedSizes { .. }
-            | CliError::Budget => ExitStatus::InputError,
+            | CliError::Budget
+            | CliError::FlowTests { .. }
+            | CliError::CalibrationGroups { .. } => ExitStatus::InputError,
             CliError::Hydraulics(_)
             | CliError::Solve { .. }
             | CliError::Threads(_)
             | CliError::Upsize(_)
+            | CliError::FlowTest(_)
             | CliError::Report(_) => ExitStatus::AnalysisError,
         }
     }
@@ -111,13 +123,18 @@ impl CliError {
     /// `validate` has listed the network's on standard output.
     pub fn stderr_text(&self) -> String {
         match self {
-            CliError::Network { diagnostics, .. } | CliError::Criteria { diagnostics } => {
+            CliError::Network { diagnostics, .. }
+            | CliError::Criteria { diagnostics }
+            | CliError::FlowTests { diagnostics } => {
                 format!(
                     "{}firemain: {self}\n",
                     report::validate::diagnostics(diagnostics)
                 )
             }
-            CliError::CostTable { diagnostics, .. } => report::validate::diagnostics(diagnostics),
+            CliError::CostTable { diagnostics, .. }
+            | CliError::CalibrationGroups { diagnostics } => {
+                report::validate::diagnostics(diagnostics)
+            }
             CliError::NetworkListed { .. } => String::new(),
             _ => format!("firemain: {self}\n"),
         }

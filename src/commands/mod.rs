@@ -10,6 +10,7 @@ use firemain::model::{load_network, Loaded, Network};
 use firemain::report::{self, OutputSet};
 
 pub mod check;
+pub mod flowtest;
 pub mod solve;
 pub mod upsize;
 pub mod validate;

@@ -2,6 +2,7 @@
 
 pub mod costs;
 pub mod diagnostic;
+pub mod flowtests;
 pub mod limits;
 pub mod load;
 pub mod network;

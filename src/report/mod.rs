@@ -6,6 +6,7 @@
 //! last.
 
 pub mod check;
+pub mod flowtest;
 pub mod set;
 pub mod solve;
 pub mod table;
