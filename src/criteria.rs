@@ -23,6 +23,7 @@ struct CriteriaFile {
     service: ServiceTable,
     fire: FireTable,
     upsizing: Option<UpsizingTable>,
+    calibration: Option<CalibrationTable>,
 }
 
 #[derive(Deserialize)]
@@ -45,6 +46,13 @@ struct FireTable {
     default_required_flow: Option<Spanned<f64>>,
     #[serde(default)]
     required_flow: BTreeMap<String, Spanned<f64>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct CalibrationTable {
+    roughness_min: Spanned<f64>,
+    roughness_max: Spanned<f64>,
 }
 
 #[derive(Deserialize)]
@@ -91,6 +99,9 @@ pub struct Criteria {
     pub new_pipe_roughness: Option<f64>,
     /// Smallest main that should serve a hydrant, m.
     pub min_main_diameter_m: Option<f64>,
+    /// Bounds of a fitted roughness (`firemain flowtest --calibrate-by`): Hazen-Williams C, or
+    /// Darcy-Weisbach roughness in m; `None` for the plausible defaults.
+    pub calibration_bounds: Option<(f64, f64)>,
     /// The file name shown in messages.
     pub file: String,
     /// Warnings about applying the set to the network (e.g. hydrant classes it does not list).
@@ -336,6 +347,37 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         None => (None, None),
     };
 
+    let calibration_bounds = c.calibration.as_ref().map(|t| {
+        // Hazen-Williams C has no unit; a Darcy-Weisbach roughness is a length in the
+        // diameter unit (mm or in), as in pipes.csv.
+        let read = |v: &Spanned<f64>, what: &str, diags: &mut Diagnostics| match net.headloss {
+            crate::model::HeadlossFormula::DarcyWeisbach => {
+                positive(v, what, Quantity::Diameter, diags)
+            }
+            crate::model::HeadlossFormula::HazenWilliams => {
+                let x = *v.get_ref();
+                if !(x.is_finite() && limits::C_FACTOR.holds(x)) {
+                    diags.error(
+                        at(v.span()),
+                        limits::C_FACTOR.message(what, x, units),
+                        "give a Hazen-Williams C (e.g. 40 and 160)",
+                    );
+                }
+                x
+            }
+        };
+        let lo = read(&t.roughness_min, "[calibration] roughness_min", &mut diags);
+        let hi = read(&t.roughness_max, "[calibration] roughness_max", &mut diags);
+        if lo.partial_cmp(&hi) != Some(std::cmp::Ordering::Less) {
+            diags.error(
+                at(t.roughness_max.span()),
+                "[calibration] roughness_max must be above roughness_min",
+                "give the lowest and the highest roughness a fit may reach",
+            );
+        }
+        (lo, hi)
+    });
+
     check_required_above_cap(&c.fire, units, search_cap_m3s, &at, &mut warnings);
     let classes: Vec<&str> = c.fire.required_flow.keys().map(String::as_str).collect();
     let resolution = ClassCheck {
@@ -365,6 +407,7 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         required_flow_by_class,
         new_pipe_roughness,
         min_main_diameter_m,
+        calibration_bounds,
         file,
         warnings,
     })

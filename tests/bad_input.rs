@@ -1863,3 +1863,27 @@ fn lenient_csv_loads_and_solves_like_the_plain_file() {
     let checked = firemain(&args);
     checked.assert_code(0);
 }
+
+#[test]
+fn criteria_calibration_bounds_must_be_ordered_and_plausible() {
+    // `[calibration]` bounds of a fitted Hazen-Williams C: within the C factors of any pipe
+    // (docs/network-format.md limits) and the lower below the upper (the format's rule).
+    let cases = [
+        (
+            "[calibration]\nroughness_min = 160\nroughness_max = 40\n",
+            "14:17",
+            "[calibration] roughness_max must be above roughness_min",
+        ),
+        (
+            "[calibration]\nroughness_min = 0.5\nroughness_max = 140\n",
+            "13:17",
+            "[calibration] roughness_min",
+        ),
+    ];
+    for (table, at, says) in cases {
+        let net = Net::us();
+        let path = net.write_criteria("c.toml", format!("{CRITERIA_US}{table}"));
+        let at = format!("{}:{at}", path.display());
+        assert_criteria_refused(&net, &path, &[(&at, says)]);
+    }
+}

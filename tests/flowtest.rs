@@ -607,3 +607,46 @@ fn si_network_reads_kpa_and_mm_and_writes_its_units() {
     let q: f64 = row.split(',').nth(5).unwrap().parse().unwrap();
     assert!((q - 52.52).abs() < 0.01, "{row}");
 }
+
+#[test]
+fn check_with_tests_states_the_field_comparison_in_its_reports() {
+    // `check --tests`: report.md's facts and report.json say how the model compares with the
+    // field. With one test the RMS misfit is that test's own misfit (a definition; common
+    // practice, no source), and flowtest reports the same test's modelled and measured
+    // residual pressures.
+    let dir = tempfile::tempdir().unwrap();
+    let net = dir.path().join("net");
+    std::fs::create_dir(&net).unwrap();
+    network(&net);
+    let tests = dir.path().join("flowtests.csv");
+    std::fs::write(
+        &tests,
+        format!("{HEADER}B,2026-05-01,H2,68,50,H3,,,,800,1.2,meter\n"),
+    )
+    .unwrap();
+    let criteria = Path::new(env!("CARGO_MANIFEST_DIR")).join("criteria/common-practice-us.toml");
+    let out = dir.path().join("out");
+    let run = firemain(&[
+        "check".as_ref(),
+        net.as_os_str(),
+        "--criteria".as_ref(),
+        criteria.as_os_str(),
+        "--tests".as_ref(),
+        tests.as_os_str(),
+        "--quiet".as_ref(),
+        "--out".as_ref(),
+        out.as_os_str(),
+    ]);
+    let err = String::from_utf8_lossy(&run.stderr);
+    assert!(matches!(run.status.code(), Some(0) | Some(1)), "{err}");
+    let json: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("report.json")).unwrap()).unwrap();
+    let field = &json["field_tests"];
+    assert_eq!(field["tests"], 1);
+    assert_eq!(field["worst_test"], "B");
+    let rms = field["rms_residual_misfit"].as_f64().unwrap();
+    let worst = field["worst_residual_misfit"].as_f64().unwrap();
+    assert!((rms - worst.abs()).abs() < 1e-3, "{field}");
+    let md = std::fs::read_to_string(out.join("report.md")).unwrap();
+    assert!(md.contains("| Field flow tests | 1 test(s) from "), "{md}");
+}

@@ -10,7 +10,7 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use firemain::cli::{available_cores, check_threads, select_hydrants, CliError};
 use firemain::fireflow::{sweep, FireFlowSetup, SweepStats};
 use firemain::hydraulics::Hydraulics;
-use firemain::report::{self, check::CheckReport};
+use firemain::report::{self, check::CheckReport, check::FieldTestSummary};
 use firemain::service::service_check;
 use firemain::weakmains::weak_mains;
 
@@ -43,6 +43,10 @@ pub struct CheckArgs {
     /// Print the work done by the sweep (solves, factorizations, wall time).
     #[arg(long)]
     stats: bool,
+    /// Field flow tests (flowtests.csv, see `firemain flowtest`): the report states how the
+    /// model compares with them.
+    #[arg(long, value_name = "FILE")]
+    tests: Option<PathBuf>,
 }
 
 pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
@@ -51,6 +55,10 @@ pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
     let loaded = load(&args.network)?;
     let net = &loaded.network;
     let criteria = criteria_for(&args.criteria, net)?;
+    let field_tests = match &args.tests {
+        Some(path) => Some(field_test_summary(path, net, &criteria)?),
+        None => None,
+    };
     let selected = select_hydrants(net, &args.hydrants)?;
     let partial = !selected.is_empty();
     let indices = if partial {
@@ -80,6 +88,7 @@ pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
         input_warnings: &warnings,
         partial,
         weak_mains: &weak,
+        field_tests: field_tests.as_ref(),
     };
     emit(report.summary());
     emit(report.terminal_table());
@@ -92,6 +101,34 @@ pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
         write_set(out, &args.network, set, args.quiet)?;
     }
     Ok(Outcome::from_findings(report.has_findings()))
+}
+
+/// The model against the field flow tests in `path`, at the criteria's floor.
+fn field_test_summary(
+    path: &std::path::Path,
+    net: &firemain::model::Network,
+    criteria: &firemain::criteria::Criteria,
+) -> Result<FieldTestSummary, CliError> {
+    let tests = firemain::model::flowtests::load_flowtests(path, net)
+        .map_err(|diagnostics| CliError::FlowTests { diagnostics })?;
+    if !tests.diagnostics.is_empty() {
+        eprint!(
+            "{}",
+            report::validate::diagnostics_brief(&tests.diagnostics)
+        );
+    }
+    let list = &tests.tests.tests;
+    let comparison = firemain::flowtest::compare::compare(net, list, criteria.residual_floor_kpa)?;
+    let worst = comparison
+        .worst(list)
+        .map(|w| (list[w.test].id.clone(), w.residual_diff_kpa(&list[w.test])));
+    Ok(FieldTestSummary {
+        file: path.display().to_string(),
+        tests: list.len(),
+        rms_static_kpa: comparison.rms_static_kpa,
+        rms_residual_kpa: comparison.rms_residual_kpa,
+        worst,
+    })
 }
 
 /// The `--stats` line.

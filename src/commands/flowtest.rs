@@ -48,13 +48,15 @@ pub fn run(args: &FlowtestArgs) -> Result<Outcome, CliError> {
     if !tests.diagnostics.is_empty() {
         eprint!("{}", diagnostics_brief(&tests.diagnostics));
     }
-    let (floor, criteria_name) = match &args.criteria {
-        Some(path) => (
-            criteria_for(path, net)?.residual_floor_kpa,
-            Some(path.display().to_string()),
-        ),
-        None => (DEFAULT_FLOOR_KPA, None),
+    let criteria = match &args.criteria {
+        Some(path) => Some(criteria_for(path, net)?),
+        None => None,
     };
+    let floor = criteria
+        .as_ref()
+        .map_or(DEFAULT_FLOOR_KPA, |c| c.residual_floor_kpa);
+    let bounds = criteria.as_ref().and_then(|c| c.calibration_bounds);
+    let criteria_name = args.criteria.as_ref().map(|p| p.display().to_string());
     let groups = match &args.calibrate_by {
         Some(column) => Some(groups_by_label(
             &pipe_labels(&args.network, column, net)
@@ -71,7 +73,7 @@ pub fn run(args: &FlowtestArgs) -> Result<Outcome, CliError> {
                 .iter()
                 .map(|r| r.reduced.outlet_flows_m3s.clone())
                 .collect();
-            Some(calibrate(net, list, &flows, groups, None)?)
+            Some(calibrate(net, list, &flows, groups, bounds)?)
         }
         None => None,
     };

@@ -97,6 +97,7 @@ pub fn run(args: &UpsizeArgs) -> Result<Outcome, CliError> {
         input_warnings: &warnings,
         partial: config.hydrants.is_some(),
         weak_mains: &proposed.weak_mains,
+        field_tests: None,
     };
     let report = UpsizeReport {
         network: net,

@@ -75,6 +75,7 @@ impl CheckReport<'_> {
                     net.headloss.name()
                 ),
             ),
+            ("Field flow tests", self.field_tests_line()),
             ("Date", self.generated.clone()),
             ("Run id", self.run_id.clone()),
             ("Produced by", format!("firemain {}", self.version)),
@@ -82,6 +83,35 @@ impl CheckReport<'_> {
         Section::untitled().table(
             Table::untitled().with_rows(rows.into_iter().map(|(k, v)| vec![k.to_string(), v])),
         )
+    }
+
+    /// The model against the field, in the network's units; says so when nothing checked it.
+    fn field_tests_line(&self) -> String {
+        let o = self.out();
+        let p = o.sym(Quantity::Pressure);
+        match self.field_tests {
+            None => "none given (`--tests`): the model's roughness, valve positions and source levels are unchecked against the field".to_string(),
+            Some(f) => {
+                let worst = f
+                    .worst
+                    .as_ref()
+                    .map(|(id, d)| {
+                        let sign = if *d > 0.0 { "+" } else { "" };
+                        format!(
+                            "; worst {id}, residual {sign}{} {p} (model minus field)",
+                            num(o.pressure(*d), 1)
+                        )
+                    })
+                    .unwrap_or_default();
+                format!(
+                    "{} test(s) from {}: RMS misfit {} {p} residual, {} {p} static{worst}",
+                    f.tests,
+                    f.file,
+                    num(o.pressure(f.rms_residual_kpa), 1),
+                    num(o.pressure(f.rms_static_kpa), 1),
+                )
+            }
+        }
     }
 
     fn summary_section(&self) -> Section {

@@ -57,6 +57,14 @@ impl CheckReport<'_> {
                 partial: self.partial,
             },
             input_warnings: self.input_warnings.iter().map(Into::into).collect(),
+            field_tests: self.field_tests.map(|f| JsonFieldTests {
+                file: f.file.clone(),
+                tests: f.tests,
+                rms_static_misfit: round(o.pressure(f.rms_static_kpa), 4),
+                rms_residual_misfit: round(o.pressure(f.rms_residual_kpa), 4),
+                worst_test: f.worst.as_ref().map(|(id, _)| id.clone()),
+                worst_residual_misfit: f.worst.as_ref().map(|(_, d)| round(o.pressure(*d), 4)),
+            }),
             hydrants: self
                 .results
                 .iter()
@@ -155,6 +163,8 @@ struct JsonReport {
     demand_factors: JsonDemand,
     summary: JsonSummary,
     input_warnings: Vec<JsonInputWarning>,
+    /// The model against field flow tests (`check --tests`); `null` when none were given.
+    field_tests: Option<JsonFieldTests>,
     hydrants: Vec<JsonHydrant>,
     service: Vec<JsonService>,
     weak_mains: Vec<JsonWeakMain>,
@@ -162,6 +172,17 @@ struct JsonReport {
     /// Work counters; `null` unless --stats (they are not part of the result).
     sweep: Option<JsonStats>,
     cautions: Vec<&'static str>,
+}
+
+/// Pressures in the report's pressure unit, modelled minus measured.
+#[derive(Serialize)]
+struct JsonFieldTests {
+    file: String,
+    tests: usize,
+    rms_static_misfit: f64,
+    rms_residual_misfit: f64,
+    worst_test: Option<String>,
+    worst_residual_misfit: Option<f64>,
 }
 
 #[derive(Serialize)]

@@ -41,6 +41,22 @@ pub struct CheckReport<'a> {
     pub partial: bool,
     /// Mains that limit failing hydrants, ranked.
     pub weak_mains: &'a [WeakMain],
+    /// How the model compares with field flow tests (`--tests`), when given.
+    pub field_tests: Option<&'a FieldTestSummary>,
+}
+
+/// How the model compares with the field flow tests given to `check --tests` (SI): the line of
+/// the report's facts that makes a fire-flow table defensible.
+#[derive(Clone, Debug)]
+pub struct FieldTestSummary {
+    /// The tests file, as given.
+    pub file: String,
+    pub tests: usize,
+    /// RMS of modelled minus measured pressures over the tests, kPa.
+    pub rms_static_kpa: f64,
+    pub rms_residual_kpa: f64,
+    /// The test with the largest residual misfit: its id and modelled minus measured, kPa.
+    pub worst: Option<(String, f64)>,
 }
 
 /// Weak mains shown on the terminal and in report.md.
