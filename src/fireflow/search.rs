@@ -374,22 +374,47 @@ impl Search<'_, '_> {
             // The required-flow factorization is far from the cap's state: start afresh.
             self.ws.forget_factor();
             let start = predicted(cap);
-            match self.verify_cap(&start) {
-                Ok(c) if c.passes => {
-                    b.lo = c;
-                    return Some(LimitedBy::Cap);
-                }
-                Ok(c) => b.lower_hi(Above::Failing(c)),
-                Err(e) => b.lower_hi(self.unsolved(cap, &e)),
+            let verdict = self.verify_cap(&start);
+            if let Some(found) = self.accept_cap(b, verdict) {
+                return Some(found);
             }
         }
         let start = predicted(estimate.as_ref().map_or(0.0, |e| e.flow.min(cap)));
-        let (q_held, held) = match self.held_solve(&start) {
-            Ok(h) => h,
-            Err(ProbeError::Unsettled(_)) => return None,
-            // The held state could not be solved: the ordinary search takes over.
-            Err(ProbeError::Solve(_)) => return None,
-        };
+        // A held state that cannot be solved leaves the ordinary search to take over.
+        let (q_held, held) = self.held_solve(&start).ok()?;
+        self.settle_held(b, at_required, q_held, held)
+    }
+
+    /// The verdict of a solve at the cap: a passing one is the answer (`cap`), a failing or
+    /// unsolvable one the bracket's new upper end.
+    fn accept_cap(&self, b: &mut Bracket, verdict: Result<Point, ProbeError>) -> Option<LimitedBy> {
+        match verdict {
+            Ok(c) if c.passes => {
+                b.lo = c;
+                Some(LimitedBy::Cap)
+            }
+            Ok(c) => {
+                b.lower_hi(Above::Failing(c));
+                None
+            }
+            Err(e) => {
+                b.lower_hi(self.unsolved(self.cap, &e));
+                None
+            }
+        }
+    }
+
+    /// What the flow `q_held` placed by the held solve `held` means: round-off below a verified
+    /// flow, the cap, a failure of another constraint, or a hydrant-limited flow that an
+    /// ordinary solve just below it verifies.
+    fn settle_held(
+        &mut self,
+        b: &mut Bracket,
+        at_required: Option<&Point>,
+        q_held: f64,
+        held: Point,
+    ) -> Option<LimitedBy> {
+        let cap = self.cap;
         if q_held <= b.lo.q {
             // Already at the hydrant's floor at a verified passing flow: only round-off.
             return Some(LimitedBy::HydrantPressure);
@@ -402,14 +427,8 @@ impl Search<'_, '_> {
                     Some(r) if r.q < q_held => predict(r, &held, cap),
                     _ => held.sol.clone(),
                 };
-                match self.probe(cap, &start) {
-                    Ok(c) if c.passes => {
-                        b.lo = c;
-                        return Some(LimitedBy::Cap);
-                    }
-                    Ok(c) => b.lower_hi(Above::Failing(c)),
-                    Err(e) => b.lower_hi(self.unsolved(cap, &e)),
-                }
+                let verdict = self.probe(cap, &start);
+                return self.accept_cap(b, verdict);
             }
             return None;
         }
