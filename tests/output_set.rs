@@ -45,8 +45,13 @@ fn firemain(args: &[&std::ffi::OsStr]) -> Output {
 }
 
 fn check(net: &Path, out: &Path) -> Output {
+    analyse("check", net, out)
+}
+
+/// `firemain COMMAND NET --criteria … --out OUT --quiet` (check or upsize).
+fn analyse(command: &str, net: &Path, out: &Path) -> Output {
     firemain(&[
-        "check".as_ref(),
+        command.as_ref(),
         net.as_os_str(),
         "--criteria".as_ref(),
         criteria().as_os_str(),
@@ -114,15 +119,7 @@ fn input_warnings_reach_report_md_and_report_json() {
 fn upsize_report_lists_input_warnings() {
     let (root, net) = warned_network();
     let out = root.path().join("out");
-    let run = firemain(&[
-        "upsize".as_ref(),
-        net.as_os_str(),
-        "--criteria".as_ref(),
-        criteria().as_os_str(),
-        "--out".as_ref(),
-        out.as_os_str(),
-        "--quiet".as_ref(),
-    ]);
+    let run = analyse("upsize", &net, &out);
     assert!(run.status.code().is_some_and(|c| c <= 1), "{run:?}");
     let md = std::fs::read_to_string(out.join("upsize_report.md")).expect("upsize_report.md");
     assert!(md.contains("## Input warnings"), "{md}");

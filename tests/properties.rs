@@ -14,7 +14,6 @@ use firemain::model::Network;
 use firemain::upsizing::{apply, plan_upsizing, CostModel, UpsizeConfig, DEFAULT_SIZES_MM};
 use netkit::{criteria, fire_sweep, junction_imbalances, solve, NetFiles, KPA_PER_M};
 use proptest::prelude::*;
-use proptest::test_runner::RngSeed;
 
 /// Residual floor, kPa: 20 psi, which NFPA 291 (Recommended Practice for Water Flow Testing
 /// and Marking of Hydrants, §4.2.1) also quotes as 1.4 bar.
@@ -226,21 +225,9 @@ fn sweep_network(net: &Network, threads: usize) -> Vec<HydrantResult> {
     fire_sweep(net, &c, threads)
 }
 
-/// 16 cases from a fixed seed, unless `PROPTEST_CASES` / `PROPTEST_RNG_SEED` say otherwise.
+/// 16 cases from a fixed seed (see `netkit::seeded_config`).
 fn config() -> ProptestConfig {
-    let from_env = ProptestConfig::default();
-    ProptestConfig {
-        cases: if std::env::var_os("PROPTEST_CASES").is_some() {
-            from_env.cases
-        } else {
-            16
-        },
-        rng_seed: match from_env.rng_seed {
-            RngSeed::Random => RngSeed::Fixed(0x6669_7265),
-            fixed => fixed,
-        },
-        ..from_env
-    }
+    netkit::seeded_config(16, 0x6669_7265)
 }
 
 proptest! {

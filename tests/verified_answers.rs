@@ -19,7 +19,6 @@ use firemain::model::{load_network, Network};
 use firemain::units::UnitSystem;
 use netkit::{hw_resistance, NetFiles, KPA_PER_M, KPA_PER_PSI, M3S_PER_GPM, M_PER_FT, M_PER_IN};
 use proptest::prelude::*;
-use proptest::test_runner::RngSeed;
 
 fn repo(relative: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join(relative)
@@ -653,21 +652,11 @@ fn random_disagreement(setup: &FireFlowSetup<'_>, res: &HydrantResult) -> Option
     None
 }
 
-/// 10 cases from a fixed seed, unless `PROPTEST_CASES` / `PROPTEST_RNG_SEED` say otherwise.
+/// 10 cases from a fixed seed (see `netkit::seeded_config`), without a failure file.
 fn config() -> ProptestConfig {
-    let from_env = ProptestConfig::default();
     ProptestConfig {
-        cases: if std::env::var_os("PROPTEST_CASES").is_some() {
-            from_env.cases
-        } else {
-            10
-        },
-        rng_seed: match from_env.rng_seed {
-            RngSeed::Random => RngSeed::Fixed(0x7665_7269),
-            fixed => fixed,
-        },
         failure_persistence: None,
-        ..from_env
+        ..netkit::seeded_config(10, 0x7665_7269)
     }
 }
 

@@ -387,3 +387,23 @@ pub fn bisect(mut lo: f64, mut hi: f64, f: impl Fn(f64) -> f64) -> f64 {
 pub fn hw_flow(r: f64, dh: f64) -> f64 {
     dh.signum() * (dh.abs() / r).powf(1.0 / 1.852)
 }
+
+/// A proptest configuration of `cases` cases from the fixed `seed`, unless `PROPTEST_CASES` /
+/// `PROPTEST_RNG_SEED` say otherwise: the suite stays fast and repeatable, and a longer or
+/// other run is one environment variable away.
+pub fn seeded_config(cases: u32, seed: u64) -> proptest::test_runner::Config {
+    use proptest::test_runner::{Config, RngSeed};
+    let from_env = Config::default();
+    Config {
+        cases: if std::env::var_os("PROPTEST_CASES").is_some() {
+            from_env.cases
+        } else {
+            cases
+        },
+        rng_seed: match from_env.rng_seed {
+            RngSeed::Random => RngSeed::Fixed(seed),
+            fixed => fixed,
+        },
+        ..from_env
+    }
+}
