@@ -35,6 +35,9 @@ pub enum CliError {
     /// The criteria have errors, listed in `diagnostics`.
     #[error("the criteria have errors; nothing was analysed")]
     Criteria { diagnostics: Diagnostics },
+    /// The project file has errors, listed in `diagnostics`.
+    #[error("the project file has errors; nothing was analysed")]
+    Project { diagnostics: Diagnostics },
     /// `--hydrant` names no hydrant.
     #[error("--hydrant {id}: no hydrant with this id in hydrants.csv (ids are compared exactly)")]
     UnknownHydrant { id: String },
@@ -102,6 +105,7 @@ impl CliError {
             | CliError::Network { .. }
             | CliError::NetworkListed { .. }
             | CliError::Criteria { .. }
+            | CliError::Project { .. }
             | CliError::UnknownHydrant { .. }
             | CliError::Sizes { .. }
             | CliError::CostTable { .. }
@@ -125,6 +129,7 @@ impl CliError {
         match self {
             CliError::Network { diagnostics, .. }
             | CliError::Criteria { diagnostics }
+            | CliError::Project { diagnostics }
             | CliError::FlowTests { diagnostics } => {
                 format!(
                     "{}firemain: {self}\n",

@@ -10,6 +10,7 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use firemain::cli::{available_cores, check_threads, select_hydrants, CliError};
 use firemain::fireflow::{sweep, FireFlowSetup, SweepStats};
 use firemain::hydraulics::Hydraulics;
+use firemain::model::project::load_project;
 use firemain::report::{self, check::CheckReport, check::FieldTestSummary};
 use firemain::service::service_check;
 use firemain::weakmains::weak_mains;
@@ -27,7 +28,8 @@ pub struct CheckArgs {
     /// Criteria set (TOML), e.g. criteria/common-practice-us.toml.
     #[arg(long)]
     criteria: PathBuf,
-    /// Also write fireflow.csv, service.csv, weak_mains.csv, report.md and report.json here
+    /// Also write fireflow.csv, service.csv, weak_mains.csv, report.md, report.html and
+    /// report.json here
     /// (with their manifest, manifest-check.toml).
     #[arg(long)]
     out: Option<PathBuf>,
@@ -47,11 +49,21 @@ pub struct CheckArgs {
     /// model compares with them.
     #[arg(long, value_name = "FILE")]
     tests: Option<PathBuf>,
+    /// Project file (project.toml, see docs/project-format.md): the title block of report.md and
+    /// report.html (project, site, applicant, reference, prepared and checked by, revision).
+    #[arg(long, value_name = "FILE")]
+    project: Option<PathBuf>,
 }
 
 pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
     let threads = check_threads(args.threads, available_cores())?;
     check_output_folder(args.out.as_deref(), &args.network)?;
+    let project = match &args.project {
+        Some(path) => {
+            Some(load_project(path).map_err(|diagnostics| CliError::Project { diagnostics })?)
+        }
+        None => None,
+    };
     let loaded = load(&args.network)?;
     let net = &loaded.network;
     let criteria = criteria_for(&args.criteria, net)?;
@@ -89,6 +101,7 @@ pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
         partial,
         weak_mains: &weak,
         field_tests: field_tests.as_ref(),
+        project: project.as_ref(),
     };
     emit(report.summary());
     emit(report.terminal_table());

@@ -98,6 +98,7 @@ pub fn run(args: &UpsizeArgs) -> Result<Outcome, CliError> {
         partial: config.hydrants.is_some(),
         weak_mains: &proposed.weak_mains,
         field_tests: None,
+        project: None,
     };
     let report = UpsizeReport {
         network: net,

@@ -9,6 +9,7 @@
 //! - available flow: the largest Q in [0, cap] such that every flow in [0, Q] meets the
 //!   constraints (the first crossing, the safe reading for a fire flow that ramps up).
 
+pub mod rating;
 mod search;
 pub mod supply_paths;
 mod sweep;

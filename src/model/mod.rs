@@ -6,6 +6,7 @@ pub mod flowtests;
 pub mod limits;
 pub mod load;
 pub mod network;
+pub mod project;
 pub mod table;
 pub mod toml_input;
 pub mod validate;

@@ -7,6 +7,7 @@
 
 pub mod check;
 pub mod flowtest;
+pub mod html;
 pub mod set;
 pub mod solve;
 pub mod table;

@@ -17,12 +17,13 @@ impl CheckReport<'_> {
 
     /// The report's sections, in order: the one place that order is declared.
     pub fn document(&self) -> Document {
-        let mut sections = vec![
+        let mut sections: Vec<Section> = self.title_block_section().into_iter().collect();
+        sections.extend([
             self.facts_section(),
             self.summary_section(),
             input_warnings_section(self.input_warnings),
             self.compliance_section(),
-        ];
+        ]);
         sections.extend(self.weak_mains_section());
         sections.push(self.service_section());
         sections.push(Section::titled("Cautions").list(CAUTIONS.iter().map(|&c| c.into())));
@@ -31,6 +32,18 @@ impl CheckReport<'_> {
             title: format!("Fire-flow screening report: {}", self.network.name),
             sections,
         }
+    }
+
+    /// The title block of a permit package (`--project`): who, where, what reference, prepared
+    /// and checked by whom, which revision; its free notes below it.
+    fn title_block_section(&self) -> Option<Section> {
+        let p = self.project?;
+        let rows = p.rows().into_iter().map(|(k, v)| vec![k.to_string(), v]);
+        let mut section = Section::titled("Project").table(Table::untitled().with_rows(rows));
+        if !p.notes.is_empty() {
+            section = section.list(p.notes.iter().map(|n| Text::from(n.as_str())));
+        }
+        Some(section)
     }
 
     /// The untitled table of what was analysed, under what assumptions, when and by what.

@@ -9,16 +9,18 @@
 
 mod csv;
 mod document;
+mod html;
 mod json;
 mod terminal;
 
 pub use json::JSON_SCHEMA_VERSION;
 
-use super::table::Table;
+use super::table::{Align, Table};
 use super::{num, words, Out, OutputFile, OutputSet, ReportError};
 use crate::criteria::{Criteria, Scope};
 use crate::fireflow::{HydrantNote, HydrantResult, Outcome, SweepStats};
 use crate::hydraulics::LinkState;
+use crate::model::project::Project;
 use crate::model::{Diagnostic, LinkKind, Network};
 use crate::service::{ServiceReport, ServiceResult};
 use crate::units::Quantity;
@@ -43,6 +45,8 @@ pub struct CheckReport<'a> {
     pub weak_mains: &'a [WeakMain],
     /// How the model compares with field flow tests (`--tests`), when given.
     pub field_tests: Option<&'a FieldTestSummary>,
+    /// The title block (`--project`), when given.
+    pub project: Option<&'a Project>,
 }
 
 /// How the model compares with the field flow tests given to `check --tests` (SI): the line of
@@ -292,7 +296,19 @@ impl CheckReport<'_> {
 
     /// The compliance table of `results`, in the order given (terminal and report.md).
     fn compliance_table<'r>(&self, results: impl IntoIterator<Item = &'r HydrantResult>) -> Table {
-        Table::new(self.table_header()).with_rows(results.into_iter().map(|r| self.table_row(r)))
+        let mut table = Table::new(self.table_header())
+            .with_rows(results.into_iter().map(|r| self.table_row(r)));
+        // Flows and pressures (required to residual) read right-aligned.
+        table.align = (0..12)
+            .map(|c| {
+                if (4..=8).contains(&c) {
+                    Align::Right
+                } else {
+                    Align::Left
+                }
+            })
+            .collect();
+        table
     }
 
     fn service_note(&self, r: &crate::service::ServiceRow) -> String {
@@ -446,6 +462,10 @@ impl CheckReport<'_> {
             OutputFile {
                 name: "report.md".into(),
                 bytes: self.markdown().into_bytes(),
+            },
+            OutputFile {
+                name: "report.html".into(),
+                bytes: self.html().into_bytes(),
             },
             OutputFile {
                 name: "report.json".into(),
