@@ -202,8 +202,12 @@ fn demo_town_curves_hold_the_verified_answers_and_ignore_thread_count() {
     // holds its required and available flows; results do not depend on the thread count.
     let (net, criteria) = demo_town();
     let floor = criteria.residual_floor_kpa;
-    let (results, one) = sweep_and_curves(&net, &criteria, 1);
-    let (_, two) = sweep_and_curves(&net, &criteria, 2);
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let setup = FireFlowSetup::new(&hydraulics, &criteria).expect("max-day solve");
+    let all: Vec<usize> = (0..net.hydrants.len()).collect();
+    let results = sweep(&setup, &all, Some(2), &|_| {}).expect("sweep").0;
+    let one = supply_curves(&setup, &all, &results, POINTS, 1).expect("curves");
+    let two = supply_curves(&setup, &all, &results, POINTS, 2).expect("curves");
     assert_eq!(one, two, "1 and 2 threads");
     assert_eq!(one.len(), results.len());
     for (r, c) in results.iter().zip(&one) {
@@ -233,5 +237,93 @@ fn demo_town_curves_hold_the_verified_answers_and_ignore_thread_count() {
                 p.lowest_kpa
             );
         }
+    }
+}
+
+#[test]
+fn behind_a_pressure_reducing_valve_the_curve_is_flat_then_follows_the_main() {
+    // Sources: a PRV holds its downstream junction at its setting while the upstream grade
+    // allows, and is wide open below that (the regulating valve's rule, docs/fire-flow-method.md
+    // §1 Controls; common practice, no source); wide open with no loss coefficient it passes
+    // the upstream head, which is the Hazen-Williams closed form of `closed_form_kpa` (Williams
+    // & Hazen 1920) with the upstream junction's max-day demand on the main. 1 psi =
+    // 6.894757 kPa (NFPA 24 (2019) Annex D, Table D.1.4).
+    let setting_psi = 40.0;
+    let demand_gpm = 10.0;
+    let mut f = NetFiles::us_hw();
+    f.max_day(MAX_DAY)
+        .reservoir("R", GRADE_FT)
+        .junction("J", Z_FT, demand_gpm)
+        .junction("H", Z_FT, 0.0)
+        .pipe("P", "R", "J", LENGTH_FT, D_IN, C)
+        .valve("V", "J", "H", "prv", D_IN, setting_psi, 0.0)
+        .hydrant("FH", "H", Some(REQUIRED_GPM));
+    let net = f.load();
+    let criteria = criteria(&net, FLOOR_PSI, 8000.0, 1000.0);
+    let (_, curves) = sweep_and_curves(&net, &criteria, 1);
+    let curve = &curves[0];
+    assert!(curve.unsolved.is_empty(), "{:?}", curve.unsolved);
+    let setting_kpa = setting_psi * KPA_PER_PSI;
+    let background = MAX_DAY * demand_gpm * M3S_PER_GPM;
+    let allowed_kpa = 1.1 * Tolerance::STEADY.head_m * KPA_PER_M;
+    let (mut flat, mut open) = (0, 0);
+    for p in &curve.points {
+        let upstream = closed_form_kpa(p.flow_m3s, background);
+        // Within 0.1 kPa of the switch either reading is a steady state of the rule.
+        if (upstream - setting_kpa).abs() < 0.1 {
+            continue;
+        }
+        let expected = if upstream > setting_kpa {
+            flat += 1;
+            setting_kpa
+        } else {
+            open += 1;
+            upstream
+        };
+        assert!(
+            (p.hydrant_kpa - expected).abs() <= allowed_kpa,
+            "{:.3} gpm: {} kPa, expected {expected} kPa",
+            p.flow_m3s / M3S_PER_GPM,
+            p.hydrant_kpa
+        );
+    }
+    assert!(
+        flat >= 2 && open >= 2,
+        "both stretches drawn: {flat} flat, {open} open"
+    );
+}
+
+#[test]
+fn a_flow_that_cannot_reach_the_hydrant_is_listed_not_drawn() {
+    // Source: a check valve passes flow only from its `from` end (docs/network-format.md §8,
+    // pipes.csv `status = check`; common practice, no source): with the hydrant's only supply
+    // through one that points away from it, no fire flow can reach it, and the demand-driven
+    // solve has no solution; only the static point (no fire flow, no flow through the valve)
+    // is drawn.
+    let mut f = NetFiles::us_hw();
+    f.max_day(MAX_DAY)
+        .reservoir("R", GRADE_FT)
+        .junction("J", Z_FT, 10.0)
+        .junction("H", Z_FT, 0.0)
+        .pipe("P", "R", "J", LENGTH_FT, D_IN, C)
+        .check_pipe("CV", "H", "J", 100.0, D_IN, C)
+        .hydrant("FH", "H", Some(REQUIRED_GPM));
+    let net = f.load();
+    let criteria = criteria(&net, FLOOR_PSI, 8000.0, 1000.0);
+    let (results, curves) = sweep_and_curves(&net, &criteria, 1);
+    let curve = &curves[0];
+    let flows: Vec<f64> = curve.points.iter().map(|p| p.flow_m3s).collect();
+    assert_eq!(flows, vec![0.0]);
+    assert!(curve.unsolved.len() >= POINTS - 1, "{:?}", curve.unsolved);
+    assert!(curve
+        .unsolved
+        .iter()
+        .any(|(q, _)| *q == results[0].required_m3s));
+    for (q, reason) in &curve.unsolved {
+        assert!(*q > 0.0);
+        assert!(
+            reason.contains("cut off") && reason.contains("CV"),
+            "{reason}"
+        );
     }
 }

@@ -169,6 +169,12 @@ fn point_of(
     q: f64,
 ) -> Result<CurvePoint, String> {
     let net = setup.network();
+    if sol.isolated.contains(&at) {
+        // Cut off with no demand, which only a zero fire flow allows: its head means nothing.
+        return Err(
+            "the hydrant's junction is cut off from every source by closed elements".into(),
+        );
+    }
     let not_finite = || "the solution's pressures are not finite numbers".to_string();
     let hydrant_kpa = sol.pressure_kpa(net, at);
     let check = setup.constraints(sol, at);
