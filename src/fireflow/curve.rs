@@ -14,6 +14,7 @@ use super::search::{on_grid, solve_or_from_base, unsettled_reason};
 use super::sweep::SweepError;
 use super::{FireFlowSetup, HydrantResult};
 use crate::hydraulics::{Solution, SolveRequest, Tolerance, Workspace};
+use crate::units::UnitSystem;
 
 /// Exponent of the flow axis of hydraulic graph paper, N^1.85 (NFPA 291, *Recommended Practice
 /// for Water Flow Testing and Marking of Hydrants*, the supply graph of its flow-test chapter;
@@ -98,15 +99,31 @@ pub fn supply_curve(
     curve
 }
 
-/// The flows of a curve, m³/s, sorted and on the reporting grid: `points` flows spaced evenly
-/// in Q^1.85 from zero to `BEYOND_FACTOR` × max(available, required) (the required flow alone
-/// when there is no available flow), capped by `CAP_GUARD_FACTOR` × the search's cap, plus the
-/// required and available flows themselves.
+/// The flows of `result`'s curve (see [`flow_grid`]); the search's cap is the criteria's, or
+/// the required flow when that is larger, as in the search itself.
 fn curve_flows(setup: &FireFlowSetup<'_>, result: &HydrantResult, points: usize) -> Vec<f64> {
-    let units = setup.network().units;
     let required = result.required_m3s;
-    let available = result.available_m3s;
     let search_cap = setup.criteria.search_cap_m3s.max(required);
+    flow_grid(
+        required,
+        result.available_m3s,
+        search_cap,
+        points,
+        setup.network().units,
+    )
+}
+
+/// The flows of a curve, m³/s, sorted, distinct and on the reporting grid: `points` flows
+/// (at least 2) spaced evenly in Q^1.85 from zero to `BEYOND_FACTOR` × max(available,
+/// required) (the required flow alone when there is no available flow), capped by
+/// `CAP_GUARD_FACTOR` × `search_cap`, plus the required and available flows themselves.
+fn flow_grid(
+    required: f64,
+    available: Option<f64>,
+    search_cap: f64,
+    points: usize,
+    units: UnitSystem,
+) -> Vec<f64> {
     let top =
         (BEYOND_FACTOR * available.unwrap_or(0.0).max(required)).min(CAP_GUARD_FACTOR * search_cap);
     let mut flows = vec![0.0];
@@ -236,4 +253,81 @@ pub fn supply_curves(
             )
             .collect()
     }))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// L/s in m³/s (SI definition: 1 L = 1e-3 m³).
+    const LPS: f64 = 1.0e-3;
+
+    /// Source: the curve's definition (zero to 1.25 × the larger of available and required,
+    /// evenly spaced in Q^1.85: the flows (i/n)^(1/1.85) of the upper end); the check values
+    /// are computed here by that formula, with NFPA 291's N^1.85 chart exponent (from memory).
+    #[test]
+    fn flows_are_even_in_q_to_the_1_85_and_hold_required_and_available() {
+        let flows = flow_grid(
+            95.0 * LPS,
+            Some(120.0 * LPS),
+            500.0 * LPS,
+            5,
+            UnitSystem::Si,
+        );
+        let top = 150.0 * LPS;
+        let mut expected: Vec<f64> = (0..5)
+            .map(|i| top * (i as f64 / 4.0).powf(1.0 / 1.85))
+            .collect();
+        expected.extend([95.0 * LPS, 120.0 * LPS]);
+        expected.sort_by(f64::total_cmp);
+        assert_eq!(flows.len(), expected.len(), "{flows:?}");
+        for (got, want) in flows.iter().zip(&expected) {
+            // Rounded down onto the 0.0001 L/s reporting grid.
+            assert!(
+                got <= want && want - got < 1.0e-7 + 1e-15,
+                "{got} vs {want}"
+            );
+        }
+    }
+
+    /// Source: the curve's definition (common practice, no source): without an available flow
+    /// the curve runs to 1.25 × the required flow; with neither, only the static point is left;
+    /// fewer than two points still give zero and the upper end.
+    #[test]
+    fn degenerate_inputs_give_short_curves() {
+        let q = flow_grid(0.0, None, 500.0 * LPS, 12, UnitSystem::Si);
+        assert_eq!(q, vec![0.0]);
+        let q = flow_grid(100.0 * LPS, None, 500.0 * LPS, 0, UnitSystem::Si);
+        assert_eq!(q.len(), 3, "{q:?}");
+        assert!((q[2] - 125.0 * LPS).abs() < 1.0e-7);
+        // The same flow twice is drawn once.
+        let q = flow_grid(
+            100.0 * LPS,
+            Some(100.0 * LPS),
+            500.0 * LPS,
+            2,
+            UnitSystem::Si,
+        );
+        assert_eq!(q.len(), 3, "{q:?}");
+    }
+
+    /// Source: the guard's definition (common practice, no source): the upper end is at most
+    /// twice the search's cap, whatever the available flow handed in.
+    #[test]
+    fn the_upper_end_is_guarded_by_the_search_cap() {
+        let q = flow_grid(
+            50.0 * LPS,
+            Some(900.0 * LPS),
+            100.0 * LPS,
+            4,
+            UnitSystem::Si,
+        );
+        let above_guard: Vec<&f64> = q.iter().filter(|&&f| f > 200.0 * LPS).collect();
+        // Only the available flow itself (on the reporting grid), which is always drawn.
+        assert_eq!(
+            above_guard,
+            vec![&on_grid(900.0 * LPS, UnitSystem::Si)],
+            "{q:?}"
+        );
+    }
 }
