@@ -9,11 +9,13 @@
 //! - available flow: the largest Q in [0, cap] such that every flow in [0, Q] meets the
 //!   constraints (the first crossing, the safe reading for a fire flow that ramps up).
 
+mod curve;
 pub mod rating;
 mod search;
 pub mod supply_paths;
 mod sweep;
 
+pub use curve::{supply_curve, supply_curves, CurvePoint, SupplyCurve, CHART_FLOW_EXPONENT};
 pub use search::analyse_hydrant;
 pub use sweep::{sweep, SweepError, SweepStats};
 

@@ -28,6 +28,7 @@ use super::{
     FLOOR_TOLERANCE_KPA,
 };
 use crate::hydraulics::{LinkState, Solution, SolveError, SolveRequest, Tolerance, Workspace};
+use crate::model::Network;
 use crate::units::{pressure_kpa_from_head_m, UnitSystem, M3S_PER_GPM};
 
 /// Exponent of the supply-curve model used by the secant step: the Hazen-Williams flow
@@ -174,21 +175,9 @@ impl Search<'_, '_> {
         request: &SolveRequest<'_>,
         start: &Solution,
     ) -> Result<Solution, ProbeError> {
-        self.solves += 1;
-        let sol = match self.setup.hydraulics.solve(self.ws, request, start) {
-            Ok(sol) => sol,
-            Err(_) => {
-                // A Newton iteration from an extrapolated start can wander off where one from
-                // the static state converges (controls that switch on the way, a line search
-                // stalled far away): a flow is declared unsolvable only when both fail.
-                self.solves += 1;
-                self.ws.forget_factor();
-                self.setup
-                    .hydraulics
-                    .solve(self.ws, request, &self.setup.base)
-                    .map_err(ProbeError::Solve)?
-            }
-        };
+        let (outcome, attempts) = solve_or_from_base(self.setup, self.ws, request, start);
+        self.solves += attempts;
+        let sol = outcome.map_err(ProbeError::Solve)?;
         self.factorizations += sol.factorizations;
         self.iterations += sol.iterations;
         if sol.states != self.setup.base.states {
@@ -797,16 +786,41 @@ impl Search<'_, '_> {
     fn reason(&self, e: &ProbeError) -> String {
         match e {
             ProbeError::Solve(e) => e.to_string(),
-            ProbeError::Unsettled(links) => format!(
-                "controls did not settle: {}",
-                links
-                    .iter()
-                    .map(|&i| self.setup.network().links[i].id.as_str())
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            ),
+            ProbeError::Unsettled(links) => unsettled_reason(self.setup.network(), links),
         }
     }
+}
+
+/// One solve of `request` from `start`, and when that fails, once more from the max-day state
+/// with a fresh factorization; returns the outcome and the number of solves made (1 or 2).
+/// A Newton iteration from an extrapolated start can wander off where one from the static
+/// state converges (controls that switch on the way, a line search stalled far away): a flow
+/// is declared unsolvable only when both fail.
+pub(super) fn solve_or_from_base(
+    setup: &FireFlowSetup<'_>,
+    ws: &mut Workspace,
+    request: &SolveRequest<'_>,
+    start: &Solution,
+) -> (Result<Solution, SolveError>, u32) {
+    match setup.hydraulics.solve(ws, request, start) {
+        Ok(sol) => (Ok(sol), 1),
+        Err(_) => {
+            ws.forget_factor();
+            (setup.hydraulics.solve(ws, request, &setup.base), 2)
+        }
+    }
+}
+
+/// Why a solve whose controls did not settle gives no answer, naming the links by their ids.
+pub(super) fn unsettled_reason(net: &Network, links: &[usize]) -> String {
+    format!(
+        "controls did not settle: {}",
+        links
+            .iter()
+            .map(|&i| net.links[i].id.as_str())
+            .collect::<Vec<_>>()
+            .join(", ")
+    )
 }
 
 /// A state change located by the first-crossing check.
