@@ -8,10 +8,11 @@ use std::time::{Duration, Instant};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
 use firemain::cli::{available_cores, check_threads, select_hydrants, CliError};
-use firemain::fireflow::{sweep, FireFlowSetup, SweepStats};
+use firemain::fireflow::{supply_curves, sweep, FireFlowSetup, SweepStats};
 use firemain::hydraulics::Hydraulics;
 use firemain::model::project::load_project;
-use firemain::report::{self, check::CheckReport, check::FieldTestSummary};
+use firemain::report;
+use firemain::report::check::{CheckReport, FieldCurve, FieldTestSummary};
 use firemain::service::service_check;
 use firemain::weakmains::weak_mains;
 
@@ -55,6 +56,10 @@ pub struct CheckArgs {
     project: Option<PathBuf>,
 }
 
+/// Solved points of each supply curve on a hydrant sheet (the required and available flows are
+/// added to them).
+const CURVE_POINTS: usize = 12;
+
 pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
     let threads = check_threads(args.threads, available_cores())?;
     check_output_folder(args.out.as_deref(), &args.network)?;
@@ -88,6 +93,25 @@ pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
         sweep(&setup, &indices, threads, &|done| bar.set(done)).map_err(CliError::Threads)?;
     bar.finish();
     let weak = weak_mains(net, &criteria, &results);
+    // The sheets of report.html: failing hydrants, or every hydrant asked for.
+    let curves = match &args.out {
+        Some(_) => {
+            let sheets: Vec<usize> = results
+                .iter()
+                .filter(|r| partial || r.outcome != firemain::fireflow::Outcome::Pass)
+                .map(|r| r.hydrant)
+                .collect();
+            supply_curves(
+                &setup,
+                &sheets,
+                &results,
+                CURVE_POINTS,
+                threads.unwrap_or(0),
+            )
+            .map_err(CliError::Threads)?
+        }
+        None => Vec::new(),
+    };
     let warnings = report::input_warnings(&loaded.diagnostics, &criteria.warnings);
     let report = CheckReport {
         network: net,
@@ -102,6 +126,7 @@ pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
         weak_mains: &weak,
         field_tests: field_tests.as_ref(),
         project: project.as_ref(),
+        curves: &curves,
     };
     emit(report.summary());
     emit(report.terminal_table());
@@ -135,7 +160,23 @@ fn field_test_summary(
     let worst = comparison
         .worst(list)
         .map(|w| (list[w.test].id.clone(), w.residual_diff_kpa(&list[w.test])));
+    let curves = comparison
+        .rows
+        .iter()
+        .map(|row| {
+            let t = &list[row.test];
+            FieldCurve {
+                test: t.id.clone(),
+                hydrant: t.residual_hydrant,
+                static_kpa: t.static_kpa,
+                residual_kpa: t.residual_kpa,
+                flow_m3s: row.reduced.total_flow_m3s,
+                projected_m3s: row.reduced.projected_m3s,
+            }
+        })
+        .collect();
     Ok(FieldTestSummary {
+        curves,
         file: path.display().to_string(),
         tests: list.len(),
         rms_static_kpa: comparison.rms_static_kpa,

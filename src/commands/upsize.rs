@@ -99,6 +99,7 @@ pub fn run(args: &UpsizeArgs) -> Result<Outcome, CliError> {
         weak_mains: &proposed.weak_mains,
         field_tests: None,
         project: None,
+        curves: &[],
     };
     let report = UpsizeReport {
         network: net,

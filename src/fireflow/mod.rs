@@ -10,7 +10,6 @@
 //!   constraints (the first crossing, the safe reading for a fire flow that ramps up).
 
 mod curve;
-pub mod rating;
 mod search;
 pub mod supply_paths;
 mod sweep;

@@ -75,6 +75,25 @@ impl HydrantClass {
         }
     }
 
+    /// Every class, highest first.
+    pub const ALL: [HydrantClass; 4] = [
+        HydrantClass::AA,
+        HydrantClass::A,
+        HydrantClass::B,
+        HydrantClass::C,
+    ];
+
+    /// The lowest flow of the class, m³/s (0 for C).
+    pub fn lower_m3s(self) -> f64 {
+        let gpm = match self {
+            HydrantClass::AA => 1500.0,
+            HydrantClass::A => 1000.0,
+            HydrantClass::B => 500.0,
+            HydrantClass::C => 0.0,
+        };
+        gpm * M3S_PER_GPM
+    }
+
     pub fn name(self) -> &'static str {
         match self {
             HydrantClass::AA => "AA",
@@ -319,6 +338,12 @@ mod tests {
         assert_eq!(c(500.0), HydrantClass::B);
         assert_eq!(c(499.9), HydrantClass::C);
         assert_eq!(c(0.0), HydrantClass::C);
+        // Just above and below each bound, at the finest reporting step (0.001 gpm).
+        for class in [HydrantClass::AA, HydrantClass::A, HydrantClass::B] {
+            let bound = class.lower_m3s() / M3S_PER_GPM;
+            assert_eq!(c(bound + 0.001), class);
+            assert_ne!(c(bound - 0.001), class);
+        }
         // The same bounds in L/s (× 3.785411784/60): 1,500 gpm = 94.635 L/s.
         let lps = UnitSystem::Si.to_si(Quantity::Flow, 1500.0 * 3.785411784 / 60.0);
         assert_eq!(HydrantClass::of_flow(lps), HydrantClass::AA);

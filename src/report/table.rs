@@ -179,12 +179,36 @@ pub trait Markup {
 ///
 /// The title is a level-1 heading, a document's sections level 2 and their parts level 3.
 /// Every block is preceded by a blank line. Text is escaped so that it cannot break the line
-/// structure: `|` as `\|`, a line break as a space; `Code` spans are written as they are.
+/// structure or turn into markup: `|` as `\|`, a line break as a space, and a backslash before
+/// each character that could start emphasis, code, a link, raw HTML or an entity (CommonMark
+/// 0.31, §2.4 "Backslash escapes": any ASCII punctuation may be escaped). An `_` inside a word
+/// cannot start emphasis (§6.2) and is left as it is, so `node_results.csv` stays readable.
+/// `Code` spans are written as they are.
 pub struct Markdown;
 
 impl Markdown {
     fn escape(text: &str) -> String {
-        text.replace('|', "\\|").replace('\n', " ")
+        let chars: Vec<char> = text.chars().collect();
+        let mut s = String::with_capacity(text.len());
+        for (i, &c) in chars.iter().enumerate() {
+            let word = |k: Option<&char>| k.is_some_and(|c| c.is_alphanumeric());
+            let escape = match c {
+                '\\' | '`' | '*' | '<' | '>' | '&' | '[' | ']' | '|' => true,
+                '_' => {
+                    !(word(i.checked_sub(1).and_then(|k| chars.get(k))) && word(chars.get(i + 1)))
+                }
+                _ => false,
+            };
+            match c {
+                '\n' | '\r' => s.push(' '),
+                c if escape => {
+                    s.push('\\');
+                    s.push(c);
+                }
+                c => s.push(c),
+            }
+        }
+        s
     }
 
     fn text(text: &Text) -> String {
@@ -347,6 +371,15 @@ mod tests {
     fn markdown_table_escapes_cells_and_keeps_empty_ones() {
         let t = Table::new(strings(&["a", "b"])).with_rows([strings(&["x|y", ""])]);
         assert_eq!(Markdown.table(&t), "| a | b |\n|---|---|\n| x\\|y |  |\n");
+    }
+
+    // CommonMark 0.31, §2.4 (backslash escapes) and §6.2 (intraword `_` is not emphasis).
+    #[test]
+    fn markdown_escapes_what_could_become_markup() {
+        assert_eq!(
+            Markdown::escape("H<1> & *x* [a] `c` _e_ node_results.csv \\"),
+            "H\\<1\\> \\& \\*x\\* \\[a\\] \\`c\\` \\_e\\_ node_results.csv \\\\"
+        );
     }
 
     #[test]

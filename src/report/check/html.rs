@@ -6,8 +6,8 @@
 use std::collections::BTreeMap;
 
 use super::CheckReport;
-use crate::fireflow::rating::{rating_class, RatingClass};
 use crate::fireflow::{HydrantResult, Outcome};
+use crate::flowtest::reduce::HydrantClass as RatingClass;
 use crate::model::LinkKind;
 use crate::report::html::svg::{
     histogram, network_map, Colouring, Histogram, MapData, MapHydrant, MapPipe, Shape, SymbolKey,
@@ -84,6 +84,7 @@ impl CheckReport<'_> {
                 body.push_str(&self.figures_html());
             }
         }
+        body.push_str(&self.sheets_html());
         page(&doc.title, &body)
     }
 
@@ -125,7 +126,7 @@ impl CheckReport<'_> {
     }
 
     fn hydrant_symbol(&self, r: &HydrantResult) -> (Shape, Option<RatingClass>) {
-        let class = r.available_m3s.map(|q| rating_class(q, self.network.units));
+        let class = r.available_m3s.map(|q| RatingClass::of_flow(q));
         let shape = match (r.outcome, class) {
             (_, None) | (Outcome::Error, _) => Shape::Square,
             (Outcome::Fail, _) => Shape::Triangle,
@@ -143,7 +144,7 @@ impl CheckReport<'_> {
             .unwrap_or_else(|| "none verified".into());
         let class = r
             .available_m3s
-            .map(|q| format!(", class {}", rating_class(q, self.network.units).name()))
+            .map(|q| format!(", class {}", RatingClass::of_flow(q).name()))
             .unwrap_or_default();
         format!(
             "{}: {}; required {} {f}, available {available}{class}; limited by {}",
@@ -304,8 +305,8 @@ impl CheckReport<'_> {
     }
 
     fn hydrant_keys(&self) -> Vec<SymbolKey> {
-        let units = self.network.units;
-        let f = self.out().sym(Quantity::Flow);
+        let o = self.out();
+        let f = o.sym(Quantity::Flow);
         let mut keys: Vec<SymbolKey> = RatingClass::ALL
             .into_iter()
             .map(|c| SymbolKey {
@@ -314,12 +315,12 @@ impl CheckReport<'_> {
                 text: match c {
                     RatingClass::C => format!(
                         "class C, below {} {f}",
-                        num(RatingClass::B.lower_bound(units), 0)
+                        o.flow_text_down(RatingClass::B.lower_m3s())
                     ),
                     c => format!(
                         "class {}, {} {f} or more",
                         c.name(),
-                        num(c.lower_bound(units), 0)
+                        o.flow_text_down(c.lower_m3s())
                     ),
                 },
             })
@@ -370,7 +371,6 @@ impl CheckReport<'_> {
 
     /// Available flows in bins of round width, with the rating class boundaries marked.
     fn available_histogram(&self) -> Histogram {
-        let units = self.network.units;
         let o = self.out();
         let flows: Vec<f64> = self
             .results
@@ -394,7 +394,7 @@ impl CheckReport<'_> {
             x_label: format!("available fire flow ({})", o.sym(Quantity::Flow)),
             marks: [RatingClass::B, RatingClass::A, RatingClass::AA]
                 .into_iter()
-                .map(|c| (o.flow(c.lower_m3s(units)), format!("class {}", c.name())))
+                .map(|c| (o.flow(c.lower_m3s()), format!("class {}", c.name())))
                 .collect(),
         }
     }

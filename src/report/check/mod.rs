@@ -11,6 +11,7 @@ mod csv;
 mod document;
 mod html;
 mod json;
+mod sheets;
 mod terminal;
 
 pub use json::JSON_SCHEMA_VERSION;
@@ -18,7 +19,7 @@ pub use json::JSON_SCHEMA_VERSION;
 use super::table::{Align, Table};
 use super::{num, words, Out, OutputFile, OutputSet, ReportError};
 use crate::criteria::{Criteria, Scope};
-use crate::fireflow::{HydrantNote, HydrantResult, Outcome, SweepStats};
+use crate::fireflow::{HydrantNote, HydrantResult, Outcome, SupplyCurve, SweepStats};
 use crate::hydraulics::LinkState;
 use crate::model::project::Project;
 use crate::model::{Diagnostic, LinkKind, Network};
@@ -47,6 +48,8 @@ pub struct CheckReport<'a> {
     pub field_tests: Option<&'a FieldTestSummary>,
     /// The title block (`--project`), when given.
     pub project: Option<&'a Project>,
+    /// Modelled supply curves of the hydrants that get a sheet in report.html.
+    pub curves: &'a [SupplyCurve],
 }
 
 /// How the model compares with the field flow tests given to `check --tests` (SI): the line of
@@ -61,6 +64,22 @@ pub struct FieldTestSummary {
     pub rms_residual_kpa: f64,
     /// The test with the largest residual misfit: its id and modelled minus measured, kPa.
     pub worst: Option<(String, f64)>,
+    /// Each test's readings, drawn on the sheet of its residual hydrant.
+    pub curves: Vec<FieldCurve>,
+}
+
+/// A field test's readings at its residual hydrant (SI): the field supply curve.
+#[derive(Clone, Debug)]
+pub struct FieldCurve {
+    pub test: String,
+    /// Index into `Network::hydrants`: the residual hydrant.
+    pub hydrant: usize,
+    pub static_kpa: f64,
+    pub residual_kpa: f64,
+    /// Total flow of the test.
+    pub flow_m3s: f64,
+    /// The flow projected to the criteria's floor (NFPA 291 §4.13), if the test had a drop.
+    pub projected_m3s: Option<f64>,
 }
 
 /// Weak mains shown on the terminal and in report.md.

@@ -200,7 +200,7 @@ document.querySelectorAll('table.sortable').forEach(function(table){
     });
   });
 });
-document.querySelectorAll('.map svg').forEach(function(svg){
+document.querySelectorAll('.map>svg').forEach(function(svg){
   var v=svg.getAttribute('viewBox').split(' ').map(Number),home=v.slice(),drag=null;
   function set(){svg.setAttribute('viewBox',v.join(' '));}
   function at(e){var r=svg.getBoundingClientRect();return[v[0]+(e.clientX-r.left)/r.width*v[2],v[1]+(e.clientY-r.top)/r.height*v[3]];}

@@ -559,6 +559,8 @@ pub struct Series {
     /// Dash pattern ("" for a solid line); `None` draws markers only (field points).
     pub dash: Option<&'static str>,
     pub marker: Shape,
+    /// A projection beyond the solved points: it does not widen the flow axis.
+    pub projection: bool,
 }
 
 /// A supply-curve chart: pressures against fire flow, the abscissa proportional to Q^1.85 so
@@ -580,8 +582,13 @@ const ABSCISSA_EXPONENT: f64 = 1.85;
 
 pub fn supply_chart(c: &SupplyChart) -> String {
     let all = || c.series.iter().flat_map(|s| s.points.iter().copied());
-    let q_max = all()
-        .map(|p| p.0)
+    // The flow axis spans the modelled curve (series with a line) and the marked flows; a field
+    // projection far beyond is clipped, its value is in the caption.
+    let q_max = c
+        .series
+        .iter()
+        .filter(|s| s.dash.is_some() && !s.projection)
+        .flat_map(|s| s.points.iter().map(|p| p.0))
         .chain(c.flows.iter().map(|f| f.0))
         .fold(0.0f64, f64::max)
         .max(1e-9);
@@ -615,10 +622,10 @@ pub fn supply_chart(c: &SupplyChart) -> String {
     s.push_str("<g clip-path=\"url(#plot)\">\n");
     let _ = writeln!(
         s,
-        "<line x1=\"{LEFT}\" x2=\"{0}\" y1=\"{1:.1}\" y2=\"{1:.1}\" stroke=\"#b00\" stroke-width=\"1.5\"/><text x=\"{2}\" y=\"{3:.1}\" font-size=\"11\" fill=\"#b00\">{4}</text>",
+        "<line x1=\"{LEFT}\" x2=\"{0}\" y1=\"{1:.1}\" y2=\"{1:.1}\" stroke=\"#b00\" stroke-width=\"1.5\"/><text x=\"{2}\" y=\"{3:.1}\" font-size=\"11\" fill=\"#b00\" text-anchor=\"end\">{4}</text>",
         LEFT + pw,
         sy(c.floor.0),
-        LEFT + 4.0,
+        LEFT + pw - 4.0,
         sy(c.floor.0) - 4.0,
         escape(&c.floor.1)
     );
@@ -759,6 +766,7 @@ mod tests {
                 colour: "#000",
                 dash: Some(""),
                 marker: Shape::Circle,
+                projection: false,
             }],
             flow_label: "fire flow (gpm)".into(),
             pressure_label: "pressure (psi)".into(),
