@@ -126,7 +126,7 @@ impl CheckReport<'_> {
     }
 
     fn hydrant_symbol(&self, r: &HydrantResult) -> (Shape, Option<RatingClass>) {
-        let class = r.available_m3s.map(|q| RatingClass::of_flow(q));
+        let class = r.available_m3s.map(RatingClass::of_flow);
         let shape = match (r.outcome, class) {
             (_, None) | (Outcome::Error, _) => Shape::Square,
             (Outcome::Fail, _) => Shape::Triangle,
