@@ -326,7 +326,7 @@ impl FlowTestReport<'_> {
         let mut s = format!(
             "# Field flow tests: {}\n\nGenerated {} by firemain {} (run {}). Tests: `{}`{}. Projections to a residual floor of {} ({}).\n\n",
             self.network.name,
-            self.generated,
+            super::date_of(&self.generated),
             self.version,
             self.run_id,
             self.tests.file,
@@ -447,7 +447,7 @@ impl FlowTestReport<'_> {
             "# Calibrated copy of {}\n\nWritten by firemain {} on {} (run {}) from the field tests in `{}` ({} test(s): {}).\n\nOnly the `roughness` column of pipes.csv differs from the input network: the roughness of every pipe of a fitted group (grouped by the `{column}` column of pipes.csv) is multiplied by the group's fitted factor, so that the group's length-weighted mean is the value below. Groups that no test is sensitive to are unchanged.\n\n",
             self.network.name,
             self.version,
-            self.generated,
+            super::date_of(&self.generated),
             self.run_id,
             self.tests.file,
             self.tests.tests.len(),

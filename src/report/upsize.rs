@@ -305,7 +305,10 @@ impl UpsizeReport<'_> {
         Section::untitled()
             .paragraph(format!(
                 "Criteria: {} ({}). Date: {}. Run id: {}. Produced by firemain {}.",
-                criteria.name, criteria.reference, self.generated, self.after.run_id, self.version
+                criteria.name,
+                criteria.reference,
+                super::date_of(&self.generated),
+                self.after.run_id, self.version
             ))
             .paragraph(self.headline())
             .paragraph(format!(

@@ -6,7 +6,7 @@ use std::collections::BTreeMap;
 use super::{CheckReport, SUPPLY_PIPES_SHOWN, WEAK_MAINS_SHOWN};
 use crate::fireflow::{HydrantResult, Outcome};
 use crate::report::table::{Document, Markdown, Markup, Section, Table, Text};
-use crate::report::{input_warnings_section, num, CAUTIONS};
+use crate::report::{date_of, input_warnings_section, num, CAUTIONS};
 use crate::units::Quantity;
 
 impl CheckReport<'_> {
@@ -76,7 +76,7 @@ impl CheckReport<'_> {
                 ),
             ),
             ("Field flow tests", self.field_tests_line()),
-            ("Date", self.generated.clone()),
+            ("Date", date_of(&self.generated).to_string()),
             ("Run id", self.run_id.clone()),
             ("Produced by", format!("firemain {}", self.version)),
         ];
