@@ -1,6 +1,6 @@
 //! Reports of one steady state (`firemain solve`): a terminal summary and result CSV files.
 
-use super::table::{Markup, Section, Table, Terminal};
+use super::table::{hanging, Markup, Section, Table, Terminal};
 use super::{csv_bytes, num, Out, OutputFile, ReportError};
 use crate::steady::SteadyReport;
 use crate::units::{Quantity, UnitSystem};
@@ -10,7 +10,7 @@ pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
     let o = Out::new(units);
     let mut s = String::new();
     let f = o.sym(Quantity::Flow);
-    s.push_str(&format!("Network:    {}\n", report.network));
+    s.push_str(&hanging("Network:    ", &report.network));
     s.push_str(&format!(
         "Condition:  {} demand (x{} average day)\n",
         report.condition_label, report.demand_factor
@@ -25,9 +25,9 @@ pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
         o.fmt(Quantity::Flow, report.source_outflow_m3s)
     ));
     for note in &report.notes {
-        s.push_str(&format!(
-            "Note:       {}\n",
-            super::words::control_note(report, note)
+        s.push_str(&hanging(
+            "Note:       ",
+            &super::words::control_note(report, note),
         ));
     }
 
