@@ -624,6 +624,38 @@ mod tests {
         );
     }
 
+    // Greedy line filling between words: common practice, no source.
+    #[test]
+    fn wrap_breaks_between_words_and_compounds_never_in_numbers_or_ids() {
+        assert_eq!(wrap("hydrant-pressure", 10), ["hydrant-", "pressure"]);
+        assert_eq!(wrap("HYD-124 at -3018", 8), ["HYD-124", "at -3018"]);
+        assert_eq!(wrap("abcdefghij", 4), ["abcd", "efgh", "ij"]);
+        assert_eq!(wrap("", 5), [""]);
+    }
+
+    #[test]
+    fn a_wide_terminal_table_wraps_titles_and_text_but_not_numbers() {
+        let long = "word ".repeat(40);
+        let t = Table::new(strings(&["flow (gpm)", "reasons"])).with_rows([vec![
+            "-123456789012".to_string(),
+            long.trim_end().to_string(),
+        ]]);
+        let drawn = Terminal.table(&t);
+        assert!(drawn.lines().all(|l| l.chars().count() <= TERMINAL_WIDTH));
+        assert!(drawn.contains("-123456789012"));
+        // A narrow table is drawn as it is.
+        let narrow = Table::new(strings(&["a b c"])).with_rows([strings(&["1"])]);
+        assert!(Terminal.table(&narrow).contains("│ a b c │"));
+    }
+
+    #[test]
+    fn without_columns_drops_columns_by_title() {
+        let t = Table::new(strings(&["a", "b", "c"])).with_rows([strings(&["1", "2", "3"])]);
+        let t = t.without_columns(&["b"]);
+        assert_eq!(t.header, Some(strings(&["a", "c"])));
+        assert_eq!(t.rows, vec![strings(&["1", "3"])]);
+    }
+
     #[test]
     fn terminal_section_is_a_title_line_then_the_table() {
         let s = Section::titled("Pipes")

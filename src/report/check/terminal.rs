@@ -95,7 +95,7 @@ impl CheckReport<'_> {
             }
         }
         let section = Section::titled(format!(
-            "Weak mains (on the supply paths of failing hydrants, at their required flow; {} in all, reasons in full in weak_mains.csv)",
+            "Weak mains (supply paths of failing hydrants at their required flow; {} in all, reasons in full in weak_mains.csv)",
             self.weak_mains.len()
         ))
         .table(table);
