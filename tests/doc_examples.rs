@@ -445,3 +445,57 @@ fn the_matcher_elides_and_masks() {
         "sweep: 3 hydrants, 0.04 s wall, 2 thread(s)"
     );
 }
+
+/// Every line the demo commands print on standard output fits in 120 characters (counted as
+/// characters, not bytes: the table borders are several bytes each). 120 columns is the width
+/// firemain draws for (`report::table::TERMINAL_WIDTH`; common practice, no source). `upsize`
+/// is read from its committed output, which `committed_upsize_output_is_current` keeps current.
+#[test]
+fn terminal_output_fits_120_columns() {
+    let tmp = tempfile::tempdir().expect("temporary folder");
+    let out = |name: &str| {
+        tmp.path()
+            .join(name)
+            .to_str()
+            .expect("UTF-8 path")
+            .to_string()
+    };
+    let mut printed = demo_sources();
+    printed.retain(|name, _| ["validate", "solve", "check"].contains(&name.as_str()));
+    let (flowtest, _) = firemain(&[
+        "flowtest",
+        "examples/demo-town",
+        "--tests",
+        "examples/demo-town/flowtests.csv",
+        "--criteria",
+        "criteria/cedar-county-demo.toml",
+        "--calibrate-by",
+        "material",
+        "--out",
+        &out("f"),
+    ]);
+    printed.insert("flowtest".into(), flowtest);
+    let (checked, _) = firemain(&[
+        "check",
+        "examples/demo-town",
+        "--criteria",
+        "criteria/cedar-county-demo.toml",
+        "--tests",
+        "examples/demo-town/flowtests.csv",
+        "--out",
+        &out("c"),
+    ]);
+    printed.insert("check --tests".into(), checked);
+    printed.insert("upsize".into(), committed_upsize()["upsize"].clone());
+    assert_eq!(printed.len(), 6, "every command's output is checked");
+    for (command, text) in &printed {
+        assert!(!text.is_empty(), "{command} printed nothing");
+        for line in text.lines() {
+            let width = line.chars().count();
+            assert!(
+                width <= 120,
+                "firemain {command} printed a line of {width} characters:\n{line}"
+            );
+        }
+    }
+}

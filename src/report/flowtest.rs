@@ -1,6 +1,7 @@
 //! Reports of `firemain flowtest`: flowtest_results.csv, calibration.csv, flowtest.md, the
 //! terminal summary, and the calibrated copy of the network folder.
 
+use super::table::{hanging, Markup, Table, Terminal};
 use super::{csv_bytes, num, Out, OutputFile, OutputSet, ReportError, CAUTIONS};
 use crate::flowtest::calibrate::Calibration;
 use crate::flowtest::compare::{Compared, Comparison, LARGE_MISFIT_KPA};
@@ -234,58 +235,72 @@ impl FlowTestReport<'_> {
 
     /// The terminal summary.
     pub fn terminal(&self) -> String {
+        let mut s = hanging("", &format!("Field flow tests: {}", self.network.name));
+        s.push_str(&hanging("", &self.summary()));
+        if let Some(f) = &self.tests.sources_file {
+            s.push_str(&hanging(
+                "",
+                &format!("source levels during the tests from {f} (beside the tests file)"),
+            ));
+        }
+        s.push_str(&Terminal.table(&self.terminal_table()));
+        s.push('\n');
+        if let Some((cal, column)) = self.calibration {
+            s.push('\n');
+            s.push_str(&hanging(
+                "",
+                &format!(
+                    "Calibration by `{column}`: RMS residual misfit {} -> {}",
+                    self.p(cal.rms_before_kpa),
+                    self.p(cal.rms_after_kpa)
+                ),
+            ));
+            for g in &cal.groups {
+                s.push_str(&hanging("  ", &self.group_line(g)));
+            }
+        }
+        s
+    }
+
+    /// One row per test: field and model pressures side by side, the field's flow at the
+    /// floor and its class, and how many notes flowtest.md has for the test.
+    fn terminal_table(&self) -> Table {
         let o = self.out();
-        let mut s = format!(
-            "Field flow tests: {}\n{}{}\n\n",
-            self.network.name,
-            self.summary(),
-            self.tests
-                .sources_file
-                .as_ref()
-                .map(|f| format!(
-                    "\nsource levels during the tests from {f} (beside the tests file)"
-                ))
-                .unwrap_or_default()
-        );
-        for r in &self.comparison.rows {
+        let (p, f) = (o.sym(Quantity::Pressure), o.sym(Quantity::Flow));
+        let header = vec![
+            "test".to_string(),
+            format!("flow ({f})"),
+            format!("static, field ({p})"),
+            format!("static, model ({p})"),
+            format!("residual, field ({p})"),
+            format!("residual, model ({p})"),
+            format!("field at {} ({f})", self.floor_text()),
+            "class".to_string(),
+            "notes in flowtest.md".to_string(),
+        ];
+        Table::new(header).with_rows(self.comparison.rows.iter().map(|r| {
             let t = self.test(r);
-            s.push_str(&format!(
-                "  {:<10} Q {:>7} {}  static {:>6}/{:<6} residual {:>6}/{:<6} {} (field/model)  at {}: {} {}{}{}\n",
-                t.id,
+            vec![
+                t.id.clone(),
                 o.flow_text(r.reduced.total_flow_m3s),
-                o.sym(Quantity::Flow),
                 o.fmt(Quantity::Pressure, t.static_kpa),
                 o.fmt(Quantity::Pressure, r.model_static_kpa),
                 o.fmt(Quantity::Pressure, t.residual_kpa),
                 o.fmt(Quantity::Pressure, r.model_residual_kpa),
-                o.sym(Quantity::Pressure),
-                self.floor_text(),
                 r.reduced
                     .projected_m3s
                     .map(|q| o.flow_text_down(q))
-                    .unwrap_or_else(|| "-".into()),
-                o.sym(Quantity::Flow),
+                    .unwrap_or_default(),
                 r.reduced
                     .class
-                    .map(|c| format!(" class {}", c.name()))
+                    .map(|c| c.name().to_string())
                     .unwrap_or_default(),
                 match r.reduced.warnings.len() + usize::from(r.hint.is_some()) {
                     0 => String::new(),
-                    n => format!("  ({n} note(s) in flowtest.md)"),
-                }
-            ));
-        }
-        if let Some((cal, column)) = self.calibration {
-            s.push_str(&format!(
-                "\nCalibration by `{column}`: RMS residual misfit {} -> {}\n",
-                self.p(cal.rms_before_kpa),
-                self.p(cal.rms_after_kpa)
-            ));
-            for g in &cal.groups {
-                s.push_str(&format!("  {}\n", self.group_line(g)));
-            }
-        }
-        s
+                    n => n.to_string(),
+                },
+            ]
+        }))
     }
 
     fn group_line(&self, g: &crate::flowtest::calibrate::GroupFit) -> String {
@@ -326,7 +341,7 @@ impl FlowTestReport<'_> {
         let mut s = format!(
             "# Field flow tests: {}\n\nGenerated {} by firemain {} (run {}). Tests: `{}`{}. Projections to a residual floor of {} ({}).\n\n",
             self.network.name,
-            self.generated,
+            super::date_of(&self.generated),
             self.version,
             self.run_id,
             self.tests.file,
@@ -447,7 +462,7 @@ impl FlowTestReport<'_> {
             "# Calibrated copy of {}\n\nWritten by firemain {} on {} (run {}) from the field tests in `{}` ({} test(s): {}).\n\nOnly the `roughness` column of pipes.csv differs from the input network: the roughness of every pipe of a fitted group (grouped by the `{column}` column of pipes.csv) is multiplied by the group's fitted factor, so that the group's length-weighted mean is the value below. Groups that no test is sensitive to are unchanged.\n\n",
             self.network.name,
             self.version,
-            self.generated,
+            super::date_of(&self.generated),
             self.run_id,
             self.tests.file,
             self.tests.tests.len(),

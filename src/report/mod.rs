@@ -130,6 +130,24 @@ impl From<&Diagnostic> for JsonInputWarning {
     }
 }
 
+/// The date of a run as documents show it: the `YYYY-MM-DD` of `generated` (an RFC 3339
+/// timestamp in UTC, so this is the analysis date in UTC). The full timestamp stays in
+/// report.json and the manifests. A text of another form is returned whole.
+pub fn date_of(generated: &str) -> &str {
+    let b = generated.as_bytes();
+    let is_date = b.len() >= 10
+        && b[..10].iter().enumerate().all(|(i, c)| match i {
+            4 | 7 => *c == b'-',
+            _ => c.is_ascii_digit(),
+        })
+        && b.get(10).is_none_or(|c| *c == b'T');
+    if is_date {
+        &generated[..10]
+    } else {
+        generated
+    }
+}
+
 /// A number with fixed decimals; empty for a non-finite value (which the analyses never
 /// produce, but no report may ever print NaN).
 pub fn num(value: f64, decimals: usize) -> String {
@@ -278,6 +296,15 @@ pub const CAUTIONS: &[&str] = &[
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // RFC 3339, section 5.6 (full-date "T" full-time): common practice, no further source.
+    #[test]
+    fn date_of_keeps_the_full_date_of_a_timestamp() {
+        assert_eq!(date_of("2025-12-02T23:59:59Z"), "2025-12-02");
+        assert_eq!(date_of("2025-12-02"), "2025-12-02");
+        assert_eq!(date_of("yesterday"), "yesterday");
+        assert_eq!(date_of("2025-12-0"), "2025-12-0");
+    }
 
     #[test]
     fn numbers_never_print_nan_or_negative_zero() {

@@ -91,8 +91,9 @@ pub fn new_run_id() -> String {
     format!("{:016x}", h.finish())
 }
 
-/// `text` with the run id replaced by `<run-id>` and the analysis date by `<generated>`: two
-/// runs on the same input give the same masked files.
+/// `text` with the run id replaced by `<run-id>`, the analysis timestamp by `<generated>` and
+/// the date the documents show (its `YYYY-MM-DD`) by `<date>`: two runs on the same input give
+/// the same masked files, even across midnight.
 pub fn mask_run(text: &str, run_id: &str, generated: &str) -> String {
     let mut out = text.to_string();
     if !run_id.is_empty() {
@@ -100,6 +101,10 @@ pub fn mask_run(text: &str, run_id: &str, generated: &str) -> String {
     }
     if !generated.is_empty() {
         out = out.replace(generated, "<generated>");
+        let date = super::date_of(generated);
+        if date != generated {
+            out = out.replace(date, "<date>");
+        }
     }
     out
 }
@@ -655,10 +660,10 @@ mod tests {
 
     #[test]
     fn masking_removes_run_id_and_date() {
-        let text = "Run id: 0123abcd0123abcd. Date: 2025-12-02T00:00:00Z.";
+        let text = "Run id: 0123abcd0123abcd. Date: 2025-12-02T00:00:00Z. On 2025-12-02.";
         assert_eq!(
             mask_run(text, "0123abcd0123abcd", "2025-12-02T00:00:00Z"),
-            "Run id: <run-id>. Date: <generated>."
+            "Run id: <run-id>. Date: <generated>. On <date>."
         );
         assert_ne!(new_run_id(), new_run_id());
         assert_eq!(new_run_id().len(), 16);

@@ -1,6 +1,6 @@
 //! Reports of one steady state (`firemain solve`): a terminal summary and result CSV files.
 
-use super::table::{Markup, Section, Table, Terminal};
+use super::table::{hanging, Markup, Section, Table, Terminal};
 use super::{csv_bytes, num, Out, OutputFile, ReportError};
 use crate::steady::SteadyReport;
 use crate::units::{Quantity, UnitSystem};
@@ -10,7 +10,7 @@ pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
     let o = Out::new(units);
     let mut s = String::new();
     let f = o.sym(Quantity::Flow);
-    s.push_str(&format!("Network:    {}\n", report.network));
+    s.push_str(&hanging("Network:    ", &report.network));
     s.push_str(&format!(
         "Condition:  {} demand (x{} average day)\n",
         report.condition_label, report.demand_factor
@@ -25,9 +25,9 @@ pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
         o.fmt(Quantity::Flow, report.source_outflow_m3s)
     ));
     for note in &report.notes {
-        s.push_str(&format!(
-            "Note:       {}\n",
-            super::words::control_note(report, note)
+        s.push_str(&hanging(
+            "Note:       ",
+            &super::words::control_note(report, note),
         ));
     }
 
@@ -97,6 +97,19 @@ pub fn terminal(report: &SteadyReport, units: UnitSystem) -> String {
     s
 }
 
+/// A node's demand and supply (m³/s), both read as they are, with no sign to interpret: what
+/// it takes from the network and what it delivers into it. A junction supplies nothing (its
+/// demand is kept as given, whatever its sign); a source (whose `demand_m3s` is minus its net
+/// outflow) that delivers water has that outflow as its supply and no demand, and a tank that
+/// fills has its inflow as its demand and no supply.
+fn demand_and_supply(n: &crate::steady::NodeResult) -> (f64, f64) {
+    if n.kind == "junction" {
+        (n.demand_m3s, 0.0)
+    } else {
+        (n.demand_m3s.max(0.0), (-n.demand_m3s).max(0.0))
+    }
+}
+
 /// `node_results.csv`, `pipe_results.csv`, and where present `pump_results.csv` and
 /// `valve_results.csv`.
 pub fn files(report: &SteadyReport, units: UnitSystem) -> Result<Vec<OutputFile>, ReportError> {
@@ -114,6 +127,7 @@ pub fn files(report: &SteadyReport, units: UnitSystem) -> Result<Vec<OutputFile>
         "zone".to_string(),
         format!("elevation_{l}"),
         format!("demand_{f}"),
+        format!("supply_{f}"),
         format!("grade_{l}"),
         format!("pressure_{p}"),
     ];
@@ -121,12 +135,14 @@ pub fn files(report: &SteadyReport, units: UnitSystem) -> Result<Vec<OutputFile>
         .nodes
         .iter()
         .map(|n| {
+            let (demand, supply) = demand_and_supply(n);
             vec![
                 n.id.clone(),
                 n.kind.to_string(),
                 n.zone.clone().unwrap_or_default(),
                 o.fmt_precise(Quantity::Length, n.elevation_m),
-                o.fmt_precise(Quantity::Flow, n.demand_m3s),
+                o.fmt_precise(Quantity::Flow, demand),
+                o.fmt_precise(Quantity::Flow, supply),
                 o.fmt_precise(Quantity::Length, n.grade_m),
                 n.pressure_kpa
                     .map(|k| o.fmt_precise(Quantity::Pressure, k))
@@ -211,4 +227,32 @@ pub fn files(report: &SteadyReport, units: UnitSystem) -> Result<Vec<OutputFile>
         });
     }
     Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::steady::NodeResult;
+
+    fn node(kind: &'static str, demand_m3s: f64) -> NodeResult {
+        NodeResult {
+            id: "N".into(),
+            kind,
+            zone: None,
+            elevation_m: 0.0,
+            demand_m3s,
+            grade_m: 0.0,
+            pressure_kpa: None,
+        }
+    }
+
+    // Mass balance at a node (what enters equals what leaves): common practice, no source.
+    #[test]
+    fn a_source_reports_its_outflow_as_supply_and_a_filling_tank_its_inflow_as_demand() {
+        assert_eq!(demand_and_supply(&node("reservoir", -0.2)), (0.0, 0.2));
+        assert_eq!(demand_and_supply(&node("tank", 0.05)), (0.05, 0.0));
+        assert_eq!(demand_and_supply(&node("junction", 0.01)), (0.01, 0.0));
+        let (d, s) = demand_and_supply(&node("tank", 0.0));
+        assert!(d == 0.0 && s == 0.0);
+    }
 }

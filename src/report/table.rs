@@ -66,6 +66,33 @@ impl Table {
     pub fn align_of(&self, c: usize) -> Align {
         self.align.get(c).copied().unwrap_or_default()
     }
+
+    /// The table without the columns whose header is one of `headers` (a shorter view of the
+    /// same rows, for the terminal).
+    pub fn without_columns(self, headers: &[&str]) -> Table {
+        let Some(header) = &self.header else {
+            return self;
+        };
+        let keep: Vec<bool> = (0..self.columns())
+            .map(|c| header.get(c).is_none_or(|h| !headers.contains(&h.as_str())))
+            .collect();
+        let pick = |cells: &[String]| -> Vec<String> {
+            cells
+                .iter()
+                .enumerate()
+                .filter(|(c, _)| keep.get(*c).copied().unwrap_or(true))
+                .map(|(_, cell)| cell.clone())
+                .collect()
+        };
+        Table {
+            header: Some(pick(header)),
+            rows: self.rows.iter().map(|r| pick(r)).collect(),
+            align: (0..self.columns())
+                .filter(|&c| keep[c])
+                .map(|c| self.align_of(c))
+                .collect(),
+        }
+    }
 }
 
 /// A piece of inline text.
@@ -293,8 +320,18 @@ impl Markup for Markdown {
     }
 }
 
+/// The width, in characters, that everything firemain prints on the terminal fits in: a
+/// common terminal width that leaves room beside a standard 80-column window's double (common
+/// practice, no source). The files keep every text whole.
+pub const TERMINAL_WIDTH: usize = 120;
+
+/// The narrowest a text column is cut to when its words do not fit (the last resort).
+const MIN_CUT_WIDTH: usize = 10;
+
 /// The terminal: a section is its title on a line of its own, then its blocks without blank
-/// lines between them; tables are drawn with box-drawing lines.
+/// lines between them; tables are drawn with box-drawing lines. Everything fits in
+/// [`TERMINAL_WIDTH`] columns: text wraps, and a wider table wraps its headers, then its
+/// widest text columns (numbers are never wrapped).
 pub struct Terminal;
 
 impl Terminal {
@@ -308,17 +345,228 @@ impl Terminal {
     }
 }
 
+/// The number of characters of `s` (what a terminal shows for the text firemain prints).
+fn chars(s: &str) -> usize {
+    s.chars().count()
+}
+
+/// The pieces a text may be broken between: each ends after a space, or after a hyphen or
+/// slash between two letters (so `hydrant-pressure` and `material/class` may break; a minus
+/// sign, an id such as `HYD-124` or a unit such as `ft/1000` never).
+fn pieces(text: &str) -> Vec<&str> {
+    let mut out = Vec::new();
+    let mut start = 0;
+    let cs: Vec<(usize, char)> = text.char_indices().collect();
+    for (k, &(i, c)) in cs.iter().enumerate() {
+        let end = i + c.len_utf8();
+        let joint_break = (c == '-' || c == '/')
+            && k > 0
+            && cs[k - 1].1.is_alphabetic()
+            && cs.get(k + 1).is_some_and(|n| n.1.is_alphabetic());
+        if c == ' ' || joint_break {
+            out.push(&text[start..end]);
+            start = end;
+        }
+    }
+    if start < text.len() {
+        out.push(&text[start..]);
+    }
+    out
+}
+
+/// The longest piece of `text` that [`wrap`] keeps whole.
+fn longest_piece(text: &str) -> usize {
+    pieces(text)
+        .iter()
+        .map(|p| chars(p.trim_end()))
+        .max()
+        .unwrap_or(0)
+}
+
+/// `text` in lines of at most `width` characters (at least 1), broken between words and after
+/// the hyphen of a compound; a word longer than the width is cut.
+pub fn wrap(text: &str, width: usize) -> Vec<String> {
+    let width = width.max(1);
+    let mut lines = Vec::new();
+    let mut line = String::new();
+    for piece in pieces(text) {
+        if !line.is_empty() && chars(&line) + chars(piece.trim_end()) > width {
+            lines.push(line.trim_end().to_string());
+            line.clear();
+        }
+        line.push_str(piece);
+        while chars(line.trim_end()) > width {
+            let cut: String = line.chars().take(width).collect();
+            line = line.chars().skip(width).collect();
+            lines.push(cut);
+        }
+    }
+    if !line.trim_end().is_empty() || lines.is_empty() {
+        lines.push(line.trim_end().to_string());
+    }
+    lines
+}
+
+/// `first` then `text`, wrapped to [`TERMINAL_WIDTH`], its further lines indented under the
+/// start of `text` ("Reference:  ...", "- item").
+pub fn hanging(first: &str, text: &str) -> String {
+    let indent = chars(first);
+    let lines = wrap(text, TERMINAL_WIDTH.saturating_sub(indent).max(20));
+    let mut s = String::new();
+    for (k, line) in lines.iter().enumerate() {
+        if k == 0 {
+            s.push_str(first);
+        } else {
+            s.push_str(&" ".repeat(indent));
+        }
+        s.push_str(line);
+        s.push('\n');
+    }
+    s
+}
+
+/// Whether every filled data cell of column `c` is a number (a percentage counts).
+fn is_numeric(table: &Table, c: usize) -> bool {
+    let mut cells = table
+        .rows
+        .iter()
+        .filter_map(|r| r.get(c))
+        .filter(|s| !s.is_empty())
+        .peekable();
+    cells.peek().is_some() && cells.all(|s| s.trim_end_matches('%').parse::<f64>().is_ok())
+}
+
+/// Narrows the widest columns until the table is `excess` characters narrower or every column
+/// is at its floor; returns what is still in excess. A column narrowed by one character takes
+/// the width its cells then wrap to (`wrapped(c, w)`), which may be less.
+fn narrow(
+    widths: &mut [usize],
+    floors: &[usize],
+    mut excess: usize,
+    wrapped: impl Fn(usize, usize) -> usize,
+) -> usize {
+    while excess > 0 {
+        // The widest column above its floor; of equal ones, the rightmost (text columns
+        // usually come last).
+        let widest = (0..widths.len())
+            .filter(|&c| widths[c] > floors[c])
+            .max_by_key(|&c| (widths[c], c));
+        let Some(c) = widest else { break };
+        let w = wrapped(c, widths[c] - 1).clamp(floors[c], widths[c] - 1);
+        excess = excess.saturating_sub(widths[c] - w);
+        widths[c] = w;
+    }
+    excess
+}
+
+/// The column widths of `table` drawn in at most `width` characters: the natural widths when
+/// they fit; else narrowed in three steps, each only as far as needed: headers wrap between
+/// words; then text columns wrap between words (widest first); then text columns are cut, to
+/// no less than [`MIN_CUT_WIDTH`]. A number is never wrapped.
+fn column_widths(table: &Table, width: usize) -> Vec<usize> {
+    let n = table.columns();
+    let cell = |r: &Vec<String>, c: usize| r.get(c).map(|s| chars(s)).unwrap_or(0);
+    let header = |c: usize| {
+        table
+            .header
+            .as_ref()
+            .and_then(|h| h.get(c))
+            .map(String::as_str)
+            .unwrap_or("")
+    };
+    let data_width: Vec<usize> = (0..n)
+        .map(|c| table.rows.iter().map(|r| cell(r, c)).max().unwrap_or(0))
+        .collect();
+    let mut widths: Vec<usize> = (0..n)
+        .map(|c| data_width[c].max(chars(header(c))))
+        .collect();
+    // Each column takes its width plus a space either side and a line; one more line closes
+    // the table (tabled's sharp style).
+    let frame = 3 * n + 1;
+    let total: usize = widths.iter().sum::<usize>() + frame;
+    if total <= width {
+        return widths;
+    }
+    let numeric: Vec<bool> = (0..n).map(|c| is_numeric(table, c)).collect();
+    let headers_wrapped: Vec<usize> = (0..n)
+        .map(|c| data_width[c].max(longest_piece(header(c))))
+        .collect();
+    let words_wrapped: Vec<usize> = (0..n)
+        .map(|c| {
+            if numeric[c] {
+                headers_wrapped[c]
+            } else {
+                let longest = table
+                    .rows
+                    .iter()
+                    .filter_map(|r| r.get(c))
+                    .map(|s| longest_piece(s))
+                    .max()
+                    .unwrap_or(0);
+                longest.max(longest_piece(header(c)))
+            }
+        })
+        .collect();
+    let cut: Vec<usize> = (0..n)
+        .map(|c| {
+            if numeric[c] {
+                headers_wrapped[c]
+            } else {
+                words_wrapped[c].min(MIN_CUT_WIDTH)
+            }
+        })
+        .collect();
+    // The width column `c`'s header and cells take when wrapped to `w`.
+    let wrapped = |c: usize, w: usize| {
+        table
+            .header
+            .iter()
+            .chain(table.rows.iter())
+            .filter_map(|r| r.get(c))
+            .flat_map(|s| wrap(s, w))
+            .map(|line| chars(&line))
+            .max()
+            .unwrap_or(0)
+    };
+    let mut excess = total - width;
+    for floors in [&headers_wrapped, &words_wrapped, &cut] {
+        excess = narrow(&mut widths, floors, excess, wrapped);
+    }
+    widths
+}
+
+/// `cells` wrapped to `widths`, each wrapped cell's lines joined by line breaks.
+fn wrap_cells(cells: &[String], widths: &[usize]) -> Vec<String> {
+    cells
+        .iter()
+        .enumerate()
+        .map(|(c, s)| match widths.get(c) {
+            Some(&w) if chars(s) > w => wrap(s, w).join("\n"),
+            _ => s.clone(),
+        })
+        .collect()
+}
+
 impl Markup for Terminal {
     fn table(&self, table: &Table) -> String {
+        let widths = column_widths(table, TERMINAL_WIDTH);
         let mut b = Builder::default();
         if let Some(h) = &table.header {
-            b.push_record(h.clone());
+            b.push_record(wrap_cells(h, &widths));
         }
+        let mut wrapped_rows = false;
         for r in &table.rows {
-            b.push_record(r.clone());
+            let cells = wrap_cells(r, &widths);
+            wrapped_rows |= cells.iter().any(|s| s.contains('\n'));
+            b.push_record(cells);
         }
         let mut t = b.build();
-        t.with(Style::sharp());
+        // Rows of several lines get a line between them, so that each row reads as one.
+        if wrapped_rows {
+            t.with(Style::modern());
+        } else {
+            t.with(Style::sharp());
+        }
         for c in 0..table.columns() {
             if table.align_of(c) == Align::Right {
                 t.modify(Columns::single(c), Alignment::right());
@@ -331,14 +579,14 @@ impl Markup for Terminal {
     fn section(&self, section: &Section, _level: usize) -> String {
         let mut s = String::from("\n");
         if let Some(t) = &section.title {
-            s.push_str(&format!("{t}\n"));
+            s.push_str(&hanging("", t));
         }
         for b in &section.blocks {
             match b {
-                Block::Paragraph(t) => s.push_str(&format!("{}\n", Self::text(t))),
+                Block::Paragraph(t) => s.push_str(&hanging("", &Self::text(t))),
                 Block::List(items) => {
                     for item in items {
-                        s.push_str(&format!("- {}\n", Self::text(item)));
+                        s.push_str(&hanging("- ", &Self::text(item)));
                     }
                 }
                 Block::Table(t) => s.push_str(&format!("{}\n", self.table(t))),
@@ -349,7 +597,7 @@ impl Markup for Terminal {
     }
 
     fn document(&self, doc: &Document) -> String {
-        let mut s = format!("{}\n", doc.title);
+        let mut s = hanging("", &doc.title);
         for section in &doc.sections {
             s.push_str(&self.section(section, 1));
         }
@@ -407,6 +655,38 @@ mod tests {
             Markdown.document(&doc),
             "# T\n\n## S\n\n**2 fail**, a\\|b\n\n### Sub\n\n- `f:1`: m\n"
         );
+    }
+
+    // Greedy line filling between words: common practice, no source.
+    #[test]
+    fn wrap_breaks_between_words_and_compounds_never_in_numbers_or_ids() {
+        assert_eq!(wrap("hydrant-pressure", 10), ["hydrant-", "pressure"]);
+        assert_eq!(wrap("HYD-124 at -3018", 8), ["HYD-124", "at -3018"]);
+        assert_eq!(wrap("abcdefghij", 4), ["abcd", "efgh", "ij"]);
+        assert_eq!(wrap("", 5), [""]);
+    }
+
+    #[test]
+    fn a_wide_terminal_table_wraps_titles_and_text_but_not_numbers() {
+        let long = "word ".repeat(40);
+        let t = Table::new(strings(&["flow (gpm)", "reasons"])).with_rows([vec![
+            "-123456789012".to_string(),
+            long.trim_end().to_string(),
+        ]]);
+        let drawn = Terminal.table(&t);
+        assert!(drawn.lines().all(|l| l.chars().count() <= TERMINAL_WIDTH));
+        assert!(drawn.contains("-123456789012"));
+        // A narrow table is drawn as it is.
+        let narrow = Table::new(strings(&["a b c"])).with_rows([strings(&["1"])]);
+        assert!(Terminal.table(&narrow).contains("│ a b c │"));
+    }
+
+    #[test]
+    fn without_columns_drops_columns_by_title() {
+        let t = Table::new(strings(&["a", "b", "c"])).with_rows([strings(&["1", "2", "3"])]);
+        let t = t.without_columns(&["b"]);
+        assert_eq!(t.header, Some(strings(&["a", "c"])));
+        assert_eq!(t.rows, vec![strings(&["1", "3"])]);
     }
 
     #[test]

@@ -2,7 +2,7 @@
 //! network's pipes.csv, and a Markdown report.
 
 use super::check::CheckReport;
-use super::table::{Document, Markdown, Markup, Section, Table, Terminal, Text};
+use super::table::{hanging, Document, Markdown, Markup, Section, Table, Terminal, Text};
 use super::{
     csv_bytes, input_warnings_section, num, plain_number, Out, OutputFile, OutputSet, ReportError,
     CAUTIONS,
@@ -133,13 +133,13 @@ impl UpsizeReport<'_> {
     /// The terminal report.
     pub fn terminal(&self) -> String {
         let mut s = String::new();
-        s.push_str(&format!("Network:    {}\n", self.network.name));
-        s.push_str(&format!("Criteria:   {}\n", self.after.criteria.name));
-        s.push_str(&format!("Plan:       {}\n", self.headline()));
+        s.push_str(&hanging("Network:    ", &self.network.name));
+        s.push_str(&hanging("Criteria:   ", &self.after.criteria.name));
+        s.push_str(&hanging("Plan:       ", &self.headline()));
         for a in &self.plan.set_aside {
-            s.push_str(&format!(
-                "Set aside:  {}: {}\n",
-                self.network.hydrants[a.hydrant].id, a.reason
+            s.push_str(&hanging(
+                "Set aside:  ",
+                &format!("{}: {}", self.network.hydrants[a.hydrant].id, a.reason),
             ));
         }
         let newly = self.newly_failing();
@@ -148,19 +148,25 @@ impl UpsizeReport<'_> {
                 .iter()
                 .map(|r| self.network.hydrants[r.hydrant].id.as_str())
                 .collect();
-            s.push_str(&format!(
-                "Warning:    hydrants that passed before fail with the plan: {}\n",
-                ids.join(", ")
+            s.push_str(&hanging(
+                "Warning:    ",
+                &format!(
+                    "hydrants that passed before fail with the plan: {}",
+                    ids.join(", ")
+                ),
             ));
         }
         let o = self.out();
-        s.push_str(&format!(
-            "Service:    with the plan, {} of {} junctions outside {}-{} {}\n",
-            self.after.service.exceptions().count(),
-            self.after.service.rows.len(),
-            num(o.pressure(self.after.criteria.service_min_kpa), 0),
-            num(o.pressure(self.after.criteria.service_max_kpa), 0),
-            o.sym(Quantity::Pressure)
+        s.push_str(&hanging(
+            "Service:    ",
+            &format!(
+                "with the plan, {} of {} junctions outside {}-{} {}",
+                self.after.service.exceptions().count(),
+                self.after.service.rows.len(),
+                num(o.pressure(self.after.criteria.service_min_kpa), 0),
+                num(o.pressure(self.after.criteria.service_max_kpa), 0),
+                o.sym(Quantity::Pressure)
+            ),
         ));
         s.push_str(
             "A screening proposal: a licensed engineer must design and check any replacement.\n",
@@ -305,7 +311,11 @@ impl UpsizeReport<'_> {
         Section::untitled()
             .paragraph(format!(
                 "Criteria: {} ({}). Date: {}. Run id: {}. Produced by firemain {}.",
-                criteria.name, criteria.reference, self.generated, self.after.run_id, self.version
+                criteria.name,
+                criteria.reference,
+                super::date_of(&self.generated),
+                self.after.run_id,
+                self.version
             ))
             .paragraph(self.headline())
             .paragraph(format!(

@@ -1,6 +1,6 @@
 //! Report of `firemain validate`: the findings, then a summary of the network.
 
-use super::table::{Markup, Section, Table, Terminal};
+use super::table::{hanging, Markup, Section, Table, Terminal};
 use super::{num, Out};
 use crate::model::validate::NetworkSummary;
 use crate::model::{Diagnostics, Network, Severity};
@@ -63,7 +63,7 @@ pub fn summary(net: &Network, sum: &NetworkSummary) -> String {
     let o = Out::new(net.units);
     let units: UnitSystem = net.units;
     let mut s = String::new();
-    s.push_str(&format!("Network:   {}\n", net.name));
+    s.push_str(&hanging("Network:   ", &net.name));
     s.push_str(&format!(
         "Units:     {} ({}); head loss: {}\n",
         units.name(),
@@ -79,9 +79,12 @@ pub fn summary(net: &Network, sum: &NetworkSummary) -> String {
         .join(", "),
         net.headloss.name()
     ));
-    s.push_str(&format!(
-        "Elements:  {} junctions, {} reservoirs, {} tanks, {} pipes, {} pumps, {} valves, {} hydrants, {} zones\n",
-        sum.junctions, sum.reservoirs, sum.tanks, sum.pipes, sum.pumps, sum.valves, sum.hydrants, sum.zones.len()
+    s.push_str(&hanging(
+        "Elements:  ",
+        &format!(
+            "{} junctions, {} reservoirs, {} tanks, {} pipes, {} pumps, {} valves, {} hydrants, {} zones",
+            sum.junctions, sum.reservoirs, sum.tanks, sum.pipes, sum.pumps, sum.valves, sum.hydrants, sum.zones.len()
+        ),
     ));
     let f = o.sym(Quantity::Flow);
     s.push_str(&format!(

@@ -4,9 +4,9 @@
 use std::collections::BTreeMap;
 
 use super::{CheckReport, SUPPLY_PIPES_SHOWN, WEAK_MAINS_SHOWN};
-use crate::fireflow::{HydrantResult, Outcome};
+use crate::fireflow::{HydrantResult, LimitedBy, Outcome};
 use crate::report::table::{Document, Markdown, Markup, Section, Table, Text};
-use crate::report::{input_warnings_section, num, CAUTIONS};
+use crate::report::{date_of, input_warnings_section, num, CAUTIONS};
 use crate::units::Quantity;
 
 impl CheckReport<'_> {
@@ -17,16 +17,19 @@ impl CheckReport<'_> {
 
     /// The report's sections, in order: the one place that order is declared.
     pub fn document(&self) -> Document {
+        // The title block first; then what the figures rest on (cautions, assumptions, input
+        // warnings) before the first figure; the legend of the compliance table right before it.
         let mut sections: Vec<Section> = self.title_block_section().into_iter().collect();
         sections.extend([
             self.facts_section(),
-            self.summary_section(),
+            self.cautions_section(),
             input_warnings_section(self.input_warnings),
+            self.summary_section(),
+            self.legend_section(),
             self.compliance_section(),
         ]);
         sections.extend(self.weak_mains_section());
         sections.push(self.service_section());
-        sections.push(Section::titled("Cautions").list(CAUTIONS.iter().map(|&c| c.into())));
         sections.push(self.units_section());
         Document {
             title: format!("Fire-flow screening report: {}", self.network.name),
@@ -89,13 +92,88 @@ impl CheckReport<'_> {
                 ),
             ),
             ("Field flow tests", self.field_tests_line()),
-            ("Date", self.generated.clone()),
+            ("Date", date_of(&self.generated).to_string()),
             ("Run id", self.run_id.clone()),
             ("Produced by", format!("firemain {}", self.version)),
         ];
         Section::untitled().table(
             Table::untitled().with_rows(rows.into_iter().map(|(k, v)| vec![k.to_string(), v])),
         )
+    }
+
+    /// The cautions, and the assumptions of the analysis in plain words.
+    fn cautions_section(&self) -> Section {
+        let net = self.network;
+        let assumptions = [
+            "Steady state: the network is solved at one instant; tank levels do not fall over the duration of a fire.".to_string(),
+            "Demand-driven: every junction receives its demand whatever its pressure, so a pressure computed below zero means the mains cannot carry that flow, not that less water is drawn.".to_string(),
+            format!(
+                "One hydrant flows at a time, on top of max-day demand ({} x average day); fires at two places at once are not analysed.",
+                net.demand_factors.max_day
+            ),
+            "Sources (reservoirs and tanks) are held at the fixed grades listed above.".to_string(),
+        ];
+        Section::titled("Cautions and assumptions")
+            .paragraph("Assumptions of the analysis:")
+            .list(assumptions.into_iter().map(Text::from))
+            .paragraph("Cautions:")
+            .list(CAUTIONS.iter().map(|&c| c.into()))
+    }
+
+    /// The legend of the compliance table: every column, in the network's units, and every
+    /// value the "requirement", "limited by" and "result" columns can take.
+    fn legend_section(&self) -> Section {
+        let o = self.out();
+        let (f, p) = (o.sym(Quantity::Flow), o.sym(Quantity::Pressure));
+        let floor = format!(
+            "{} {p}",
+            num(o.pressure(self.criteria.residual_floor_kpa), 1)
+        );
+        let velocity = match self.criteria.max_velocity_m_per_s {
+            Some(v) => format!(
+                " and every open pipe within {} {}",
+                num(o.velocity(v), 1),
+                o.sym(Quantity::Velocity)
+            ),
+            None => String::new(),
+        };
+        let meanings = [
+            "The hydrant's id (hydrants.csv).".to_string(),
+            "The pressure zone of the hydrant's junction (empty when it has none).".to_string(),
+            "The junction the hydrant is on, where its fire flow is drawn.".to_string(),
+            "Where the required flow comes from: a hydrant class name of the criteria; \"own value\", the hydrant's own required flow in hydrants.csv; \"default\", the criteria's default required flow.".to_string(),
+            format!("The fire flow the hydrant must deliver, in {f}."),
+            format!(
+                "The largest fire flow, in {f}, that keeps every constrained junction (see the fire-flow condition above) at or above the residual floor of {floor}{velocity}, verified by an ordinary solve at that flow and rounded down; at most the search cap ({} {f}).",
+                o.flow_text(self.criteria.search_cap_m3s)
+            ),
+            format!("Available minus required, in {f}; negative when the hydrant fails."),
+            format!("Pressure at the hydrant's junction, in {p}, with max-day demand and no fire flow."),
+            format!("Pressure at the hydrant's junction, in {p}, while the required flow is drawn (not the available flow); \"below 0\" when the mains cannot carry the required flow."),
+            format!(
+                "What stops the available flow: \"{}\", the hydrant's own junction reaches the floor; \"{}\", another constrained junction reaches the floor first; \"{}\", a pipe reaches the velocity limit; \"{}\", the search cap is reached with every constraint still met; \"{}\", there is no hydraulic solution at a larger flow (the notes say why). Empty for an error.",
+                LimitedBy::HydrantPressure.name(),
+                LimitedBy::SystemPressure.name(),
+                LimitedBy::Velocity.name(),
+                LimitedBy::Cap.name(),
+                LimitedBy::NoSolution.name()
+            ),
+            "The junction (pressure) or pipe (velocity) that binds at the available flow; empty when none binds (at the cap, say).".to_string(),
+            format!(
+                "\"{}\": available at least required; \"{}\": available below required (including a floor already violated without fire flow, reported as 0 available); \"{}\": no verified answer for this hydrant (the notes say why).",
+                Outcome::Pass.name(),
+                Outcome::Fail.name(),
+                Outcome::Error.name()
+            ),
+        ];
+        let header = self.table_header();
+        debug_assert_eq!(header.len(), meanings.len(), "one meaning per column");
+        let rows = header
+            .into_iter()
+            .zip(meanings)
+            .map(|(column, meaning)| vec![column, meaning]);
+        Section::titled("Columns of the compliance table")
+            .table(Table::new(vec!["column".into(), "meaning".into()]).with_rows(rows))
     }
 
     /// The model against the field, in the network's units; says so when nothing checked it.
