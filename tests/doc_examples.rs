@@ -127,6 +127,8 @@ fn demo_sources() -> BTreeMap<String, String> {
         "examples/demo-town",
         "--criteria",
         "criteria/cedar-county-demo.toml",
+        "--project",
+        "examples/demo-town/project.toml",
         "--stats",
         "--out",
         c.to_str().expect("UTF-8 path"),

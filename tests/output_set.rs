@@ -158,6 +158,7 @@ fn every_file_of_a_run_shares_its_run_id_and_reruns_differ_only_in_it() {
             "service.csv",
             "weak_mains.csv",
             "report.md",
+            "report.html",
             "report.json"
         ]
     );

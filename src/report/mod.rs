@@ -97,15 +97,37 @@ pub fn input_warnings_section(warnings: &[Diagnostic]) -> table::Section {
             warnings.len()
         ))
         .list(warnings.iter().map(|d| {
-            table::Text::new().code(d.location.to_string()).plain(format!(
+            let text = format!(
                 ": {}{}",
                 d.message,
                 d.fix
                     .as_ref()
                     .map(|f| format!("; fix: {f}"))
                     .unwrap_or_default()
-            ))
+            );
+            with_code_spans(table::Text::new().code(d.location.to_string()), &text)
         }))
+}
+
+/// Appends `text` to `t`, its backquoted parts (ids and values in a diagnostic's message, such as
+/// `P001`) as code spans, so that every format draws them as literal text.
+pub fn with_code_spans(mut t: table::Text, text: &str) -> table::Text {
+    let parts: Vec<&str> = text.split('`').collect();
+    // An unpaired backquote is plain text.
+    let paired = parts.len() % 2 == 1;
+    for (k, part) in parts.iter().enumerate() {
+        if part.is_empty() {
+            continue;
+        }
+        if k % 2 == 1 && (paired || k + 1 < parts.len()) {
+            t = t.code(*part);
+        } else if k % 2 == 1 {
+            t = t.plain(format!("`{part}"));
+        } else {
+            t = t.plain(*part);
+        }
+    }
+    t
 }
 
 /// One input warning in `report.json`.

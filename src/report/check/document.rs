@@ -96,7 +96,7 @@ impl CheckReport<'_> {
             ("Run id", self.run_id.clone()),
             ("Produced by", format!("firemain {}", self.version)),
         ];
-        Section::untitled().table(
+        Section::titled("Analysis").table(
             Table::untitled().with_rows(rows.into_iter().map(|(k, v)| vec![k.to_string(), v])),
         )
     }
@@ -181,7 +181,7 @@ impl CheckReport<'_> {
         let o = self.out();
         let p = o.sym(Quantity::Pressure);
         match self.field_tests {
-            None => "none given (`--tests`): the model's roughness, valve positions and source levels are unchecked against the field".to_string(),
+            None => "none given (option --tests): the model's roughness, valve positions and source levels are unchecked against the field".to_string(),
             Some(f) => {
                 let worst = f
                     .worst
