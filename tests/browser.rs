@@ -11,12 +11,6 @@
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-const DEMO: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/examples/demo-town");
-const CRITERIA: &str = concat!(
-    env!("CARGO_MANIFEST_DIR"),
-    "/criteria/cedar-county-demo.toml"
-);
-
 /// The browser to use: `FIREMAIN_CHROMIUM`, else `chromium` on the PATH.
 fn browser() -> Option<PathBuf> {
     if let Some(path) = std::env::var_os("FIREMAIN_CHROMIUM") {
@@ -57,12 +51,18 @@ fn console_lines(stderr: &str) -> Vec<&str> {
 
 /// Writes the demo's report set with a title block and the field tests.
 fn demo_report(out: &Path) -> PathBuf {
+    // Run from the repository root with relative paths, as the README does, so that the page
+    // (and the screenshot kept for the README) names the files as a user would see them.
     let status = Command::new(env!("CARGO_BIN_EXE_firemain"))
-        .args(["check", DEMO, "--criteria", CRITERIA, "--quiet"])
-        .arg("--project")
-        .arg(Path::new(DEMO).join("project.toml"))
-        .arg("--tests")
-        .arg(Path::new(DEMO).join("flowtests.csv"))
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .args([
+            "check",
+            "examples/demo-town",
+            "--criteria",
+            "criteria/cedar-county-demo.toml",
+        ])
+        .args(["--quiet", "--project", "examples/demo-town/project.toml"])
+        .args(["--tests", "examples/demo-town/flowtests.csv"])
         .arg("--out")
         .arg(out)
         .env("SOURCE_DATE_EPOCH", "1796256000")
