@@ -156,4 +156,28 @@ fn the_demo_report_renders_in_chromium_with_every_hydrant_and_no_console_error()
     let bytes = std::fs::read(&png).expect("screenshot written");
     // A PNG file begins with its 8-byte signature (PNG specification, 3rd ed., §5.2).
     assert!(bytes.starts_with(b"\x89PNG\r\n\x1a\n") && bytes.len() > 10_000);
+
+    // Printed to PDF, as a reviewer would file it: several pages (each major part starts one).
+    let pdf = shots.join("demo-report.pdf");
+    let print = headless(&chromium, &dir.path().join("profile-pdf"))
+        .arg("--no-pdf-header-footer")
+        .arg(format!("--print-to-pdf={}", pdf.display()))
+        .arg(&url)
+        .output()
+        .expect("run chromium");
+    let stderr = String::from_utf8_lossy(&print.stderr);
+    assert!(print.status.success(), "chromium failed: {stderr}");
+    let bytes = std::fs::read(&pdf).expect("PDF written");
+    // A PDF file begins with `%PDF-` and lists each page as an object of type /Page (ISO
+    // 32000-1:2008, §7.5.2 and §7.7.3.3).
+    assert!(bytes.starts_with(b"%PDF-"));
+    let pages = bytes
+        .windows(12)
+        .filter(|w| (w.starts_with(b"/Type /Page") && w[11] != b's'))
+        .count()
+        + bytes
+            .windows(11)
+            .filter(|w| w.starts_with(b"/Type/Page") && w[10] != b's')
+            .count();
+    assert!(pages >= 5, "{pages} pages");
 }
