@@ -173,7 +173,7 @@ fn the_demo_report_renders_in_chromium_with_every_hydrant_and_no_console_error()
     assert!(bytes.starts_with(b"%PDF-"));
     let pages = bytes
         .windows(12)
-        .filter(|w| (w.starts_with(b"/Type /Page") && w[11] != b's'))
+        .filter(|w| w.starts_with(b"/Type /Page") && w[11] != b's')
         .count()
         + bytes
             .windows(11)
