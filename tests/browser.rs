@@ -44,6 +44,19 @@ fn headless(chromium: &Path, profile: &Path) -> Command {
     cmd
 }
 
+/// Runs the browser to its end; it must succeed and log no console message. Returns stdout.
+fn run_clean(mut cmd: Command) -> Vec<u8> {
+    let out = cmd.output().expect("run chromium");
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(out.status.success(), "chromium failed: {stderr}");
+    assert_eq!(
+        console_lines(&stderr),
+        Vec::<&str>::new(),
+        "console messages"
+    );
+    out.stdout
+}
+
 /// Console messages among the browser's log lines.
 fn console_lines(stderr: &str) -> Vec<&str> {
     stderr.lines().filter(|l| l.contains(":CONSOLE")).collect()
@@ -98,18 +111,9 @@ fn the_demo_report_renders_in_chromium_with_every_hydrant_and_no_console_error()
     let page = demo_report(&out);
     let url = format!("file://{}", page.display());
 
-    let dom = headless(&chromium, &dir.path().join("profile-dom"))
-        .args(["--dump-dom", &url])
-        .output()
-        .expect("run chromium");
-    let stderr = String::from_utf8_lossy(&dom.stderr);
-    assert!(dom.status.success(), "chromium failed: {stderr}");
-    assert_eq!(
-        console_lines(&stderr),
-        Vec::<&str>::new(),
-        "console messages"
-    );
-    let dom = String::from_utf8(dom.stdout).expect("UTF-8 DOM");
+    let mut cmd = headless(&chromium, &dir.path().join("profile-dom"));
+    cmd.args(["--dump-dom", &url]);
+    let dom = String::from_utf8(run_clean(cmd)).expect("UTF-8 DOM");
 
     assert!(
         dom.contains("data-script=\"ran\""),
@@ -140,33 +144,22 @@ fn the_demo_report_renders_in_chromium_with_every_hydrant_and_no_console_error()
     let shots = Path::new(env!("CARGO_TARGET_TMPDIR")).join("browser");
     std::fs::create_dir_all(&shots).expect("screenshot folder");
     let png = shots.join("demo-report.png");
-    let shot = headless(&chromium, &dir.path().join("profile-shot"))
-        .arg("--window-size=1280,2200")
+    let mut cmd = headless(&chromium, &dir.path().join("profile-shot"));
+    cmd.arg("--window-size=1280,2200")
         .arg(format!("--screenshot={}", png.display()))
-        .arg(&url)
-        .output()
-        .expect("run chromium");
-    let stderr = String::from_utf8_lossy(&shot.stderr);
-    assert!(shot.status.success(), "chromium failed: {stderr}");
-    assert_eq!(
-        console_lines(&stderr),
-        Vec::<&str>::new(),
-        "console messages"
-    );
+        .arg(&url);
+    run_clean(cmd);
     let bytes = std::fs::read(&png).expect("screenshot written");
     // A PNG file begins with its 8-byte signature (PNG specification, 3rd ed., §5.2).
     assert!(bytes.starts_with(b"\x89PNG\r\n\x1a\n") && bytes.len() > 10_000);
 
     // Printed to PDF, as a reviewer would file it: several pages (each major part starts one).
     let pdf = shots.join("demo-report.pdf");
-    let print = headless(&chromium, &dir.path().join("profile-pdf"))
-        .arg("--no-pdf-header-footer")
+    let mut cmd = headless(&chromium, &dir.path().join("profile-pdf"));
+    cmd.arg("--no-pdf-header-footer")
         .arg(format!("--print-to-pdf={}", pdf.display()))
-        .arg(&url)
-        .output()
-        .expect("run chromium");
-    let stderr = String::from_utf8_lossy(&print.stderr);
-    assert!(print.status.success(), "chromium failed: {stderr}");
+        .arg(&url);
+    run_clean(cmd);
     let bytes = std::fs::read(&pdf).expect("PDF written");
     // A PDF file begins with `%PDF-` and lists each page as an object of type /Page (ISO
     // 32000-1:2008, §7.5.2 and §7.7.3.3).
