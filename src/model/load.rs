@@ -13,7 +13,7 @@ use super::diagnostic::{Diagnostics, Location};
 use super::limits;
 use super::network::{
     DemandFactors, HeadlossFormula, Hydrant, Link, LinkKind, Network, Node, NodeKind, Pipe,
-    PipeStatus, Pump, Valve, ValveKind, ValveStatus,
+    PipeStatus, Pump, TankStorage, Valve, ValveKind, ValveStatus,
 };
 use super::table::{read_table, Cell, Cells, Row, Table, TableSpec};
 use super::toml_input::{read_toml, span_location};
@@ -51,7 +51,16 @@ const JUNCTIONS: TableSpec<'static> = TableSpec {
     required: &["id", "elevation"],
 };
 const SOURCES: TableSpec<'static> = TableSpec {
-    known: &["id", "kind", "grade", "x", "y"],
+    known: &[
+        "id",
+        "kind",
+        "grade",
+        "x",
+        "y",
+        "diameter",
+        "min_level",
+        "max_level",
+    ],
     required: &["id", "kind", "grade"],
 };
 /// The columns of pipes.csv (`material` is an optional extra that firemain keeps).
@@ -413,6 +422,7 @@ impl Reader {
                     zone: None,
                     position,
                     line: row.line,
+                    storage: None,
                 },
                 zone,
             ));
@@ -439,10 +449,13 @@ impl Reader {
             let grade = c.required_number("grade", Quantity::Length);
             let grade = c.within(grade, "grade", &limits::ELEVATION);
             let position = c.position();
-            let (Some(id), Some(kind), Some(grade)) = (id, kind, grade) else {
+            let storage = tank_storage(&mut c);
+            let (Some(id), Some(kind), Some(grade), Some(storage)) = (id, kind, grade, storage)
+            else {
                 self.broken_row_id(t, row);
                 continue;
             };
+            let storage = self.check_storage(t, row, kind, grade, storage);
             let index = self.nodes.len();
             if !self.claim_node_id(&id, file, index) {
                 continue;
@@ -457,10 +470,68 @@ impl Reader {
                     zone: None,
                     position,
                     line: row.line,
+                    storage,
                 },
                 None,
             ));
         }
+    }
+
+    /// The storage columns against the source's kind and grade: ignored with a warning for a
+    /// reservoir; for a tank, `min_level` below `max_level` and the grade between them (an
+    /// error at the cell to fix; the storage is then dropped, the grade kept).
+    fn check_storage(
+        &mut self,
+        t: &Table,
+        row: &Row,
+        kind: NodeKind,
+        grade: f64,
+        storage: TankStorage,
+    ) -> Option<TankStorage> {
+        let file = t.file.as_str();
+        let given = storage.diameter_m.is_some()
+            || storage.min_level_m.is_some()
+            || storage.max_level_m.is_some();
+        if !given {
+            return None;
+        }
+        if kind != NodeKind::Tank {
+            self.diags.warning(
+                Location::line(file, row.line),
+                "`diameter`, `min_level` and `max_level` describe a tank; a reservoir's are ignored",
+                "leave them empty for a reservoir, or make the source a tank",
+            );
+            return None;
+        }
+        let units = self.units;
+        let shown = |v: f64| display_value(units.from_si(Quantity::Length, v));
+        let u = units.symbol(Quantity::Length);
+        if let (Some(lo), Some(hi)) = (storage.min_level_m, storage.max_level_m) {
+            if lo >= hi {
+                self.diags.error(
+                    t.cell(row, "max_level").location(file),
+                    format!("`max_level` {} {u} is not above `min_level` {} {u}", shown(hi), shown(lo)),
+                    "give the levels as water-surface elevations on the datum of `grade`, the highest above the lowest",
+                );
+                return None;
+            }
+        }
+        let below = storage.min_level_m.filter(|&lo| grade < lo);
+        let above = storage.max_level_m.filter(|&hi| grade > hi);
+        if let Some(level) = below.or(above) {
+            self.diags.error(
+                t.cell(row, "grade").location(file),
+                format!(
+                    "tank grade {} {u} lies outside its levels (the {} level is {} {u})",
+                    shown(grade),
+                    if below.is_some() { "lowest" } else { "highest" },
+                    shown(level)
+                ),
+                "give the grade, `min_level` and `max_level` as water-surface elevations on one datum, the grade between the two levels",
+            );
+            return None;
+        }
+        Some(storage)
     }
 
     /// Reads `from` and `to`; `None` if either is unknown.
@@ -894,6 +965,34 @@ impl Reader {
         }
         out
     }
+}
+
+/// The optional storage columns of a sources.csv row, SI; `None` when a given cell is in error
+/// (already reported), so that the row is dropped.
+fn tank_storage(c: &mut Cells<'_, '_>) -> Option<TankStorage> {
+    let diameter = c.number("diameter", Quantity::Length);
+    let diameter = c.positive(
+        diameter,
+        "diameter",
+        "give the tank's inside diameter in ft or m (the length unit)",
+    );
+    let diameter = c.within(diameter, "diameter", &limits::TANK_DIAMETER);
+    let min_level = c.number("min_level", Quantity::Length);
+    let min_level = c.within(min_level, "min_level", &limits::ELEVATION);
+    let max_level = c.number("max_level", Quantity::Length);
+    let max_level = c.within(max_level, "max_level", &limits::ELEVATION);
+    let broken = |name: &str, v: Option<f64>| !c.cell(name).is_empty() && v.is_none();
+    if broken("diameter", diameter)
+        || broken("min_level", min_level)
+        || broken("max_level", max_level)
+    {
+        return None;
+    }
+    Some(TankStorage {
+        diameter_m: diameter,
+        min_level_m: min_level,
+        max_level_m: max_level,
+    })
 }
 
 /// Fits head = a − b·q^c through the shutoff head `a` and two points (q1, h1), (q2, h2).

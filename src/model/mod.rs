@@ -15,7 +15,7 @@ pub use diagnostic::{Diagnostic, Diagnostics, Location, Severity};
 pub use load::{load_network, Loaded};
 pub use network::{
     DemandFactors, HeadlossFormula, Hydrant, Link, LinkKind, Network, Node, NodeKind, Pipe,
-    PipeStatus, Pump, Valve, ValveKind, ValveStatus,
+    PipeStatus, Pump, TankStorage, Valve, ValveKind, ValveStatus,
 };
 
 /// The files of a network folder, in the order a copy of the network lists them: `model.toml`

@@ -65,6 +65,21 @@ pub struct Node {
     pub position: Option<[f64; 2]>,
     /// Line of the element in its file, for messages.
     pub line: u64,
+    /// A tank's storage, from the optional `diameter`, `min_level`, `max_level` columns of
+    /// sources.csv; `None` for junctions, reservoirs and tanks without them.
+    pub storage: Option<TankStorage>,
+}
+
+/// The storage of a cylindrical tank (sources.csv, docs/network-format.md §7). Levels are
+/// water-surface elevations on the datum of `grade` (m), like the tank's grade itself.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct TankStorage {
+    /// Inside diameter, m.
+    pub diameter_m: Option<f64>,
+    /// Lowest usable water-surface elevation, m.
+    pub min_level_m: Option<f64>,
+    /// Highest (overflow) water-surface elevation, m.
+    pub max_level_m: Option<f64>,
 }
 
 impl Node {
