@@ -59,7 +59,11 @@ fn assert_resolves_above_floor(net: &Network, demand_factor: f64, r: &GroupResul
         (total - r.total_m3s.expect("a total")).abs() < 1e-12,
         "the shares sum to the total"
     );
-    let sol = netkit::solve(net, demand_factor, &extra);
+    assert_eq!(
+        demand_factor, 1.0,
+        "the test networks' max day is average day"
+    );
+    let sol = ordinary_solve(net, &extra);
     for j in 0..net.n_junctions {
         let p = sol.pressure_kpa(net, j);
         assert!(
@@ -69,6 +73,27 @@ fn assert_resolves_above_floor(net: &Network, demand_factor: f64, r: &GroupResul
             r.shares_m3s
         );
     }
+}
+
+/// An ordinary solve of a test network (max day = average day) with `extra` withdrawals, to
+/// `Tolerance::STEADY`: from a cold start, and where that finds no steady state, from the
+/// state without extra withdrawals (as tests/verified_answers.rs does: a start the solver
+/// cannot work from is no verdict on the flow).
+fn ordinary_solve(net: &Network, extra: &[(usize, f64)]) -> firemain::hydraulics::Solution {
+    let h = Hydraulics::new(net).expect("prepare");
+    let mut ws = h.workspace();
+    let request = |extra| firemain::hydraulics::SolveRequest {
+        demand_factor: 1.0,
+        extra_demand: extra,
+        fixed_head: None,
+    };
+    h.solve(&mut ws, &request(extra), &h.cold_start())
+        .or_else(|_| {
+            let base = h.solve(&mut ws, &request(&[]), &h.cold_start())?;
+            ws.forget_factor();
+            h.solve(&mut ws, &request(extra), &base)
+        })
+        .unwrap_or_else(|e| panic!("no steady state at {extra:?}: {e}"))
 }
 
 /// Two hydrant branches from one reservoir: R → A (length `la`) and R → B (length `lb`), both
@@ -277,4 +302,57 @@ fn assert_resolves_demo(net: &Network, setup: &FireFlowSetup<'_>, r: &GroupResul
         net.nodes[check.pressure_junction].id,
         -check.pressure_margin_kpa
     );
+}
+
+/// A second source behind a check valve that opens during the fire (reservoir R 80 m →
+/// M 2000 m 200 mm C 100; source T at 50 m → M through a check-valve pipe 500 m 200 mm C 100;
+/// hydrants A and B on 150 mm branches of 300 m and 600 m from M, all at elevation 0): element
+/// states change, so the first-crossing check runs. Source of the expected value: a brute-force
+/// scan with the ordinary solver (cold start, `Tolerance::STEADY`) over totals in steps of
+/// 0.1 L/s with the even split, the first failing total bounding the answer from above.
+#[test]
+fn check_valve_opening_during_the_group_flow() {
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 80.0)
+        .reservoir("T", 50.0)
+        .junction("M", 0.0, 0.0)
+        .junction("A", 0.0, 0.0)
+        .junction("B", 0.0, 0.0)
+        .pipe("PR", "R", "M", 2000.0, 200.0, 100.0)
+        .check_pipe("PT", "T", "M", 500.0, 200.0, 100.0)
+        .pipe("PA", "M", "A", 300.0, 150.0, 100.0)
+        .pipe("PB", "M", "B", 600.0, 150.0, 100.0)
+        .hydrant("HA", "A", None)
+        .hydrant("HB", "B", None);
+    let net = f.load();
+    let c = criteria(&net, FLOOR_KPA, CAP_LPS, 50.0);
+    let (a, b) = (net.node_by_id("A").unwrap(), net.node_by_id("B").unwrap());
+    let passes = |q: f64| {
+        let sol = ordinary_solve(&net, &[(a, q / 2.0), (b, q / 2.0)]);
+        (0..net.n_junctions).all(|j| sol.pressure_kpa(&net, j) >= FLOOR_KPA)
+    };
+    let step = 1.0e-4;
+    let mut first_failing = step;
+    while passes(first_failing) {
+        first_failing += step;
+    }
+    let even = group(&net, &c, Split::Even);
+    let total = even.total_m3s.unwrap();
+    let accuracy = (0.005 * first_failing).max(1.0e-4);
+    assert!(
+        total < first_failing && total >= first_failing - step - accuracy,
+        "even {total} vs scan's first failing {first_failing}"
+    );
+    assert_resolves_above_floor(&net, 1.0, &even);
+    // The check valve is open at the answer: the scan reached past its opening.
+    let at_answer = ordinary_solve(&net, &[(a, total / 2.0), (b, total / 2.0)]);
+    let pt = net.link_by_id("PT").unwrap();
+    assert!(
+        at_answer.flows_m3s[pt] > 1e-4,
+        "{}",
+        at_answer.flows_m3s[pt]
+    );
+    let equal = group(&net, &c, Split::EqualResidual);
+    assert!(equal.total_m3s.unwrap() >= total - accuracy, "{:?}", equal);
+    assert_resolves_above_floor(&net, 1.0, &equal);
 }

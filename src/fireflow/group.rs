@@ -666,8 +666,9 @@ impl GroupSearch<'_, '_> {
     /// restarts the bracket between the last total checked and the failing one; the stretch
     /// from there to the new answer is checked again (a quarter of the grid), up to
     /// [`FIRST_CROSSING_ROUNDS`] times, after which the last total checked is kept (the safe
-    /// side). Unlike the single search, the small gap before a located change is not bounded
-    /// by an extrapolated slope: the total just below it is solved and checked instead.
+    /// side). Unlike the single search, the small gap between the last total solved before a
+    /// located change (1/32 of a grid step) and the change is not bounded by an extrapolated
+    /// slope.
     fn first_crossing(
         &mut self,
         b: &mut Bracket,
