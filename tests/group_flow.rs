@@ -356,3 +356,75 @@ fn check_valve_opening_during_the_group_flow() {
     assert!(equal.total_m3s.unwrap() >= total - accuracy, "{:?}", equal);
     assert_resolves_above_floor(&net, 1.0, &equal);
 }
+
+/// Hazen-Williams closed form (Williams & Hazen 1920, SI form, as above) for a hydrant's lead:
+/// `lateral_headloss_m` equals r_L q^1.852 with r_L of the lateral's length, diameter and C
+/// (default C 100 when `lateral_roughness` is empty). With a lead on each of two symmetric
+/// branches, a hydrant reaches the floor when G − (r + r_L) q^1.852 = floor/γ, so the group
+/// delivers 2 ((G − floor/γ)/(r + r_L))^(1/1.852), below the 2 ((G − floor/γ)/r)^(1/1.852)
+/// of the same branches without leads.
+#[test]
+fn laterals_lower_the_hydrants_own_pressure() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 100.0)
+        .junction("A", 0.0, 0.0)
+        .junction("B", 0.0, 0.0)
+        .pipe("PA", "R", "A", 1000.0, 200.0, 120.0)
+        .pipe("PB", "R", "B", 1000.0, 200.0, 120.0);
+    f.write_to(dir.path());
+    std::fs::write(
+        dir.path().join("hydrants.csv"),
+        "id,junction,lateral_length,lateral_diameter,lateral_roughness\nHA,A,20,150,\nHB,B,20,150,100\n",
+    )
+    .expect("write");
+    let net = load_dir(dir.path());
+    let lateral = net.hydrants[0].lateral.expect("a lateral");
+    assert_eq!(Some(lateral), net.hydrants[1].lateral);
+    let r_l = hw_resistance(20.0, 0.15, 100.0);
+    for q in [0.01, 0.05, 0.12] {
+        let got = firemain::fireflow::lateral_headloss_m(net.headloss, &lateral, q);
+        let want = r_l * q.powf(1.852);
+        assert!(
+            (got - want).abs() <= 1e-12 * want.max(1.0),
+            "{got} vs {want}"
+        );
+    }
+    let c = criteria(&net, FLOOR_KPA, CAP_LPS, 50.0);
+    let r = hw_resistance(1000.0, 0.2, 120.0);
+    let exact_at = |s: f64| 2.0 * hw_flow(r + r_l, 100.0 - floor_head_m() + s);
+    for split in [Split::EqualResidual, Split::Even] {
+        let g = group(&net, &c, split);
+        assert_within_promise(split.name(), g.total_m3s.unwrap(), exact_at(0.0), exact_at);
+        assert_eq!(g.limited_by, Some(LimitedBy::HydrantPressure));
+        // The residual reported is the hydrant's, after its lead: γ (G − (r + r_L) q^1.852)
+        // at its share q, and at or above the floor.
+        for (&q, &p) in g.shares_m3s.iter().zip(&g.residual_kpa) {
+            let expected = (100.0 - (r + r_l) * q.powf(1.852)) * KPA_PER_M;
+            assert!((p - expected).abs() < 0.01, "{p} vs {expected}");
+            assert!(p >= FLOOR_KPA - FLOOR_TOLERANCE_KPA, "{p}");
+        }
+    }
+}
+
+/// The loader's rule for leads (docs/network-format.md §9): length and diameter go together,
+/// reported at the empty cell.
+#[test]
+fn a_lateral_needs_its_length_and_diameter() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 100.0)
+        .junction("A", 0.0, 0.0)
+        .pipe("PA", "R", "A", 1000.0, 200.0, 120.0);
+    f.write_to(dir.path());
+    std::fs::write(
+        dir.path().join("hydrants.csv"),
+        "id,junction,lateral_length,lateral_diameter\nHA,A,20,\n",
+    )
+    .expect("write");
+    let text = match firemain::model::load_network(dir.path()) {
+        Ok(_) => String::new(),
+        Err(d) => d.to_string(),
+    };
+    assert!(text.contains("hydrants.csv:2:4: error"), "{text}");
+}

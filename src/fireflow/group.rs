@@ -56,7 +56,9 @@ use super::search::{
     verdict, Binding,
 };
 use super::{ConstraintCheck, FireFlowSetup, LimitedBy};
+use crate::hydraulics::laws::LinkLaw;
 use crate::hydraulics::{Solution, SolveError, SolveRequest, Tolerance, Workspace};
+use crate::model::{HeadlossFormula, Lateral};
 use crate::units::pressure_kpa_from_head_m;
 
 /// Spread of the flowing hydrants' residual pressures at which equal-residual shares count as
@@ -236,6 +238,8 @@ struct GroupSearch<'s, 'a> {
     hydrants: Vec<usize>,
     /// Each hydrant's junction.
     junctions: Vec<usize>,
+    /// Each hydrant's lateral head-loss law, when it has a lateral.
+    laterals: Vec<Option<LinkLaw>>,
     /// The distinct junctions, and for each hydrant the index of its junction there.
     distinct: Vec<usize>,
     slot_of: Vec<usize>,
@@ -297,7 +301,11 @@ impl GroupSearch<'_, '_> {
             }
             return Err(ProbeError::Unsettled(sol.unsettled));
         }
-        let check = self.setup.constraints_for(&sol, &self.distinct);
+        let check = self.with_laterals(
+            self.setup.constraints_for(&sol, &self.distinct),
+            &sol,
+            demands,
+        );
         let fails = verdict(self.setup, &check, tolerance);
         Ok(GPoint {
             total: demands.iter().sum(),
@@ -330,7 +338,7 @@ impl GroupSearch<'_, '_> {
         for _ in 0..MAX_SPLIT_STEPS {
             let demands = self.demands_of(&flows);
             let p = self.solve_demands(&demands, &start, Tolerance::SEARCH)?;
-            let pressures = self.junction_pressures(&p.sol);
+            let pressures = self.junction_pressures(&p.sol, &p.demands);
             let (s, balanced) = spread_of(&pressures, &flows);
             spread = s;
             if balanced {
@@ -362,12 +370,74 @@ impl GroupSearch<'_, '_> {
         Some(f)
     }
 
-    fn junction_pressures(&self, sol: &Solution) -> Vec<f64> {
-        let net = self.setup.network();
-        self.distinct
+    /// The pressure of each distinct junction's hydrants, kPa: the lowest at the hydrants
+    /// themselves (after their laterals) at the flows `demands`.
+    fn junction_pressures(&self, sol: &Solution, demands: &[f64]) -> Vec<f64> {
+        let mut out = vec![f64::INFINITY; self.distinct.len()];
+        for (i, &k) in self.slot_of.iter().enumerate() {
+            out[k] = out[k].min(self.hydrant_kpa(sol, i, demands[i]));
+        }
+        out
+    }
+
+    /// Pressure at hydrant `i` (index in the group) drawing `q`, kPa: its junction's pressure
+    /// less its lateral's head loss at that flow.
+    fn hydrant_kpa(&self, sol: &Solution, i: usize, q: f64) -> f64 {
+        let p = sol.pressure_kpa(self.setup.network(), self.junctions[i]);
+        match &self.laterals[i] {
+            Some(law) => p - pressure_kpa_from_head_m(law.headloss(q)),
+            None => p,
+        }
+    }
+
+    /// The largest rate of change of a lateral's loss at distinct junction `k` with the
+    /// junction's flow `q_k`, kPa per m³/s (each of its `c` hydrants draws q_k/c).
+    fn lateral_slope_kpa(&self, k: usize, q_k: f64) -> f64 {
+        let c = self.slot_of.iter().filter(|&&s| s == k).count().max(1) as f64;
+        self.slot_of
             .iter()
-            .map(|&j| sol.pressure_kpa(net, j))
-            .collect()
+            .zip(&self.laterals)
+            .filter(|(&s, _)| s == k)
+            .filter_map(|(_, law)| law.as_ref())
+            .map(|law| pressure_kpa_from_head_m(law.evaluate(q_k / c).1) / c)
+            .fold(0.0, f64::max)
+    }
+
+    /// The constraint check with every hydrant's own pressure taken after its lateral: a
+    /// hydrant whose pressure is below the lowest constrained junction's becomes the binding
+    /// one (at its junction).
+    fn with_laterals(
+        &self,
+        mut check: ConstraintCheck,
+        sol: &Solution,
+        demands: &[f64],
+    ) -> ConstraintCheck {
+        let floor = self.setup.criteria.residual_floor_kpa;
+        for (i, &q) in demands.iter().enumerate() {
+            if self.laterals[i].is_none() || sol.isolated.contains(&self.junctions[i]) {
+                continue;
+            }
+            let margin = self.hydrant_kpa(sol, i, q) - floor;
+            if margin < check.pressure_margin_kpa {
+                check.pressure_margin_kpa = margin;
+                check.pressure_junction = self.junctions[i];
+            }
+        }
+        check
+    }
+
+    /// The margin of `binding` at point `p`: for a pressure, the lowest of the junction and
+    /// its hydrants (after their laterals).
+    fn margin_at(&self, p: &GPoint, binding: Binding) -> f64 {
+        let base = margin(self.setup, &p.sol, binding);
+        let Binding::Pressure(j) = binding else {
+            return base;
+        };
+        let floor = self.setup.criteria.residual_floor_kpa;
+        (0..self.junctions.len())
+            .filter(|&i| self.junctions[i] == j)
+            .map(|i| self.hydrant_kpa(&p.sol, i, p.demands[i]) - floor)
+            .fold(base, f64::min)
     }
 
     /// One Newton step on the flows of the flowing junctions towards equal pressures with
@@ -393,6 +463,7 @@ impl GroupSearch<'_, '_> {
             for (row, &a) in active.iter().enumerate() {
                 jac[row][col] = pressure_kpa_from_head_m(dh[self.distinct[a]]);
             }
+            jac[col][col] -= self.lateral_slope_kpa(b, flows[b]);
         }
         // Rows: (p_a − p_last) linearised to zero, then Σ δq = q − Σ q.
         let last = m - 1;
@@ -531,6 +602,14 @@ impl GroupSearch<'_, '_> {
             ws,
             split,
             hydrants: hydrants.to_vec(),
+            laterals: hydrants
+                .iter()
+                .map(|&h| {
+                    net.hydrants[h]
+                        .lateral
+                        .map(|l| lateral_law(net.headloss, &l))
+                })
+                .collect(),
             junctions,
             distinct,
             slot_of,
@@ -545,6 +624,7 @@ impl GroupSearch<'_, '_> {
     fn static_point(&self) -> GPoint {
         let sol = self.setup.base.clone();
         let check = self.setup.constraints_for(&sol, &self.distinct);
+        let check = self.with_laterals(check, &sol, &vec![0.0; self.junctions.len()]);
         let fails = verdict(self.setup, &check, Tolerance::STEADY);
         GPoint {
             total: 0.0,
@@ -604,8 +684,8 @@ impl GroupSearch<'_, '_> {
             Binding::Pressure(_) => SUPPLY_CURVE_EXPONENT,
             Binding::Velocity(_) => 1.0,
         };
-        let m0 = weights.0 * margin(self.setup, &lo.sol, binding);
-        let m1 = weights.1 * margin(self.setup, &hp.sol, binding);
+        let m0 = weights.0 * self.margin_at(lo, binding);
+        let m1 = weights.1 * self.margin_at(hp, binding);
         let (u0, u1) = (lo.total.powf(n), hp.total.powf(n));
         let u = u0 + m0 * (u1 - u0) / (m0 - m1);
         let q = if m0 > m1 && u > 0.0 {
@@ -936,10 +1016,8 @@ pub fn combined_available_flow(
     result.critical_link = link;
     result.total_m3s = Some(b.lo.total);
     result.shares_m3s = b.lo.demands.clone();
-    result.residual_kpa = s
-        .junctions
-        .iter()
-        .map(|&j| b.lo.sol.pressure_kpa(net, j))
+    result.residual_kpa = (0..hydrants.len())
+        .map(|i| s.hydrant_kpa(&b.lo.sol, i, b.lo.demands[i]))
         .collect();
     finish_notes(&s, &b.lo, &mut notes);
     result.notes = notes;
@@ -1046,12 +1124,11 @@ pub fn group_at_flow(
         split,
         total_m3s: p.total,
         shares_m3s: p.demands.clone(),
-        residual_kpa: s
-            .junctions
-            .iter()
-            .map(|&j| p.sol.pressure_kpa(net, j))
+        residual_kpa: (0..hydrants.len())
+            .map(|i| s.hydrant_kpa(&p.sol, i, p.demands[i]))
             .collect(),
-        lowest_kpa: p.sol.pressure_kpa(net, p.check.pressure_junction),
+        // The margin's own junction or hydrant (after its lateral), read back as a pressure.
+        lowest_kpa: p.check.pressure_margin_kpa + setup.criteria.residual_floor_kpa,
         lowest_junction: p.check.pressure_junction,
         highest_velocity: p
             .check
@@ -1061,6 +1138,30 @@ pub fn group_at_flow(
         notes,
         solves: s.solves,
     })
+}
+
+/// The head-loss law of a lateral, by the network's formula (Hazen-Williams or Darcy-Weisbach,
+/// the laws of docs/fire-flow-method.md §1, without minor loss).
+fn lateral_law(formula: HeadlossFormula, lateral: &Lateral) -> LinkLaw {
+    use crate::hydraulics::headloss::{darcy_weisbach_coefficient, hazen_williams_resistance};
+    match formula {
+        HeadlossFormula::HazenWilliams => LinkLaw::HazenWilliams {
+            r: hazen_williams_resistance(lateral.length_m, lateral.diameter_m, lateral.roughness),
+            m: 0.0,
+        },
+        HeadlossFormula::DarcyWeisbach => LinkLaw::DarcyWeisbach {
+            d: darcy_weisbach_coefficient(lateral.length_m, lateral.diameter_m),
+            diameter_m: lateral.diameter_m,
+            relative_roughness: lateral.roughness / lateral.diameter_m,
+            m: 0.0,
+        },
+    }
+}
+
+/// Head loss of a hydrant's lateral at flow `q_m3s`, m (the network's head-loss formula; the
+/// zero-flow smoothing of the solver below 1e-4 m³/s).
+pub fn lateral_headloss_m(formula: HeadlossFormula, lateral: &Lateral, q_m3s: f64) -> f64 {
+    lateral_law(formula, lateral).headloss(q_m3s)
 }
 
 #[cfg(test)]

@@ -17,8 +17,8 @@ mod sweep;
 
 pub use curve::{supply_curve, supply_curves, CurvePoint, SupplyCurve, CHART_FLOW_EXPONENT};
 pub use group::{
-    combined_available_flow, group_at_flow, GroupError, GroupNote, GroupPoint, GroupResult, Split,
-    SPLIT_TOLERANCE_KPA,
+    combined_available_flow, group_at_flow, lateral_headloss_m, GroupError, GroupNote, GroupPoint,
+    GroupResult, Split, SPLIT_TOLERANCE_KPA,
 };
 pub use search::analyse_hydrant;
 pub use sweep::{sweep, SweepError, SweepStats};

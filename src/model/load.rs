@@ -12,8 +12,9 @@ use toml::Spanned;
 use super::diagnostic::{Diagnostics, Location};
 use super::limits;
 use super::network::{
-    DemandFactors, HeadlossFormula, Hydrant, Link, LinkKind, Network, Node, NodeKind, Pipe,
-    PipeStatus, Pump, TankStorage, Valve, ValveKind, ValveStatus,
+    DemandFactors, HeadlossFormula, Hydrant, Lateral, Link, LinkKind, Network, Node, NodeKind,
+    Pipe, PipeStatus, Pump, TankStorage, Valve, ValveKind, ValveStatus, DEFAULT_LATERAL_C,
+    DEFAULT_LATERAL_ROUGHNESS_M,
 };
 use super::table::{read_table, Cell, Cells, Row, Table, TableSpec};
 use super::toml_input::{read_toml, span_location};
@@ -81,7 +82,17 @@ const PIPES: TableSpec<'static> = TableSpec {
     required: &["id", "from", "to", "length", "diameter", "roughness"],
 };
 const HYDRANTS: TableSpec<'static> = TableSpec {
-    known: &["id", "junction", "required_flow", "class", "x", "y"],
+    known: &[
+        "id",
+        "junction",
+        "required_flow",
+        "class",
+        "x",
+        "y",
+        "lateral_length",
+        "lateral_diameter",
+        "lateral_roughness",
+    ],
     required: &["id", "junction"],
 };
 const PUMPS: TableSpec<'static> = TableSpec {
@@ -879,6 +890,7 @@ impl Reader {
         let file = t.file.as_str();
         let mut seen: HashMap<String, u64> = HashMap::new();
         let mut out = Vec::new();
+        let headloss = self.headloss;
         for row in t.rows() {
             let junction_cell = t.cell(row, "junction");
             let mut c = self.cells(t, row);
@@ -898,6 +910,7 @@ impl Reader {
             let class = c.text("class").map(str::to_string);
             let class_column = t.cell(row, "class").column;
             let position = c.position();
+            let lateral = lateral(&mut c, headloss);
             let junction = if junction_cell.is_empty() {
                 self.diags.error(
                     junction_cell.location(file),
@@ -947,6 +960,7 @@ impl Reader {
             }
             seen.insert(id.text.to_string(), row.line);
             let Some(junction) = junction else { continue };
+            let Some(lateral) = lateral else { continue };
             if t.has_column("required_flow")
                 && !t.cell(row, "required_flow").is_empty()
                 && required.is_none()
@@ -961,9 +975,94 @@ impl Reader {
                 position,
                 line: row.line,
                 class_column,
+                lateral,
             });
         }
         out
+    }
+}
+
+/// The optional lateral columns of a hydrants.csv row, SI: `Some(None)` without a lateral,
+/// `None` when a cell is in error (already reported), so that the row is dropped. Length and
+/// diameter go together; the roughness defaults to [`DEFAULT_LATERAL_C`] or
+/// [`DEFAULT_LATERAL_ROUGHNESS_M`].
+fn lateral(c: &mut Cells<'_, '_>, headloss: HeadlossFormula) -> Option<Option<Lateral>> {
+    let length = c.number("lateral_length", Quantity::Length);
+    let length = c.non_negative(
+        length,
+        "lateral_length",
+        "give the lead's length from the main to the hydrant",
+    );
+    let length = c.within(length, "lateral_length", &limits::PIPE_LENGTH);
+    let diameter = c.number("lateral_diameter", Quantity::Diameter);
+    let diameter = c.positive(
+        diameter,
+        "lateral_diameter",
+        "give the lead's inside diameter",
+    );
+    let diameter = c.within(diameter, "lateral_diameter", &limits::DIAMETER);
+    let roughness = match headloss {
+        HeadlossFormula::HazenWilliams => c.plain("lateral_roughness"),
+        HeadlossFormula::DarcyWeisbach => c.number("lateral_roughness", Quantity::Diameter),
+    };
+    let roughness = c.positive(
+        roughness,
+        "lateral_roughness",
+        "give the lead's roughness as for pipes.csv, or leave it empty for the default",
+    );
+    let roughness = match headloss {
+        HeadlossFormula::HazenWilliams => {
+            c.within(roughness, "lateral_roughness", &limits::C_FACTOR)
+        }
+        HeadlossFormula::DarcyWeisbach => roughness,
+    };
+    let names = ["lateral_length", "lateral_diameter", "lateral_roughness"];
+    let values = [length, diameter, roughness];
+    if names
+        .iter()
+        .zip(values)
+        .any(|(n, v)| !c.cell(n).is_empty() && v.is_none())
+    {
+        return None;
+    }
+    match (length, diameter) {
+        (None, None) if roughness.is_none() => Some(None),
+        (Some(length_m), Some(diameter_m)) => {
+            let roughness = roughness.unwrap_or(match headloss {
+                HeadlossFormula::HazenWilliams => DEFAULT_LATERAL_C,
+                HeadlossFormula::DarcyWeisbach => DEFAULT_LATERAL_ROUGHNESS_M,
+            });
+            if headloss == HeadlossFormula::DarcyWeisbach
+                && roughness > limits::MAX_RELATIVE_ROUGHNESS * diameter_m
+            {
+                let loc = c.cell("lateral_roughness").location(c.file());
+                c.diagnostics().error(
+                    loc,
+                    "`lateral_roughness` is more than half the lead's diameter: beyond any pipe",
+                    "give the absolute roughness in the diameter unit (e.g. 0.26 mm for cast iron)",
+                );
+                return None;
+            }
+            Some(Some(Lateral {
+                length_m,
+                diameter_m,
+                roughness,
+            }))
+        }
+        _ => {
+            let missing = if length.is_none() {
+                "lateral_length"
+            } else {
+                "lateral_diameter"
+            };
+            let loc = c.cell(missing).location(c.file());
+            c.diagnostics().error(
+                loc,
+                format!("`{missing}` is empty while the hydrant's other lateral columns are given"),
+                "give both `lateral_length` and `lateral_diameter` (and optionally `lateral_roughness`), or none of them",
+            );
+            None
+        }
     }
 }
 

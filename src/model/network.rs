@@ -246,7 +246,27 @@ pub struct Hydrant {
     /// Field number of the `class` cell in hydrants.csv (0 without a class column), so that a
     /// class the criteria do not list is reported at its cell.
     pub class_column: u64,
+    /// The lead from the main to the hydrant, when hydrants.csv gives one.
+    pub lateral: Option<Lateral>,
 }
+
+/// A hydrant's lateral (lead) from the main, SI: its head loss lies between the junction on
+/// the main and the hydrant (docs/network-format.md §9).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Lateral {
+    pub length_m: f64,
+    pub diameter_m: f64,
+    /// Hazen-Williams C, or Darcy-Weisbach absolute roughness in metres (the network's
+    /// formula).
+    pub roughness: f64,
+}
+
+/// Hazen-Williams C of a lateral without `lateral_roughness`: 100, a common design value for
+/// lined iron leads of some age (common practice, no source).
+pub const DEFAULT_LATERAL_C: f64 = 100.0;
+/// Darcy-Weisbach roughness of a lateral without `lateral_roughness`, m: 0.26 mm, cast iron in
+/// Moody's table (Moody, "Friction factors for pipe flow", Trans. ASME 66, 1944; from memory).
+pub const DEFAULT_LATERAL_ROUGHNESS_M: f64 = 0.26e-3;
 
 /// A whole network, SI units inside.
 #[derive(Clone, Debug)]
