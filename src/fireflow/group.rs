@@ -33,6 +33,10 @@
 //! available: a junction pinned by a regulating valve), the total is solved with the even split
 //! instead and a note says so.
 //!
+//! **Laterals.** A hydrant with a lead (`Hydrant::lateral`) is constrained at the hydrant: its
+//! pressure is its junction's less the lead's head loss at its own flow ([`lateral_headloss_m`]),
+//! and that pressure is the one the split equalises and the one reported.
+//!
 //! **Verified answers**, as in the single-hydrant search (docs/fire-flow-method.md, "Verified
 //! answers"): the reported total is the flow of an ordinary solve (no junction held, controls
 //! settled by their own rules, [`Tolerance::SEARCH`]) at exactly the reported demands — every
@@ -156,7 +160,8 @@ pub struct GroupResult {
     pub total_m3s: Option<f64>,
     /// Each hydrant's flow at the answer, m³/s, on the reporting grid; they sum to the total.
     pub shares_m3s: Vec<f64>,
-    /// Each hydrant's residual pressure at the answer, kPa (at its junction).
+    /// Each hydrant's residual pressure at the answer, kPa: at the hydrant, after its lead's
+    /// head loss when it has a lateral, else at its junction.
     pub residual_kpa: Vec<f64>,
     /// Each hydrant's pressure with no fire flow (max day), kPa.
     pub static_kpa: Vec<f64>,
@@ -179,8 +184,9 @@ pub struct GroupPoint {
     /// asked for, by the grid's rounding).
     pub total_m3s: f64,
     pub shares_m3s: Vec<f64>,
+    /// Each hydrant's pressure, kPa (after its lead, as in [`GroupResult::residual_kpa`]).
     pub residual_kpa: Vec<f64>,
-    /// Lowest constrained pressure, kPa, and its junction.
+    /// Lowest constrained pressure, kPa (a hydrant's after its lead), and its junction.
     pub lowest_kpa: f64,
     pub lowest_junction: usize,
     /// Highest open-pipe velocity, m/s, and its pipe, when the criteria set a limit.
@@ -335,9 +341,15 @@ impl GroupSearch<'_, '_> {
         let mut flows = self.shares_from(near, q).unwrap_or_else(|| even.clone());
         let mut start = near.sol.clone();
         let mut spread = f64::INFINITY;
-        for _ in 0..MAX_SPLIT_STEPS {
+        for step in 0..MAX_SPLIT_STEPS {
             let demands = self.demands_of(&flows);
-            let p = self.solve_demands(&demands, &start, Tolerance::SEARCH)?;
+            let p = match self.solve_demands(&demands, &start, Tolerance::SEARCH) {
+                Ok(p) => p,
+                // Shares a Newton step proposed that cannot be solved: the even split decides
+                // whether the total itself can.
+                Err(ProbeError::Solve(_)) if step > 0 => break,
+                Err(e) => return Err(e),
+            };
             let pressures = self.junction_pressures(&p.sol, &p.demands);
             let (s, balanced) = spread_of(&pressures, &flows);
             spread = s;
