@@ -13,6 +13,7 @@ pub mod model;
 pub mod report;
 pub mod service;
 pub mod steady;
+pub mod storage;
 pub mod units;
 pub mod upsizing;
 pub mod weakmains;

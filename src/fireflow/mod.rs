@@ -10,11 +10,16 @@
 //!   constraints (the first crossing, the safe reading for a fire flow that ramps up).
 
 mod curve;
+mod group;
 mod search;
 pub mod supply_paths;
 mod sweep;
 
 pub use curve::{supply_curve, supply_curves, CurvePoint, SupplyCurve, CHART_FLOW_EXPONENT};
+pub use group::{
+    combined_available_flow, group_at_flow, lateral_headloss_m, GroupError, GroupNote, GroupPoint,
+    GroupResult, Split, SPLIT_TOLERANCE_KPA,
+};
 pub use search::analyse_hydrant;
 pub use sweep::{sweep, SweepError, SweepStats};
 
@@ -232,7 +237,16 @@ impl<'a> FireFlowSetup<'a> {
 
     /// Checks the constraints on a solution with a fire flow at junction `at`.
     pub fn constraints(&self, sol: &Solution, at: usize) -> ConstraintCheck {
+        self.constraints_for(sol, &[at])
+    }
+
+    /// Checks the constraints on a solution with fire flows at the junctions `at` (a group of
+    /// hydrants flowing together; see [`group`]): a junction is constrained when it is
+    /// constrained for any of them, so every flowing junction is. With one junction this is
+    /// [`FireFlowSetup::constraints`] exactly.
+    pub fn constraints_for(&self, sol: &Solution, at: &[usize]) -> ConstraintCheck {
         let net = self.network();
+        let first = at.first().copied().unwrap_or(0);
         let floor = self.criteria.residual_floor_kpa;
         let mut isolated = vec![false; 0];
         if !sol.isolated.is_empty() {
@@ -241,17 +255,18 @@ impl<'a> FireFlowSetup<'a> {
                 isolated[j] = true;
             }
         }
-        let mut worst_pressure = (f64::INFINITY, at);
+        let mut worst_pressure = (f64::INFINITY, first);
         for j in 0..net.n_junctions {
             if !isolated.is_empty() && isolated[j] {
                 continue;
             }
-            if !self.is_constrained(j, at) {
+            if !at.iter().any(|&a| self.is_constrained(j, a)) {
                 continue;
             }
             let margin = sol.pressure_kpa(net, j) - floor;
-            // Ties go to the hydrant's own junction, then the lowest index: deterministic.
-            if margin < worst_pressure.0 || (margin == worst_pressure.0 && j == at) {
+            // Ties go to a flowing hydrant's own junction, then the lowest index:
+            // deterministic.
+            if margin < worst_pressure.0 || (margin == worst_pressure.0 && at.contains(&j)) {
                 worst_pressure = (margin, j);
             }
         }

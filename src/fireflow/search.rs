@@ -200,15 +200,7 @@ impl Search<'_, '_> {
     /// must be at least the head tolerance above the floor, each velocity at least the flow
     /// tolerance's share below the limit. A pressure violation is named before a velocity one.
     fn verdict(&self, check: &ConstraintCheck, tolerance: Tolerance) -> Option<Binding> {
-        let pressure_room = pressure_kpa_from_head_m(tolerance.head_m).max(FLOOR_TOLERANCE_KPA);
-        if check.pressure_margin_kpa < pressure_room {
-            return Some(Binding::Pressure(check.pressure_junction));
-        }
-        let (margin, link) = check.velocity?;
-        let area = self.setup.network().links[link]
-            .diameter_m()
-            .map_or(f64::INFINITY, |d| std::f64::consts::PI * d * d / 4.0);
-        (margin < tolerance.flow_m3s / area).then_some(Binding::Velocity(link))
+        verdict(self.setup, check, tolerance)
     }
 
     /// A point for the static state (a steady solve).
@@ -899,16 +891,35 @@ pub(super) fn on_grid(q: f64, units: UnitSystem) -> f64 {
     ((q / step) * (1.0 + 1e-9)).floor() * step
 }
 
+/// Whether a solution converged to `tolerance` meets every constraint with room for the
+/// solve's own error (`None`), or which constraint it violates (see `Search::verdict`); shared
+/// with the group search.
+pub(super) fn verdict(
+    setup: &FireFlowSetup<'_>,
+    check: &ConstraintCheck,
+    tolerance: Tolerance,
+) -> Option<Binding> {
+    let pressure_room = pressure_kpa_from_head_m(tolerance.head_m).max(FLOOR_TOLERANCE_KPA);
+    if check.pressure_margin_kpa < pressure_room {
+        return Some(Binding::Pressure(check.pressure_junction));
+    }
+    let (margin, link) = check.velocity?;
+    let area = setup.network().links[link]
+        .diameter_m()
+        .map_or(f64::INFINITY, |d| std::f64::consts::PI * d * d / 4.0);
+    (margin < tolerance.flow_m3s / area).then_some(Binding::Velocity(link))
+}
+
 /// Which constraint a failing point violates: a junction's pressure or a pipe's velocity.
-#[derive(Clone, Copy, PartialEq)]
-enum Binding {
+#[derive(Clone, Copy, PartialEq, Debug)]
+pub(super) enum Binding {
     Pressure(usize),
     Velocity(usize),
 }
 
 /// The violated constraint of a failing check without a tolerance of its own (a held solve):
 /// the pressure when it is below the floor, else the velocity.
-fn binding_of(check: &ConstraintCheck) -> Binding {
+pub(super) fn binding_of(check: &ConstraintCheck) -> Binding {
     match check.velocity {
         Some((_, link)) if check.pressure_margin_kpa >= -FLOOR_TOLERANCE_KPA => {
             Binding::Velocity(link)
@@ -917,7 +928,7 @@ fn binding_of(check: &ConstraintCheck) -> Binding {
     }
 }
 
-fn margin(setup: &FireFlowSetup<'_>, sol: &Solution, binding: Binding) -> f64 {
+pub(super) fn margin(setup: &FireFlowSetup<'_>, sol: &Solution, binding: Binding) -> f64 {
     let net = setup.network();
     match binding {
         Binding::Pressure(j) => sol.pressure_kpa(net, j) - setup.criteria.residual_floor_kpa,
@@ -1280,13 +1291,13 @@ fn classify(
 }
 
 /// The relative-or-absolute accuracy at flow q.
-fn tolerance(q: f64, units: UnitSystem) -> f64 {
+pub(super) fn tolerance(q: f64, units: UnitSystem) -> f64 {
     (RELATIVE_ACCURACY * q).max(absolute_accuracy_m3s(units))
 }
 
 /// The width at which a bracket is closed: a fifth inside the accuracy, so that the promise
 /// (the answer within the accuracy below the limit) holds with room for the grid's rounding.
-fn closing_width(q: f64, units: UnitSystem) -> f64 {
+pub(super) fn closing_width(q: f64, units: UnitSystem) -> f64 {
     0.8 * tolerance(q, units)
 }
 

@@ -144,6 +144,9 @@ fn unit_word(units: UnitSystem, q: Quantity) -> &'static str {
 
 pub const DIAMETER: Limit =
     Limit::at_most(Some(Quantity::Diameter), MAX_DIAMETER_M, "any water main");
+/// The largest tank diameter, m. The largest ground storage tanks are about 100 m across (from
+/// memory).
+pub const TANK_DIAMETER: Limit = Limit::at_most(Some(Quantity::Length), 1000.0, "any storage tank");
 pub const PIPE_LENGTH: Limit = Limit::at_most(
     Some(Quantity::Length),
     MAX_PIPE_LENGTH_M,

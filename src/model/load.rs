@@ -12,8 +12,9 @@ use toml::Spanned;
 use super::diagnostic::{Diagnostics, Location};
 use super::limits;
 use super::network::{
-    DemandFactors, HeadlossFormula, Hydrant, Link, LinkKind, Network, Node, NodeKind, Pipe,
-    PipeStatus, Pump, Valve, ValveKind, ValveStatus,
+    DemandFactors, HeadlossFormula, Hydrant, Lateral, Link, LinkKind, Network, Node, NodeKind,
+    Pipe, PipeStatus, Pump, TankStorage, Valve, ValveKind, ValveStatus, DEFAULT_LATERAL_C,
+    DEFAULT_LATERAL_ROUGHNESS_M,
 };
 use super::table::{read_table, Cell, Cells, Row, Table, TableSpec};
 use super::toml_input::{read_toml, span_location};
@@ -51,7 +52,16 @@ const JUNCTIONS: TableSpec<'static> = TableSpec {
     required: &["id", "elevation"],
 };
 const SOURCES: TableSpec<'static> = TableSpec {
-    known: &["id", "kind", "grade", "x", "y"],
+    known: &[
+        "id",
+        "kind",
+        "grade",
+        "x",
+        "y",
+        "diameter",
+        "min_level",
+        "max_level",
+    ],
     required: &["id", "kind", "grade"],
 };
 /// The columns of pipes.csv (`material` is an optional extra that firemain keeps).
@@ -72,7 +82,17 @@ const PIPES: TableSpec<'static> = TableSpec {
     required: &["id", "from", "to", "length", "diameter", "roughness"],
 };
 const HYDRANTS: TableSpec<'static> = TableSpec {
-    known: &["id", "junction", "required_flow", "class", "x", "y"],
+    known: &[
+        "id",
+        "junction",
+        "required_flow",
+        "class",
+        "x",
+        "y",
+        "lateral_length",
+        "lateral_diameter",
+        "lateral_roughness",
+    ],
     required: &["id", "junction"],
 };
 const PUMPS: TableSpec<'static> = TableSpec {
@@ -413,6 +433,7 @@ impl Reader {
                     zone: None,
                     position,
                     line: row.line,
+                    storage: None,
                 },
                 zone,
             ));
@@ -439,10 +460,13 @@ impl Reader {
             let grade = c.required_number("grade", Quantity::Length);
             let grade = c.within(grade, "grade", &limits::ELEVATION);
             let position = c.position();
-            let (Some(id), Some(kind), Some(grade)) = (id, kind, grade) else {
+            let storage = tank_storage(&mut c);
+            let (Some(id), Some(kind), Some(grade), Some(storage)) = (id, kind, grade, storage)
+            else {
                 self.broken_row_id(t, row);
                 continue;
             };
+            let storage = self.check_storage(t, row, kind, grade, storage);
             let index = self.nodes.len();
             if !self.claim_node_id(&id, file, index) {
                 continue;
@@ -457,10 +481,68 @@ impl Reader {
                     zone: None,
                     position,
                     line: row.line,
+                    storage,
                 },
                 None,
             ));
         }
+    }
+
+    /// The storage columns against the source's kind and grade: ignored with a warning for a
+    /// reservoir; for a tank, `min_level` below `max_level` and the grade between them (an
+    /// error at the cell to fix; the storage is then dropped, the grade kept).
+    fn check_storage(
+        &mut self,
+        t: &Table,
+        row: &Row,
+        kind: NodeKind,
+        grade: f64,
+        storage: TankStorage,
+    ) -> Option<TankStorage> {
+        let file = t.file.as_str();
+        let given = storage.diameter_m.is_some()
+            || storage.min_level_m.is_some()
+            || storage.max_level_m.is_some();
+        if !given {
+            return None;
+        }
+        if kind != NodeKind::Tank {
+            self.diags.warning(
+                Location::line(file, row.line),
+                "`diameter`, `min_level` and `max_level` describe a tank; a reservoir's are ignored",
+                "leave them empty for a reservoir, or make the source a tank",
+            );
+            return None;
+        }
+        let units = self.units;
+        let shown = |v: f64| display_value(units.from_si(Quantity::Length, v));
+        let u = units.symbol(Quantity::Length);
+        if let (Some(lo), Some(hi)) = (storage.min_level_m, storage.max_level_m) {
+            if lo >= hi {
+                self.diags.error(
+                    t.cell(row, "max_level").location(file),
+                    format!("`max_level` {} {u} is not above `min_level` {} {u}", shown(hi), shown(lo)),
+                    "give the levels as water-surface elevations on the datum of `grade`, the highest above the lowest",
+                );
+                return None;
+            }
+        }
+        let below = storage.min_level_m.filter(|&lo| grade < lo);
+        let above = storage.max_level_m.filter(|&hi| grade > hi);
+        if let Some(level) = below.or(above) {
+            self.diags.error(
+                t.cell(row, "grade").location(file),
+                format!(
+                    "tank grade {} {u} lies outside its levels (the {} level is {} {u})",
+                    shown(grade),
+                    if below.is_some() { "lowest" } else { "highest" },
+                    shown(level)
+                ),
+                "give the grade, `min_level` and `max_level` as water-surface elevations on one datum, the grade between the two levels",
+            );
+            return None;
+        }
+        Some(storage)
     }
 
     /// Reads `from` and `to`; `None` if either is unknown.
@@ -808,6 +890,7 @@ impl Reader {
         let file = t.file.as_str();
         let mut seen: HashMap<String, u64> = HashMap::new();
         let mut out = Vec::new();
+        let headloss = self.headloss;
         for row in t.rows() {
             let junction_cell = t.cell(row, "junction");
             let mut c = self.cells(t, row);
@@ -827,6 +910,7 @@ impl Reader {
             let class = c.text("class").map(str::to_string);
             let class_column = t.cell(row, "class").column;
             let position = c.position();
+            let lateral = lateral(&mut c, headloss);
             let junction = if junction_cell.is_empty() {
                 self.diags.error(
                     junction_cell.location(file),
@@ -876,6 +960,7 @@ impl Reader {
             }
             seen.insert(id.text.to_string(), row.line);
             let Some(junction) = junction else { continue };
+            let Some(lateral) = lateral else { continue };
             if t.has_column("required_flow")
                 && !t.cell(row, "required_flow").is_empty()
                 && required.is_none()
@@ -890,10 +975,123 @@ impl Reader {
                 position,
                 line: row.line,
                 class_column,
+                lateral,
             });
         }
         out
     }
+}
+
+/// The optional lateral columns of a hydrants.csv row, SI: `Some(None)` without a lateral,
+/// `None` when a cell is in error (already reported), so that the row is dropped. Length and
+/// diameter go together; the roughness defaults to [`DEFAULT_LATERAL_C`] or
+/// [`DEFAULT_LATERAL_ROUGHNESS_M`].
+fn lateral(c: &mut Cells<'_, '_>, headloss: HeadlossFormula) -> Option<Option<Lateral>> {
+    let length = c.number("lateral_length", Quantity::Length);
+    let length = c.non_negative(
+        length,
+        "lateral_length",
+        "give the lead's length from the main to the hydrant",
+    );
+    let length = c.within(length, "lateral_length", &limits::PIPE_LENGTH);
+    let diameter = c.number("lateral_diameter", Quantity::Diameter);
+    let diameter = c.positive(
+        diameter,
+        "lateral_diameter",
+        "give the lead's inside diameter",
+    );
+    let diameter = c.within(diameter, "lateral_diameter", &limits::DIAMETER);
+    let roughness = match headloss {
+        HeadlossFormula::HazenWilliams => c.plain("lateral_roughness"),
+        HeadlossFormula::DarcyWeisbach => c.number("lateral_roughness", Quantity::Diameter),
+    };
+    let roughness = c.positive(
+        roughness,
+        "lateral_roughness",
+        "give the lead's roughness as for pipes.csv, or leave it empty for the default",
+    );
+    let roughness = match headloss {
+        HeadlossFormula::HazenWilliams => {
+            c.within(roughness, "lateral_roughness", &limits::C_FACTOR)
+        }
+        HeadlossFormula::DarcyWeisbach => roughness,
+    };
+    let names = ["lateral_length", "lateral_diameter", "lateral_roughness"];
+    let values = [length, diameter, roughness];
+    if names
+        .iter()
+        .zip(values)
+        .any(|(n, v)| !c.cell(n).is_empty() && v.is_none())
+    {
+        return None;
+    }
+    match (length, diameter) {
+        (None, None) if roughness.is_none() => Some(None),
+        (Some(length_m), Some(diameter_m)) => {
+            let roughness = roughness.unwrap_or(match headloss {
+                HeadlossFormula::HazenWilliams => DEFAULT_LATERAL_C,
+                HeadlossFormula::DarcyWeisbach => DEFAULT_LATERAL_ROUGHNESS_M,
+            });
+            if headloss == HeadlossFormula::DarcyWeisbach
+                && roughness > limits::MAX_RELATIVE_ROUGHNESS * diameter_m
+            {
+                let loc = c.cell("lateral_roughness").location(c.file());
+                c.diagnostics().error(
+                    loc,
+                    "`lateral_roughness` is more than half the lead's diameter: beyond any pipe",
+                    "give the absolute roughness in the diameter unit (e.g. 0.26 mm for cast iron)",
+                );
+                return None;
+            }
+            Some(Some(Lateral {
+                length_m,
+                diameter_m,
+                roughness,
+            }))
+        }
+        _ => {
+            let missing = if length.is_none() {
+                "lateral_length"
+            } else {
+                "lateral_diameter"
+            };
+            let loc = c.cell(missing).location(c.file());
+            c.diagnostics().error(
+                loc,
+                format!("`{missing}` is empty while the hydrant's other lateral columns are given"),
+                "give both `lateral_length` and `lateral_diameter` (and optionally `lateral_roughness`), or none of them",
+            );
+            None
+        }
+    }
+}
+
+/// The optional storage columns of a sources.csv row, SI; `None` when a given cell is in error
+/// (already reported), so that the row is dropped.
+fn tank_storage(c: &mut Cells<'_, '_>) -> Option<TankStorage> {
+    let diameter = c.number("diameter", Quantity::Length);
+    let diameter = c.positive(
+        diameter,
+        "diameter",
+        "give the tank's inside diameter in ft or m (the length unit)",
+    );
+    let diameter = c.within(diameter, "diameter", &limits::TANK_DIAMETER);
+    let min_level = c.number("min_level", Quantity::Length);
+    let min_level = c.within(min_level, "min_level", &limits::ELEVATION);
+    let max_level = c.number("max_level", Quantity::Length);
+    let max_level = c.within(max_level, "max_level", &limits::ELEVATION);
+    let broken = |name: &str, v: Option<f64>| !c.cell(name).is_empty() && v.is_none();
+    if broken("diameter", diameter)
+        || broken("min_level", min_level)
+        || broken("max_level", max_level)
+    {
+        return None;
+    }
+    Some(TankStorage {
+        diameter_m: diameter,
+        min_level_m: min_level,
+        max_level_m: max_level,
+    })
 }
 
 /// Fits head = a − b·q^c through the shutoff head `a` and two points (q1, h1), (q2, h2).

@@ -14,8 +14,9 @@ pub mod validate;
 pub use diagnostic::{Diagnostic, Diagnostics, Location, Severity};
 pub use load::{load_network, Loaded};
 pub use network::{
-    DemandFactors, HeadlossFormula, Hydrant, Link, LinkKind, Network, Node, NodeKind, Pipe,
-    PipeStatus, Pump, Valve, ValveKind, ValveStatus,
+    DemandFactors, HeadlossFormula, Hydrant, Lateral, Link, LinkKind, Network, Node, NodeKind,
+    Pipe, PipeStatus, Pump, TankStorage, Valve, ValveKind, ValveStatus, DEFAULT_LATERAL_C,
+    DEFAULT_LATERAL_ROUGHNESS_M,
 };
 
 /// The files of a network folder, in the order a copy of the network lists them: `model.toml`

@@ -65,6 +65,21 @@ pub struct Node {
     pub position: Option<[f64; 2]>,
     /// Line of the element in its file, for messages.
     pub line: u64,
+    /// A tank's storage, from the optional `diameter`, `min_level`, `max_level` columns of
+    /// sources.csv; `None` for junctions, reservoirs and tanks without them.
+    pub storage: Option<TankStorage>,
+}
+
+/// The storage of a cylindrical tank (sources.csv, docs/network-format.md §7). Levels are
+/// water-surface elevations on the datum of `grade` (m), like the tank's grade itself.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct TankStorage {
+    /// Inside diameter, m.
+    pub diameter_m: Option<f64>,
+    /// Lowest usable water-surface elevation, m.
+    pub min_level_m: Option<f64>,
+    /// Highest (overflow) water-surface elevation, m.
+    pub max_level_m: Option<f64>,
 }
 
 impl Node {
@@ -231,7 +246,27 @@ pub struct Hydrant {
     /// Field number of the `class` cell in hydrants.csv (0 without a class column), so that a
     /// class the criteria do not list is reported at its cell.
     pub class_column: u64,
+    /// The lead from the main to the hydrant, when hydrants.csv gives one.
+    pub lateral: Option<Lateral>,
 }
+
+/// A hydrant's lateral (lead) from the main, SI: its head loss lies between the junction on
+/// the main and the hydrant (docs/network-format.md §9).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Lateral {
+    pub length_m: f64,
+    pub diameter_m: f64,
+    /// Hazen-Williams C, or Darcy-Weisbach absolute roughness in metres (the network's
+    /// formula).
+    pub roughness: f64,
+}
+
+/// Hazen-Williams C of a lateral without `lateral_roughness`: 100, a common design value for
+/// lined iron leads of some age (common practice, no source).
+pub const DEFAULT_LATERAL_C: f64 = 100.0;
+/// Darcy-Weisbach roughness of a lateral without `lateral_roughness`, m: 0.26 mm, cast iron in
+/// Moody's table (Moody, "Friction factors for pipe flow", Trans. ASME 66, 1944; from memory).
+pub const DEFAULT_LATERAL_ROUGHNESS_M: f64 = 0.26e-3;
 
 /// A whole network, SI units inside.
 #[derive(Clone, Debug)]
