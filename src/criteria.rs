@@ -537,7 +537,7 @@ impl ClassCheck<'_> {
 
 /// The listed class nearest to `class` by edit distance (Levenshtein, without case), when it
 /// is close enough to be a typing slip: at most 2 edits, or a third of the name's length.
-fn nearest_class<'a>(class: &str, listed: &[&'a str]) -> Option<&'a str> {
+pub(crate) fn nearest_class<'a>(class: &str, listed: &[&'a str]) -> Option<&'a str> {
     let key = class_key(class);
     listed
         .iter()
