@@ -579,9 +579,11 @@ fn read_needed_method(
     for (class, v) in &t.classes {
         let ClassFlowTable { flow, duration } = *v.get_ref();
         let q = of.units.to_si(Quantity::Flow, flow);
-        if !(flow.is_finite() && flow > 0.0 && limits::FLOW.holds(q))
-            || !(duration.is_finite() && duration > 0.0 && duration <= 24.0)
-        {
+        let flow_ok = flow.is_finite() && flow > 0.0 && limits::FLOW.holds(q);
+        let duration_ok = duration.is_finite()
+            && duration > 0.0
+            && duration <= crate::model::buildings::MAX_DURATION_H;
+        if !(flow_ok && duration_ok) {
             diags.error(
                 at(v.span()),
                 format!("[needed_flow.classes] {class}: flow and duration must be positive (duration in hours, at most 24)"),
