@@ -24,6 +24,25 @@ struct CriteriaFile {
     fire: FireTable,
     upsizing: Option<UpsizingTable>,
     calibration: Option<CalibrationTable>,
+    needed_flow: Option<NeededFlowTable>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct NeededFlowTable {
+    method: Spanned<String>,
+    hose_lay_factor: Option<Spanned<f64>>,
+    max_hose_lay: Spanned<f64>,
+    max_hydrants: Spanned<i64>,
+    #[serde(default)]
+    classes: BTreeMap<String, Spanned<ClassFlowTable>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct ClassFlowTable {
+    flow: f64,
+    duration: f64,
 }
 
 #[derive(Deserialize)]
@@ -102,10 +121,40 @@ pub struct Criteria {
     /// Bounds of a fitted roughness (`firemain flowtest --calibrate-by`): Hazen-Williams C, or
     /// Darcy-Weisbach roughness in m; `None` for the plausible defaults.
     pub calibration_bounds: Option<(f64, f64)>,
+    /// The needed-fire-flow method and hose-lay settings of `firemain permit`, if given.
+    pub needed_flow: Option<NeededFlowSettings>,
     /// The file name shown in messages.
     pub file: String,
     /// Warnings about applying the set to the network (e.g. hydrant classes it does not list).
     pub warnings: Diagnostics,
+}
+
+/// The value of `[needed_flow] method` that takes the criteria's own `[needed_flow.classes]`.
+pub const CRITERIA_METHOD: &str = "criteria";
+
+/// The hose-lay factor when the criteria give none: √2 ≈ 1.414, the largest ratio of a path
+/// along a rectangular street grid to the straight line between its ends (derived: the path
+/// is at least |dx| + |dy|, at most √2 times the straight line when it has no detour). A
+/// larger factor counts fewer hydrants within reach, the cautious side; measure the hose lay
+/// where streets detour.
+pub const DEFAULT_HOSE_LAY_FACTOR: f64 = std::f64::consts::SQRT_2;
+/// The largest hose-lay factor and number of hydrants a criteria file may give: past these
+/// the value is a slip (common practice, no source).
+pub const MAX_HOSE_LAY_FACTOR: f64 = 5.0;
+pub const MAX_HYDRANTS: i64 = 50;
+
+/// `[needed_flow]`: how `firemain permit` finds a building's needed fire flow and which
+/// hydrants may supply it.
+#[derive(Clone, Debug)]
+pub struct NeededFlowSettings {
+    /// The method, loaded (from its file, or the criteria's classes).
+    pub method: crate::needed::Method,
+    /// Hose lay = straight-line distance × this factor (≥ 1).
+    pub hose_lay_factor: f64,
+    /// The longest hose lay from a hydrant to the building, m.
+    pub max_hose_lay_m: f64,
+    /// The most hydrants that may share a building's needed flow.
+    pub max_hydrants: usize,
 }
 
 /// Where a required fire flow came from.
@@ -378,6 +427,16 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         (lo, hi)
     });
 
+    let needed_flow = c.needed_flow.as_ref().and_then(|t| {
+        let of = NeededFrom {
+            path,
+            file: &file,
+            reference: &c.reference,
+            units,
+        };
+        read_needed_flow(t, &of, &at, &mut diags)
+    });
+
     check_required_above_cap(&c.fire, units, search_cap_m3s, &at, &mut warnings);
     let classes: Vec<&str> = c.fire.required_flow.keys().map(String::as_str).collect();
     let resolution = ClassCheck {
@@ -408,8 +467,153 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         new_pipe_roughness,
         min_main_diameter_m,
         calibration_bounds,
+        needed_flow,
         file,
         warnings,
+    })
+}
+
+/// What `[needed_flow]` is read against: the criteria file and its units.
+struct NeededFrom<'a> {
+    path: &'a Path,
+    file: &'a str,
+    reference: &'a str,
+    units: UnitSystem,
+}
+
+/// Reads `[needed_flow]`: the method (a file resolved beside the criteria file, or the
+/// criteria's own classes) and the hose-lay settings.
+fn read_needed_flow(
+    t: &NeededFlowTable,
+    of: &NeededFrom<'_>,
+    at: &dyn Fn(std::ops::Range<usize>) -> Location,
+    diags: &mut Diagnostics,
+) -> Option<NeededFlowSettings> {
+    let units = of.units;
+    let method = read_needed_method(t, of, at, diags);
+    let factor = t
+        .hose_lay_factor
+        .as_ref()
+        .map_or(DEFAULT_HOSE_LAY_FACTOR, |v| {
+            let x = *v.get_ref();
+            if !(x.is_finite() && (1.0..=MAX_HOSE_LAY_FACTOR).contains(&x)) {
+                diags.error(
+                    at(v.span()),
+                    format!(
+                        "[needed_flow] hose_lay_factor must be from 1 to {MAX_HOSE_LAY_FACTOR}, got {}",
+                        display_value(x)
+                    ),
+                    "a hose lay is never shorter than the straight line: give 1.41 (a street grid), or measure the hose lays",
+                );
+            }
+            x
+        });
+    let lay = *t.max_hose_lay.get_ref();
+    if !(lay.is_finite()
+        && lay > 0.0
+        && units.to_si(Quantity::Length, lay) <= limits::MAX_PIPE_LENGTH_M)
+    {
+        diags.error(
+            at(t.max_hose_lay.span()),
+            format!(
+                "[needed_flow] max_hose_lay must be a positive distance, got {}",
+                display_value(lay)
+            ),
+            format!(
+                "give the longest hose lay from a hydrant to the building in {}",
+                units.symbol(Quantity::Length)
+            ),
+        );
+    }
+    let n = *t.max_hydrants.get_ref();
+    if !(1..=MAX_HYDRANTS).contains(&n) {
+        diags.error(
+            at(t.max_hydrants.span()),
+            format!("[needed_flow] max_hydrants must be a whole number from 1 to {MAX_HYDRANTS}, got {n}"),
+            "give the most hydrants that may share a building's fire flow, such as 3",
+        );
+    }
+    Some(NeededFlowSettings {
+        method: method?,
+        hose_lay_factor: factor,
+        max_hose_lay_m: units.to_si(Quantity::Length, lay),
+        max_hydrants: n.clamp(1, MAX_HYDRANTS) as usize,
+    })
+}
+
+fn read_needed_method(
+    t: &NeededFlowTable,
+    of: &NeededFrom<'_>,
+    at: &dyn Fn(std::ops::Range<usize>) -> Location,
+    diags: &mut Diagnostics,
+) -> Option<crate::needed::Method> {
+    use crate::needed::method::{ClassFlow, Method, Rule};
+    let name = t.method.get_ref().trim();
+    if name != CRITERIA_METHOD {
+        if let Some((class, v)) = t.classes.iter().next() {
+            diags.error(
+                at(v.span()),
+                format!("[needed_flow.classes] gives class `{class}`, but method is a file"),
+                format!("write method = \"{CRITERIA_METHOD}\" to use the classes, or remove [needed_flow.classes]"),
+            );
+        }
+        let base = of.path.parent().unwrap_or(Path::new("."));
+        let method_path = base.join(name);
+        return match crate::needed::load_method(&method_path, name) {
+            Ok(m) => Some(m),
+            Err(d) => {
+                diags.error(
+                    at(t.method.span()),
+                    format!(
+                        "the method file `{name}` (resolved as {}) cannot be used",
+                        method_path.display()
+                    ),
+                    format!("give the path of a method file relative to {}, or method = \"{CRITERIA_METHOD}\"; the problems in it follow", of.file),
+                );
+                diags.extend(d);
+                None
+            }
+        };
+    }
+    let mut classes = Vec::new();
+    for (class, v) in &t.classes {
+        let ClassFlowTable { flow, duration } = *v.get_ref();
+        let q = of.units.to_si(Quantity::Flow, flow);
+        let flow_ok = flow.is_finite() && flow > 0.0 && limits::FLOW.holds(q);
+        let duration_ok = duration.is_finite()
+            && duration > 0.0
+            && duration <= crate::model::buildings::MAX_DURATION_H;
+        if !(flow_ok && duration_ok) {
+            diags.error(
+                at(v.span()),
+                format!("[needed_flow.classes] {class}: flow and duration must be positive (duration in hours, at most 24)"),
+                format!("write {class} = {{ flow = 1500, duration = 2 }} (flow in {}, duration in hours)", of.units.symbol(Quantity::Flow)),
+            );
+        }
+        classes.push(ClassFlow {
+            class: class.trim().to_string(),
+            flow,
+            hours: duration,
+        });
+    }
+    if classes.is_empty() {
+        diags.error(
+            at(t.method.span()),
+            format!("method = \"{CRITERIA_METHOD}\" needs [needed_flow.classes]"),
+            "list each occupancy class with its flow and duration: name = { flow = 1500, duration = 2 }",
+        );
+        return None;
+    }
+    Some(Method {
+        name: "the criteria's own needed flows by class".into(),
+        document: of.reference.to_string(),
+        edition: "as the criteria state".into(),
+        section: "[needed_flow.classes]".into(),
+        file: of.file.to_string(),
+        units: of.units,
+        complete: true,
+        note: None,
+        rule: Rule::Classes(classes),
     })
 }
 
@@ -537,7 +741,7 @@ impl ClassCheck<'_> {
 
 /// The listed class nearest to `class` by edit distance (Levenshtein, without case), when it
 /// is close enough to be a typing slip: at most 2 edits, or a third of the name's length.
-fn nearest_class<'a>(class: &str, listed: &[&'a str]) -> Option<&'a str> {
+pub(crate) fn nearest_class<'a>(class: &str, listed: &[&'a str]) -> Option<&'a str> {
     let key = class_key(class);
     listed
         .iter()

@@ -10,6 +10,7 @@ pub mod fireflow;
 pub mod flowtest;
 pub mod hydraulics;
 pub mod model;
+pub mod needed;
 pub mod report;
 pub mod service;
 pub mod steady;

@@ -21,6 +21,9 @@ pub const WATER_KINEMATIC_VISCOSITY_M2_PER_S: f64 = 1.0e-6;
 pub const M_PER_FT: f64 = 0.3048;
 /// 1 in = 25.4 mm (exact).
 pub const MM_PER_IN: f64 = 25.4;
+/// 1 ft² = 0.09290304 m² (exact: the square of [`M_PER_FT`]). Building areas only; no other
+/// area crosses the edge of the program, so it is not a [`Quantity`].
+pub const M2_PER_FT2: f64 = M_PER_FT * M_PER_FT;
 /// 1 US gallon = 3.785411784 L (exact, 231 in³).
 pub const L_PER_US_GAL: f64 = 3.785411784;
 /// 1 psi = 6.894757 kPa (NFPA 24 Annex D conversion; 6.894757293 to more digits).

@@ -1,5 +1,6 @@
 //! The network model: reading the files, checking them, and the immutable SI network.
 
+pub mod buildings;
 pub mod costs;
 pub mod diagnostic;
 pub mod flowtests;
