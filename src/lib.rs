@@ -11,6 +11,7 @@ pub mod flowtest;
 pub mod hydraulics;
 pub mod model;
 pub mod needed;
+pub mod permit;
 pub mod report;
 pub mod service;
 pub mod steady;

@@ -7,7 +7,7 @@ use clap::{Parser, Subcommand};
 
 mod commands;
 
-use commands::{check, flowtest, solve, upsize, validate};
+use commands::{check, flowtest, permit, solve, upsize, validate};
 
 const EXIT_CODES: &str = "Exit codes: 0 = success (everything passes), 1 = findings (something fails its criteria), \
 2 = input error (command line, network or criteria files), 3 = analysis error (no hydraulic solution, or output not written).";
@@ -37,6 +37,9 @@ enum Command {
     /// Reduce field hydrant flow tests, compare them with the model, calibrate roughness.
     #[command(after_help = EXIT_CODES)]
     Flowtest(flowtest::FlowtestArgs),
+    /// Each building's needed fire flow against the hydrants within reach, flowing together.
+    #[command(after_help = EXIT_CODES)]
+    Permit(permit::PermitArgs),
     /// Solve the steady state at one demand condition.
     #[command(after_help = EXIT_CODES)]
     Solve(solve::SolveArgs),
@@ -49,6 +52,7 @@ fn main() -> ExitCode {
         Command::Upsize(args) => upsize::run(&args),
         Command::Check(args) => check::run(&args),
         Command::Flowtest(args) => flowtest::run(&args),
+        Command::Permit(args) => permit::run(&args),
     };
     if let Err(e) = &result {
         eprint!("{}", e.stderr_text());

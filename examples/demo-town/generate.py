@@ -174,10 +174,11 @@ for nid, x, y, e in HT:
 
 # ------------------------------------------------------------------ sources
 SOURCES = [
-    # id, kind, grade ft, x, y
-    ("R-1", "reservoir", 873.0, 7700, 300),   # Pine Ridge reservoir (ground storage on the ridge)
-    ("T-1", "tank", 869.0, 1690, 170),       # Westside elevated tank, mid level
-    ("T-2", "tank", 941.0, 5500, 5250),       # Knob Hill tank, mid level
+    # id, kind, grade ft, x, y, diameter ft, min_level ft, max_level ft (tank geometry for
+    # the storage check of `firemain permit`; levels are water-surface elevations)
+    ("R-1", "reservoir", 873.0, 7700, 300, None, None, None),  # Pine Ridge reservoir (ground storage on the ridge)
+    ("T-1", "tank", 869.0, 1690, 170, 60.0, 851.0, 887.0),     # Westside elevated tank, mid level
+    ("T-2", "tank", 941.0, 5500, 5250, 30.0, 933.0, 949.0),    # Knob Hill tank, mid level
 ]
 
 # -------------------------------------------------------------------- pipes
@@ -501,9 +502,9 @@ write("junctions.csv", [GEN, "elevation ft, demand gpm (average day)"],
       ["id", "elevation", "demand", "zone", "x", "y"],
       [(n["id"], n["elev"], n["demand"], n["zone"], n["x"], n["y"]) for n in (nodes[k] for k in order)])
 
-write("sources.csv", [GEN, "grade ft (fixed: reservoir water level, tank water level at mid range)"],
-      ["id", "kind", "grade", "x", "y"],
-      [(s[0], s[1], s[2], s[3], s[4]) for s in SOURCES])
+write("sources.csv", [GEN, "grade ft (fixed: reservoir water level, tank water level at mid range); tank diameter ft, min_level and max_level ft (water-surface elevations)"],
+      ["id", "kind", "grade", "x", "y", "diameter", "min_level", "max_level"],
+      [tuple("" if v is None else v for v in s) for s in SOURCES])
 
 write("pipes.csv", [GEN, "length ft, diameter in (nominal), roughness = Hazen-Williams C, minor_loss = summed K"],
       ["id", "from", "to", "length", "diameter", "roughness", "minor_loss", "status", "material"],

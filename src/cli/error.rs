@@ -35,6 +35,12 @@ pub enum CliError {
     /// The criteria have errors, listed in `diagnostics`.
     #[error("the criteria have errors; nothing was analysed")]
     Criteria { diagnostics: Diagnostics },
+    /// The buildings file has errors, listed in `diagnostics`.
+    #[error("the buildings file has errors; nothing was analysed")]
+    Buildings { diagnostics: Diagnostics },
+    /// `permit` needs a criteria set that says how to find a building's needed flow.
+    #[error("{}: no [needed_flow] section; add one naming the method and the hose-lay reach (see docs/criteria-format.md)", .0.display())]
+    NoNeededFlow(PathBuf),
     /// The project file has errors, listed in `diagnostics`.
     #[error("the project file has errors; nothing was analysed")]
     Project { diagnostics: Diagnostics },
@@ -106,6 +112,8 @@ impl CliError {
             | CliError::NetworkListed { .. }
             | CliError::Criteria { .. }
             | CliError::Project { .. }
+            | CliError::Buildings { .. }
+            | CliError::NoNeededFlow(_)
             | CliError::UnknownHydrant { .. }
             | CliError::Sizes { .. }
             | CliError::CostTable { .. }
@@ -130,6 +138,7 @@ impl CliError {
             CliError::Network { diagnostics, .. }
             | CliError::Criteria { diagnostics }
             | CliError::Project { diagnostics }
+            | CliError::Buildings { diagnostics }
             | CliError::FlowTests { diagnostics } => {
                 format!(
                     "{}firemain: {self}\n",

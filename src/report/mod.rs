@@ -8,6 +8,7 @@
 pub mod check;
 pub mod flowtest;
 pub mod html;
+pub mod permit;
 pub mod set;
 pub mod solve;
 pub mod table;

@@ -1,0 +1,107 @@
+//! `firemain permit`: each building's needed fire flow against the hydrants within reach of it,
+//! flowing together, and the storage that feeds them, on stdout and in the report files.
+
+use std::path::PathBuf;
+
+use firemain::cli::CliError;
+use firemain::hydraulics::Hydraulics;
+use firemain::model::buildings::load_buildings;
+use firemain::model::project::load_project;
+use firemain::needed::check_buildings;
+use firemain::permit::{analyse_building, PermitSetup};
+use firemain::report::{self, permit::PermitReport};
+use firemain::units::Quantity;
+
+use super::{
+    analysis_date, check_output_folder, criteria_for, emit, load, write_set, Outcome, VERSION,
+};
+
+/// Arguments of `firemain permit`.
+#[derive(clap::Args)]
+pub struct PermitArgs {
+    /// Network folder.
+    network: PathBuf,
+    /// Buildings of the application (buildings.csv, see docs/buildings-format.md).
+    #[arg(long, value_name = "FILE")]
+    buildings: PathBuf,
+    /// Criteria set (TOML) with a [needed_flow] section: the method and the hose-lay reach.
+    #[arg(long)]
+    criteria: PathBuf,
+    /// Project file (project.toml): the report's title block.
+    #[arg(long, value_name = "FILE")]
+    project: Option<PathBuf>,
+    /// Also write permit.csv, report.md, report.html and report.json here (with their
+    /// manifest, manifest-permit.toml).
+    #[arg(long)]
+    out: Option<PathBuf>,
+    /// No messages on stderr (findings about the input files are still printed).
+    #[arg(long)]
+    quiet: bool,
+}
+
+pub fn run(args: &PermitArgs) -> Result<Outcome, CliError> {
+    check_output_folder(args.out.as_deref(), &args.network)?;
+    let project = match &args.project {
+        Some(path) => {
+            Some(load_project(path).map_err(|diagnostics| CliError::Project { diagnostics })?)
+        }
+        None => None,
+    };
+    let loaded = load(&args.network)?;
+    let net = &loaded.network;
+    let criteria = criteria_for(&args.criteria, net)?;
+    let settings = criteria
+        .needed_flow
+        .as_ref()
+        .ok_or_else(|| CliError::NoNeededFlow(args.criteria.clone()))?;
+    let buildings = load_buildings(&args.buildings, net.units)
+        .map_err(|diagnostics| CliError::Buildings { diagnostics })?;
+    let problems = check_buildings(&buildings.buildings, &settings.method);
+    if problems.has_errors() {
+        return Err(CliError::Buildings {
+            diagnostics: problems,
+        });
+    }
+    let hydraulics = Hydraulics::new(net).map_err(CliError::Hydraulics)?;
+    let setup = firemain::fireflow::FireFlowSetup::new(&hydraulics, &criteria)
+        .map_err(|e| CliError::solve("max-day condition", e))?;
+    let permit = PermitSetup {
+        setup: &setup,
+        settings,
+        metres_per_unit: net.units.to_si(Quantity::Length, 1.0),
+    };
+    let mut ws = hydraulics.workspace();
+    let results: Vec<_> = buildings
+        .buildings
+        .buildings
+        .iter()
+        .enumerate()
+        .map(|(i, b)| analyse_building(&permit, &mut ws, i, b))
+        .collect();
+    let mut warnings = report::input_warnings(&loaded.diagnostics, &criteria.warnings);
+    warnings.extend(
+        buildings
+            .diagnostics
+            .iter()
+            .chain(problems.iter())
+            .filter(|d| d.severity == firemain::model::Severity::Warning)
+            .cloned(),
+    );
+    let report = PermitReport {
+        network: net,
+        criteria: &criteria,
+        settings,
+        buildings: &buildings.buildings,
+        results: &results,
+        project: project.as_ref(),
+        input_warnings: &warnings,
+        generated: analysis_date(),
+        run_id: report::new_run_id(),
+        version: VERSION,
+    };
+    emit(report.terminal());
+    if let Some(out) = &args.out {
+        write_set(out, &args.network, report.output_set(), args.quiet)?;
+    }
+    Ok(Outcome::from_findings(report.has_findings()))
+}
