@@ -4,6 +4,7 @@
 use std::path::PathBuf;
 
 use firemain::cli::CliError;
+use firemain::fireflow::Split;
 use firemain::hydraulics::Hydraulics;
 use firemain::model::buildings::load_buildings;
 use firemain::model::project::load_project;
@@ -34,9 +35,20 @@ pub struct PermitArgs {
     /// manifest, manifest-permit.toml).
     #[arg(long)]
     out: Option<PathBuf>,
+    /// How the hydrants within reach share a building's flow: each at the same residual
+    /// pressure, or the same flow each.
+    #[arg(long, value_enum, default_value = "equal-residual")]
+    split: SplitArg,
     /// No messages on stderr (findings about the input files are still printed).
     #[arg(long)]
     quiet: bool,
+}
+
+/// `--split`.
+#[derive(Clone, Copy, clap::ValueEnum)]
+enum SplitArg {
+    EqualResidual,
+    Even,
 }
 
 pub fn run(args: &PermitArgs) -> Result<Outcome, CliError> {
@@ -69,6 +81,10 @@ pub fn run(args: &PermitArgs) -> Result<Outcome, CliError> {
         setup: &setup,
         settings,
         metres_per_unit: net.units.to_si(Quantity::Length, 1.0),
+        split: match args.split {
+            SplitArg::EqualResidual => Split::EqualResidual,
+            SplitArg::Even => Split::Even,
+        },
     };
     let mut ws = hydraulics.workspace();
     let results: Vec<_> = buildings
@@ -93,6 +109,7 @@ pub fn run(args: &PermitArgs) -> Result<Outcome, CliError> {
         settings,
         buildings: &buildings.buildings,
         results: &results,
+        split: permit.split,
         project: project.as_ref(),
         input_warnings: &warnings,
         generated: analysis_date(),

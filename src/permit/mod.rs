@@ -126,6 +126,8 @@ pub struct PermitSetup<'a> {
     pub settings: &'a NeededFlowSettings,
     /// Metres per unit of the network's coordinates (hose lays are measured on the map).
     pub metres_per_unit: f64,
+    /// How the hydrants of a building share its flow.
+    pub split: Split,
 }
 
 /// Analyses one building.
@@ -182,7 +184,7 @@ fn flow_and_storage(p: &PermitSetup<'_>, ws: &mut Workspace, r: &mut BuildingRes
         return;
     };
     let hydrants: Vec<usize> = r.hydrants.iter().map(|h| h.hydrant).collect();
-    let group = match combined_available_flow(p.setup, ws, &hydrants, Split::EqualResidual) {
+    let group = match combined_available_flow(p.setup, ws, &hydrants, p.split) {
         Ok(g) => g,
         Err(e) => {
             r.notes.push(format!("no combined flow: {e}"));
@@ -197,13 +199,7 @@ fn flow_and_storage(p: &PermitSetup<'_>, ws: &mut Workspace, r: &mut BuildingRes
         return;
     };
     r.group = Some(group);
-    match group_at_flow(
-        p.setup,
-        ws,
-        &hydrants,
-        needed.flow_m3s,
-        Split::EqualResidual,
-    ) {
+    match group_at_flow(p.setup, ws, &hydrants, needed.flow_m3s, p.split) {
         Ok(point) => {
             r.solves += point.solves;
             r.at_needed = Some(point);
@@ -305,14 +301,8 @@ fn drawn_down_check(
         .and_then(|h| {
             let setup = FireFlowSetup::new(&h, p.setup.criteria).map_err(|e| e.to_string())?;
             let mut ws = h.workspace();
-            group_at_flow(
-                &setup,
-                &mut ws,
-                hydrants,
-                needed.flow_m3s,
-                Split::EqualResidual,
-            )
-            .map_err(|e| e.to_string())
+            group_at_flow(&setup, &mut ws, hydrants, needed.flow_m3s, p.split)
+                .map_err(|e| e.to_string())
         });
     match outcome {
         Ok(point) => {

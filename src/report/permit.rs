@@ -11,6 +11,7 @@ use super::{
     ReportError, CAUTIONS,
 };
 use crate::criteria::{Criteria, NeededFlowSettings};
+use crate::fireflow::Split;
 use crate::model::buildings::Buildings;
 use crate::model::project::Project;
 use crate::model::{Diagnostic, Network};
@@ -27,6 +28,7 @@ pub struct PermitReport<'a> {
     pub settings: &'a NeededFlowSettings,
     pub buildings: &'a Buildings,
     pub results: &'a [BuildingResult],
+    pub split: Split,
     pub project: Option<&'a Project>,
     pub input_warnings: &'a [Diagnostic],
     pub generated: String,
@@ -132,16 +134,27 @@ impl PermitReport<'_> {
         t
     }
 
-    /// The terminal: a line of counts and the summary table.
+    /// The terminal: a line of counts, the summary table, and how each needed flow was reached,
+    /// one checkable line a step.
     pub fn terminal(&self) -> String {
+        let mut steps = Section::titled("How each needed fire flow was reached");
+        for r in self.results {
+            let b = &self.buildings.buildings[r.building];
+            if let Some(n) = &r.needed {
+                steps = steps
+                    .paragraph(format!("{}:", b.id))
+                    .list(n.steps.iter().map(|st| Text::from(st.text.as_str())));
+            }
+        }
         format!(
-            "{}\n{}",
+            "{}\n{}{}",
             self.counts_line(),
             Terminal.section(
                 &Section::titled("Buildings (needed fire flow against the hydrants within reach, flowing together)")
                     .table(self.summary_table()),
                 1
-            )
+            ),
+            Terminal.section(&steps, 1)
         )
     }
 
@@ -198,11 +211,15 @@ impl PermitReport<'_> {
             (
                 "Hydrants within reach",
                 format!(
-                    "up to {} hydrant(s) whose hose lay (straight-line distance x {}) is at most {} {}, nearest first, flowing together with the split that gives every flowing hydrant the same residual pressure",
+                    "up to {} hydrant(s) whose hose lay (straight-line distance x {}) is at most {} {}, nearest first, flowing together: {}",
                     self.settings.max_hydrants,
                     num(self.settings.hose_lay_factor, 2),
                     num(o.length(self.settings.max_hose_lay_m), 0),
-                    o.sym(Quantity::Length)
+                    o.sym(Quantity::Length),
+                    match self.split {
+                        Split::EqualResidual => "split so that every flowing hydrant has the same residual pressure",
+                        Split::Even => "each hydrant the same flow (--split even)",
+                    }
                 ),
             ),
             (
