@@ -3,6 +3,7 @@
 pub mod costs;
 pub mod diagnostic;
 pub mod flowtests;
+pub mod gis;
 pub mod limits;
 pub mod load;
 pub mod network;

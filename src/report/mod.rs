@@ -7,7 +7,9 @@
 
 pub mod check;
 pub mod flowtest;
+pub mod geojson;
 pub mod html;
+pub mod import;
 pub mod set;
 pub mod solve;
 pub mod table;
