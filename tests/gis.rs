@@ -61,9 +61,18 @@ fn point(p: [f64; 2], properties: JsonObject) -> Feature {
 
 /// A FeatureCollection with `"crs": null` (local coordinates).
 fn write_layer(path: &Path, features: Vec<Feature>) {
+    write_layer_in(path, features, None);
+}
+
+/// A FeatureCollection whose `crs` member names `crs` (the 2008 form), or is null.
+fn write_layer_in(path: &Path, features: Vec<Feature>, crs: Option<&str>) {
     let mut fc = FeatureCollection::from_iter(features);
     let mut members = JsonObject::new();
-    members.insert("crs".into(), JsonValue::Null);
+    let member = match crs {
+        Some(name) => serde_json::json!({"type": "name", "properties": {"name": name}}),
+        None => JsonValue::Null,
+    };
+    members.insert("crs".into(), member);
     fc.foreign_members = Some(members);
     std::fs::write(path, fc.to_string()).expect("layer written");
 }
@@ -126,7 +135,21 @@ unit = "ft"
 
 /// Writes the small network's layers and mapping into `dir`.
 fn small_layers(dir: &Path) {
+    small_layers_at(dir, [0.0, 0.0], None);
+}
+
+/// The small network moved by `offset`, its layers in `crs`.
+fn small_layers_at(dir: &Path, offset: [f64; 2], crs: Option<&str>) {
     use serde_json::json;
+    let line = |pts: &[[f64; 2]], p: JsonObject| {
+        let moved: Vec<[f64; 2]> = pts
+            .iter()
+            .map(|q| [q[0] + offset[0], q[1] + offset[1]])
+            .collect();
+        line(&moved, p)
+    };
+    let point = |q: [f64; 2], p: JsonObject| point([q[0] + offset[0], q[1] + offset[1]], p);
+    let write_layer = |path: &Path, features: Vec<Feature>| write_layer_in(path, features, crs);
     // Elevations follow z = 100 + 0.01 x + 0.02 y (ft) at every line end.
     let pipes = vec![
         // A, B and C meet at the vertex (100, 0).
@@ -803,4 +826,170 @@ fn check_geojson_hydrants_weak_mains_and_pressures() {
     assert!(property_names(&service[0]).contains(&"pressure_peak_hour_psi".to_string()));
     let manifest = read(&out.join("manifest-check.toml"));
     assert!(manifest.contains("fireflow.geojson"));
+}
+
+#[test]
+fn projected_crs_is_kept_and_results_are_written_in_wgs_84() {
+    let tmp = tempfile::tempdir().expect("tempdir");
+    let dir = tmp.path();
+    // EPSG:2276 (NAD83 Texas North Central, US survey feet): its false origin x0 = 600000 m,
+    // y0 = 2000000.0001016 m is the natural origin 98°30'W, 31°40'N (the CRS's definition).
+    let us_ft = 1200.0 / 3937.0;
+    let origin = [600_000.0 / us_ft, 2_000_000.0001016 / us_ft];
+    small_layers_at(dir, origin, Some("urn:ogc:def:crs:EPSG::2276"));
+    let s = |p: &str| dir.join(p).display().to_string();
+    let args = |out: &str, mapping: &str| -> Vec<String> {
+        [
+            "import",
+            "geojson",
+            "--pipes",
+            &s("pipes.geojson"),
+            "--hydrants",
+            &s("hydrants.geojson"),
+            "--sources",
+            &s("sources.geojson"),
+            "--mapping",
+            &s(mapping),
+            "--out",
+            &s(out),
+        ]
+        .iter()
+        .map(|a| a.to_string())
+        .collect()
+    };
+    // The mapping's `unit = "ft"` contradicts the CRS's US survey foot: refused.
+    let o = firemain(
+        &args("n0", "mapping.toml")
+            .iter()
+            .map(String::as_str)
+            .collect::<Vec<_>>(),
+    );
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("[coordinates] unit"));
+    std::fs::write(
+        dir.join("mapping2.toml"),
+        SMALL_MAPPING.replace("unit = \"ft\"\nsnap", "snap"),
+    )
+    .expect("written");
+    ok(&firemain(
+        &args("net", "mapping2.toml")
+            .iter()
+            .map(String::as_str)
+            .collect::<Vec<_>>(),
+    ));
+    let net = dir.join("net");
+    assert!(read(&net.join("model.toml")).contains("crs = \"EPSG:2276\""));
+    // 100 US survey feet are 100 × 1200/3937 / 0.3048 = 100.0002 ft (the two feet's definitions).
+    let pipes = data_lines(&net.join("pipes.csv"));
+    assert!(pipes[1].starts_with("A,R1,J-0001,100.0002"), "{pipes:?}");
+    let out = dir.join("out");
+    ok(&firemain(&[
+        "solve",
+        &net.display().to_string(),
+        "--out",
+        &out.display().to_string(),
+        "--geojson",
+    ]));
+    let (fc, nodes) = parse(&out.join("node_results.geojson"));
+    assert!(
+        fc.foreign_members
+            .as_ref()
+            .is_none_or(|m| !m.contains_key("crs")),
+        "RFC 7946: no crs member"
+    );
+    let r1 = nodes
+        .iter()
+        .find(|f| f.properties.as_ref().is_some_and(|p| p["id"] == "R1"))
+        .and_then(|f| f.geometry.as_ref())
+        .map(|g| g.value.clone());
+    let Some(GeometryValue::Point { coordinates }) = r1 else {
+        panic!("R1 is a point: {r1:?}");
+    };
+    assert!((coordinates[0] + 98.5).abs() < 1e-6, "{coordinates:?}");
+    assert!(
+        (coordinates[1] - (31.0 + 40.0 / 60.0)).abs() < 1e-6,
+        "{coordinates:?}"
+    );
+    // A CRS that cannot be transformed: the network's x/y, and the CRS named in the file.
+    let model = read(&net.join("model.toml")).replace("EPSG:2276", "EPSG:99999");
+    std::fs::write(net.join("model.toml"), model).expect("written");
+    let out2 = dir.join("out2");
+    ok(&firemain(&[
+        "solve",
+        &net.display().to_string(),
+        "--out",
+        &out2.display().to_string(),
+        "--geojson",
+    ]));
+    let (fc, _) = parse(&out2.join("node_results.geojson"));
+    let name = fc
+        .foreign_members
+        .as_ref()
+        .and_then(|m| m.get("crs"))
+        .and_then(|c| c.pointer("/properties/name"));
+    assert_eq!(
+        name,
+        Some(&JsonValue::String("urn:ogc:def:crs:EPSG::99999".into()))
+    );
+}
+
+#[test]
+fn junctions_without_elevation_are_named_and_duplicate_hydrants_renamed() {
+    let tmp = tempfile::tempdir().expect("tempdir");
+    let dir = tmp.path();
+    small_layers(dir);
+    let s = |p: &str| dir.join(p).display().to_string();
+    // Without an elevation source every junction lacks one: the error lists their positions.
+    let mapping = SMALL_MAPPING.replace("from = \"attributes\"", "");
+    std::fs::write(dir.join("noelev.toml"), mapping).expect("written");
+    let o = firemain(&[
+        "import",
+        "geojson",
+        "--pipes",
+        &s("pipes.geojson"),
+        "--sources",
+        &s("sources.geojson"),
+        "--mapping",
+        &s("noelev.toml"),
+        "--out",
+        &s("n1"),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains("5 junction(s) have no elevation, at (100, 0), (100, 100)"),
+        "{err}"
+    );
+    // Two hydrants with one id: the second is renamed, and the report says so.
+    use serde_json::json;
+    write_layer(
+        &dir.join("hydrants2.geojson"),
+        vec![
+            point([100.0, 2.0], props(&[("HYD", json!("H1"))])),
+            point([200.0, 2.0], props(&[("HYD", json!("H1"))])),
+        ],
+    );
+    ok(&firemain(&[
+        "import",
+        "geojson",
+        "--pipes",
+        &s("pipes.geojson"),
+        "--sources",
+        &s("sources.geojson"),
+        "--hydrants",
+        &s("hydrants2.geojson"),
+        "--mapping",
+        &s("mapping.toml"),
+        "--out",
+        &s("n2"),
+    ]));
+    let hyd = data_lines(&dir.join("n2/hydrants.csv"));
+    assert_eq!(
+        hyd[1..],
+        [
+            "H1,J-0001,,,100,2".to_string(),
+            "H1~2,J-0003,,,200,2".to_string()
+        ]
+    );
+    assert!(read(&dir.join("n2/import.csv")).contains("renamed,hydrants,1,H1,200,2,"));
 }

@@ -463,6 +463,7 @@ fn place_hydrants(
         .flow_unit
         .unwrap_or(default_flow(mapping.network.units))
         .m3s();
+    let mut taken = std::collections::HashSet::new();
     for f in &layer.features {
         let label = feature_label(f, m.id.as_deref());
         let Some(pos) = point_of(f, layer, &label, diags) else {
@@ -503,6 +504,7 @@ fn place_hydrants(
                 continue;
             }
         };
+        let id = unique_hydrant_id(b, &mut taken, id, f, pos);
         match b.place_point(pos, attach, split) {
             Some((junction, action, detail)) => {
                 b.events.push(event(
@@ -535,6 +537,34 @@ fn place_hydrants(
             )),
         }
     }
+}
+
+/// `id`, or `id~2`, `id~3`, ... when an earlier hydrant has it (reported): hydrants.csv needs
+/// unique ids.
+fn unique_hydrant_id(
+    b: &mut Builder,
+    taken: &mut std::collections::HashSet<String>,
+    id: String,
+    f: &InFeature,
+    pos: [f64; 2],
+) -> String {
+    if taken.insert(id.clone()) {
+        return id;
+    }
+    let new = (2..)
+        .map(|k| format!("{id}~{k}"))
+        .find(|c| !taken.contains(c))
+        .unwrap_or_default();
+    taken.insert(new.clone());
+    b.events.push(event(
+        Action::Renamed,
+        "hydrants",
+        f,
+        &id,
+        pos,
+        &format!("id used by an earlier hydrant; this one is {new}"),
+    ));
+    new
 }
 
 /// Every junction's elevation, from the pipes' end attributes or the survey points.
