@@ -206,64 +206,13 @@ pub fn read_lines(
         let mut err = |what: String, fix: &str| {
             diags.error(layer.at(), format!("{label}: {what}"), fix);
         };
-        let parts: Vec<Vec<[f64; 2]>> = match &f.geometry {
-            None => {
-                events.push(event(
-                    Action::Dropped,
-                    "pipes",
-                    f,
-                    &label,
-                    [0.0; 2],
-                    "no geometry",
-                ));
-                continue;
-            }
-            Some(GeometryValue::LineString { coordinates }) => vec![coordinates.clone()],
-            Some(GeometryValue::MultiLineString { coordinates }) => coordinates.clone(),
-            Some(other) => {
-                err(
-                    format!(
-                        "is a {}, not a LineString or MultiLineString",
-                        other.type_name()
-                    ),
-                    "the pipes layer holds lines only; move other features to their own layer",
-                );
-                continue;
-            }
-        }
-        .iter()
-        .filter_map(|p| part_points(p))
-        .collect();
-        let parts: Vec<Vec<[f64; 2]>> = parts.into_iter().filter(|p| p.len() >= 2).collect();
-        if parts.is_empty() {
-            let at = first_position(f);
-            events.push(event(
-                Action::Dropped,
-                "pipes",
-                f,
-                &label,
-                at,
-                "zero length",
-            ));
+        let Some(parts) = line_parts(f, &label, &mut err, events) else {
             continue;
-        }
+        };
         let Some(values) = pipe_values(f, mapping, units, &mut err) else {
             continue;
         };
-        let id = attribute_text(f, m.id.as_deref())
-            .or_else(|| f.feature_id.clone())
-            .unwrap_or_else(|| {
-                let id = format!("pipe-{}", f.index);
-                events.push(event(
-                    Action::Guessed,
-                    "pipes",
-                    f,
-                    &id,
-                    parts[0][0],
-                    "no id: named after the feature's index",
-                ));
-                id
-            });
+        let id = line_id(f, m.id.as_deref(), parts[0][0], events);
         if values.guessed_roughness {
             events.push(event(
                 Action::Guessed,
@@ -292,6 +241,70 @@ pub fn read_lines(
         });
     }
     lines
+}
+
+/// The parts of a line feature with at least two distinct positions each; `None` after an
+/// error (not a line) or a drop (no geometry, zero length).
+fn line_parts(
+    f: &InFeature,
+    label: &str,
+    err: &mut impl FnMut(String, &str),
+    events: &mut Vec<Event>,
+) -> Option<Vec<Vec<[f64; 2]>>> {
+    let raw: Vec<geojson::LineStringType> = match &f.geometry {
+        None => {
+            events.push(event(
+                Action::Dropped,
+                "pipes",
+                f,
+                label,
+                [0.0; 2],
+                "no geometry",
+            ));
+            return None;
+        }
+        Some(GeometryValue::LineString { coordinates }) => vec![coordinates.clone()],
+        Some(GeometryValue::MultiLineString { coordinates }) => coordinates.clone(),
+        Some(other) => {
+            err(
+                format!(
+                    "is a {}, not a LineString or MultiLineString",
+                    other.type_name()
+                ),
+                "the pipes layer holds lines only; move other features to their own layer",
+            );
+            return None;
+        }
+    };
+    let parts: Vec<Vec<[f64; 2]>> = raw
+        .iter()
+        .filter_map(|p| part_points(p))
+        .filter(|p| p.len() >= 2)
+        .collect();
+    if parts.is_empty() {
+        let at = first_position(f);
+        events.push(event(Action::Dropped, "pipes", f, label, at, "zero length"));
+        return None;
+    }
+    Some(parts)
+}
+
+/// The pipe's id: the mapped attribute, else the feature's id, else `pipe-N` (reported).
+fn line_id(f: &InFeature, attr: Option<&str>, at: [f64; 2], events: &mut Vec<Event>) -> String {
+    attribute_text(f, attr)
+        .or_else(|| f.feature_id.clone())
+        .unwrap_or_else(|| {
+            let id = format!("pipe-{}", f.index);
+            events.push(event(
+                Action::Guessed,
+                "pipes",
+                f,
+                &id,
+                at,
+                "no id: named after the feature's index",
+            ));
+            id
+        })
 }
 
 fn first_position(f: &InFeature) -> [f64; 2] {
@@ -342,6 +355,97 @@ struct PipeValues {
     end_elevations: [Option<f64>; 2],
 }
 
+/// The numeric attributes of a pipe feature as given (not yet SI): diameter, length,
+/// roughness, minor loss, start and end elevations.
+type Numbers = [Option<f64>; 6];
+
+/// Reads the numeric attributes; `None` after reporting one that is not a number.
+fn pipe_numbers(
+    f: &InFeature,
+    mapping: &Mapping,
+    err: &mut impl FnMut(String, &str),
+) -> Option<Numbers> {
+    let m = &mapping.pipes;
+    let e = &mapping.elevations;
+    let names: [(Option<&str>, &str); 6] = [
+        (Some(m.diameter.as_str()), "diameter"),
+        (m.length.as_deref(), "length"),
+        (m.roughness.as_deref(), "roughness"),
+        (m.minor_loss.as_deref(), "minor loss"),
+        (e.start.as_deref(), "start elevation"),
+        (e.end.as_deref(), "end elevation"),
+    ];
+    let mut out = [None; 6];
+    let mut ok = true;
+    for (slot, (name, what)) in out.iter_mut().zip(names) {
+        let Some(name) = name else { continue };
+        match attribute_number(f, name) {
+            Ok(v) => *slot = v,
+            Err(text) => {
+                ok = false;
+                err(
+                    format!("{what} attribute `{name}` is {text}, not a number"),
+                    "give a plain number (no unit) in the GIS",
+                );
+            }
+        }
+    }
+    ok.then_some(out)
+}
+
+/// The roughness: the attribute, else the material table, else the default (guessed).
+fn roughness_of(
+    attribute: Option<f64>,
+    material: Option<&String>,
+    m: &super::mapping::PipesSection,
+    err: &mut impl FnMut(String, &str),
+) -> Option<(f64, bool)> {
+    let (roughness, guessed) = match attribute {
+        Some(r) => (Some(r), false),
+        None => match material.and_then(|t| m.roughness_by_material.get(t)) {
+            Some(r) => (Some(*r), false),
+            None => (m.default_roughness, true),
+        },
+    };
+    match roughness.filter(|r| *r > 0.0) {
+        Some(r) => Some((r, guessed)),
+        None => {
+            err(
+                format!(
+                    "no roughness: the attribute is empty or not above 0, and the material {} is not in [pipes.roughness_by_material]",
+                    material.map(|t| format!("`{t}`")).unwrap_or_else(|| "(none)".into())
+                ),
+                "fill the roughness attribute, add the material to [pipes.roughness_by_material], or set [pipes] default_roughness",
+            );
+            None
+        }
+    }
+}
+
+/// The status word of the attribute's text (through `[pipes.status_values]`).
+fn status_of(
+    text: Option<String>,
+    m: &super::mapping::PipesSection,
+    err: &mut impl FnMut(String, &str),
+) -> Option<PipeStatus> {
+    let Some(text) = text else {
+        return Some(PipeStatus::Open);
+    };
+    let word = m.status_values.get(&text).cloned().unwrap_or(text.clone());
+    match word.to_ascii_lowercase().as_str() {
+        "open" => Some(PipeStatus::Open),
+        "closed" => Some(PipeStatus::Closed),
+        "check" => Some(PipeStatus::Check),
+        _ => {
+            err(
+                format!("status `{text}` is not open, closed or check"),
+                "add the text to [pipes.status_values] with open, closed or check",
+            );
+            None
+        }
+    }
+}
+
 /// The attributes of one pipe feature in SI; `None` after reporting an error.
 fn pipe_values(
     f: &InFeature,
@@ -350,40 +454,7 @@ fn pipe_values(
     err: &mut impl FnMut(String, &str),
 ) -> Option<PipeValues> {
     let m = &mapping.pipes;
-    let mut ok = true;
-    let mut number = |name: &str, what: &str, err: &mut dyn FnMut(String, &str)| {
-        attribute_number(f, name).unwrap_or_else(|text| {
-            ok = false;
-            err(
-                format!("{what} attribute `{name}` is {text}, not a number"),
-                "give a plain number (no unit) in the GIS",
-            );
-            None
-        })
-    };
-    let diameter = number(&m.diameter, "diameter", err);
-    let length = m.length.as_deref().and_then(|a| number(a, "length", err));
-    let roughness_attr = m
-        .roughness
-        .as_deref()
-        .and_then(|a| number(a, "roughness", err));
-    let minor_loss = m
-        .minor_loss
-        .as_deref()
-        .and_then(|a| number(a, "minor loss", err));
-    let start = mapping
-        .elevations
-        .start
-        .as_deref()
-        .and_then(|a| number(a, "start elevation", err));
-    let end = mapping
-        .elevations
-        .end
-        .as_deref()
-        .and_then(|a| number(a, "end elevation", err));
-    if !ok {
-        return None;
-    }
+    let [diameter, length, roughness, minor_loss, start, end] = pipe_numbers(f, mapping, err)?;
     let Some(diameter) = diameter.filter(|d| *d > 0.0) else {
         err(
             format!(
@@ -402,44 +473,8 @@ fn pipe_values(
         return None;
     }
     let material = attribute_text(f, m.material.as_deref());
-    let (roughness, guessed_roughness) = match roughness_attr {
-        Some(r) => (Some(r), false),
-        None => match material
-            .as_ref()
-            .and_then(|t| m.roughness_by_material.get(t))
-        {
-            Some(r) => (Some(*r), false),
-            None => (m.default_roughness, true),
-        },
-    };
-    let Some(roughness) = roughness.filter(|r| *r > 0.0) else {
-        err(
-            format!(
-                "no roughness: the attribute is empty or not above 0, and the material {} is not in [pipes.roughness_by_material]",
-                material.as_deref().map(|t| format!("`{t}`")).unwrap_or_else(|| "(none)".into())
-            ),
-            "fill the roughness attribute, add the material to [pipes.roughness_by_material], or set [pipes] default_roughness",
-        );
-        return None;
-    };
-    let status = match attribute_text(f, m.status.as_deref()) {
-        None => PipeStatus::Open,
-        Some(text) => {
-            let word = m.status_values.get(&text).cloned().unwrap_or(text.clone());
-            match word.to_ascii_lowercase().as_str() {
-                "open" => PipeStatus::Open,
-                "closed" => PipeStatus::Closed,
-                "check" => PipeStatus::Check,
-                _ => {
-                    err(
-                        format!("status `{text}` is not open, closed or check"),
-                        "add the text to [pipes.status_values] with open, closed or check",
-                    );
-                    return None;
-                }
-            }
-        }
-    };
+    let (roughness, guessed_roughness) = roughness_of(roughness, material.as_ref(), m, err)?;
+    let status = status_of(attribute_text(f, m.status.as_deref()), m, err)?;
     Some(PipeValues {
         length_m: length.map(|l| l * units.length_m),
         diameter_m: diameter * units.diameter_m,
@@ -587,6 +622,24 @@ impl Builder {
                 }
             }
         }
+        self.assign_ends(ends, &node_of, metres_per_unit);
+        self.drop_loops();
+        for (i, n) in self.nodes.iter().enumerate() {
+            self.junction_index.insert(GeomWithData::new(n.pos, i));
+        }
+        for p in 0..self.pipes.len() {
+            self.index_segments(p);
+        }
+    }
+
+    /// Each end's pipe gets its node; the end moves onto the node, and a measured length is
+    /// measured again.
+    fn assign_ends(
+        &mut self,
+        ends: &[([f64; 2], usize, usize)],
+        node_of: &[Option<usize>],
+        metres_per_unit: f64,
+    ) {
         for (j, &(_, pipe, end)) in ends.iter().enumerate() {
             let node = node_of[j].unwrap_or(usize::MAX);
             let pos = self.nodes.get(node).map(|n| n.pos);
@@ -603,13 +656,6 @@ impl Builder {
             if p.measured {
                 p.length_m = polyline_length(&p.pts) * metres_per_unit;
             }
-        }
-        self.drop_loops();
-        for (i, n) in self.nodes.iter().enumerate() {
-            self.junction_index.insert(GeomWithData::new(n.pos, i));
-        }
-        for p in 0..self.pipes.len() {
-            self.index_segments(p);
         }
     }
 

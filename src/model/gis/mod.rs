@@ -62,79 +62,64 @@ pub struct Summary {
 /// enough to smooth one noisy point, few enough to stay local).
 pub const DEFAULT_IDW_NEIGHBOURS: usize = 6;
 
+/// The mapping and the layers as read.
+struct Inputs {
+    mapping: Mapping,
+    mapping_file: String,
+    pipes: Layer,
+    hydrants: Option<Layer>,
+    sources: Option<Layer>,
+}
+
+/// Reads the mapping and the layers; `None` after any error.
+fn read_inputs(inputs: &ImportInputs<'_>, diags: &mut Diagnostics) -> Option<Inputs> {
+    let mapping = mapping::read_mapping(inputs.mapping, diags)?;
+    let mapping_file = inputs.mapping.display().to_string();
+    check_mapping(&mapping, &mapping_file, diags);
+    let pipes = read_layer(inputs.pipes, diags);
+    let hydrants = inputs.hydrants.and_then(|p| read_layer(p, diags));
+    let sources = inputs.sources.and_then(|p| read_layer(p, diags));
+    if diags.has_errors() {
+        return None;
+    }
+    Some(Inputs {
+        mapping,
+        mapping_file,
+        pipes: pipes?,
+        hydrants,
+        sources,
+    })
+}
+
 /// Reads the layers and the mapping, builds the network, and renders its files.
 pub fn import_geojson(inputs: &ImportInputs<'_>) -> Result<Imported, Diagnostics> {
     let mut diags = Diagnostics::new();
-    let Some(mapping) = mapping::read_mapping(inputs.mapping, &mut diags) else {
+    let Some(read) = read_inputs(inputs, &mut diags) else {
         return Err(diags);
     };
-    let mapping_file = inputs.mapping.display().to_string();
-    check_mapping(&mapping, &mapping_file, &mut diags);
-    let pipes = read_layer(inputs.pipes, &mut diags);
-    let hydrants = inputs.hydrants.and_then(|p| read_layer(p, &mut diags));
-    let sources = inputs.sources.and_then(|p| read_layer(p, &mut diags));
-    if diags.has_errors() {
-        return Err(diags);
-    }
-    let Some(pipes) = pipes else {
-        return Err(diags);
-    };
-    let layers: Vec<&Layer> = [Some(&pipes), hydrants.as_ref(), sources.as_ref()]
+    let Inputs {
+        mapping,
+        mapping_file,
+        pipes,
+        hydrants,
+        sources,
+    } = &read;
+    let layers: Vec<&Layer> = [Some(pipes), hydrants.as_ref(), sources.as_ref()]
         .into_iter()
         .flatten()
         .collect();
-    let Some((crs, metres_per_unit)) = resolve_crs(&layers, &mapping, &mapping_file, &mut diags)
+    let Some((crs, metres_per_unit)) = resolve_crs(&layers, mapping, mapping_file, &mut diags)
     else {
         return Err(diags);
     };
-    let units = attribute_units(&mapping);
-    let mut events = Vec::new();
-    let lines = build::read_lines(&pipes, &mapping, &units, &mut diags, &mut events);
+    let b = build_network(&read, inputs, metres_per_unit, &mut diags);
     if diags.has_errors() {
         return Err(diags);
     }
-    let c = &mapping.coordinates;
-    let split_tolerance = c.split_tolerance.unwrap_or(c.attach_tolerance);
-    let mut b = Builder::from_lines(&lines, c.snap_tolerance, metres_per_unit);
-    b.events.splice(0..0, events);
-    b.report_not_joined(c.snap_tolerance);
-    if let Some(layer) = &sources {
-        place_sources(
-            &mut b,
-            layer,
-            &mapping,
-            c.attach_tolerance,
-            split_tolerance,
-            &mut diags,
-        );
-    }
-    if let Some(layer) = &hydrants {
-        place_hydrants(
-            &mut b,
-            layer,
-            &mapping,
-            c.attach_tolerance,
-            split_tolerance,
-            &mut diags,
-        );
-    }
-    if !b.nodes.iter().any(|n| n.source.is_some()) && !diags.has_errors() {
-        diags.error(
-            Location::file(pipes.file.clone()),
-            "the network has no source",
-            "give --sources with the reservoirs and tanks as points at the ends of their pipes",
-        );
-    }
-    elevations(&mut b, &mapping, inputs.elevations, &mut diags);
-    if let Some(path) = inputs.demands {
-        demands(&mut b, &mapping, path, &mut diags);
-    }
-    if diags.has_errors() {
-        return Err(diags);
-    }
+    let mut b = b;
     let pipe_ids = b.pipe_ids();
     let (network_files, junctions) =
-        write::network_files(&b, &pipe_ids, &mapping, crs.as_deref(), &mut diags);
+        write::network_files(&b, &pipe_ids, mapping, crs.as_deref(), &mut diags);
     if diags.has_errors() {
         return Err(diags);
     }
@@ -156,6 +141,59 @@ pub fn import_geojson(inputs: &ImportInputs<'_>) -> Result<Imported, Diagnostics
         events: b.events,
         summary,
     })
+}
+
+/// The topology, sources, hydrants, elevations and demands; problems go to `diags`.
+fn build_network(
+    read: &Inputs,
+    inputs: &ImportInputs<'_>,
+    metres_per_unit: f64,
+    diags: &mut Diagnostics,
+) -> Builder {
+    let mapping = &read.mapping;
+    let units = attribute_units(mapping);
+    let mut events = Vec::new();
+    let lines = build::read_lines(&read.pipes, mapping, &units, diags, &mut events);
+    if diags.has_errors() {
+        return Builder::default();
+    }
+    let c = &mapping.coordinates;
+    let split_tolerance = c.split_tolerance.unwrap_or(c.attach_tolerance);
+    let mut b = Builder::from_lines(&lines, c.snap_tolerance, metres_per_unit);
+    b.events.splice(0..0, events);
+    b.report_not_joined(c.snap_tolerance);
+    if let Some(layer) = &read.sources {
+        place_sources(
+            &mut b,
+            layer,
+            mapping,
+            c.attach_tolerance,
+            split_tolerance,
+            diags,
+        );
+    }
+    if let Some(layer) = &read.hydrants {
+        place_hydrants(
+            &mut b,
+            layer,
+            mapping,
+            c.attach_tolerance,
+            split_tolerance,
+            diags,
+        );
+    }
+    if !b.nodes.iter().any(|n| n.source.is_some()) && !diags.has_errors() {
+        diags.error(
+            Location::file(read.pipes.file.clone()),
+            "the network has no source",
+            "give --sources with the reservoirs and tanks as points at the ends of their pipes",
+        );
+    }
+    elevations(&mut b, mapping, inputs.elevations, diags);
+    if let Some(path) = inputs.demands {
+        demands(&mut b, mapping, path, diags);
+    }
+    b
 }
 
 fn coordinate_unit_text(metres_per_unit: f64) -> String {
@@ -235,32 +273,8 @@ fn resolve_crs(
     diags: &mut Diagnostics,
 ) -> Option<(Option<String>, f64)> {
     let c = &mapping.coordinates;
-    // Every layer that names a CRS must name the same one.
-    let mut named: Option<(Option<String>, &str)> = None;
-    for layer in layers {
-        if let Some(member) = &layer.crs {
-            let short = member.as_deref().map(crs::normalize);
-            match &named {
-                Some((first, file)) if *first != short => {
-                    diags.error(
-                        Location::file(layer.file.clone()),
-                        format!(
-                            "the CRS {} differs from {}'s {}",
-                            short.as_deref().unwrap_or("null"),
-                            file,
-                            first.as_deref().unwrap_or("null")
-                        ),
-                        "export every layer in the same projected CRS",
-                    );
-                    return None;
-                }
-                Some(_) => {}
-                None => named = Some((short, &layer.file)),
-            }
-        }
-    }
-    let crs = match named {
-        Some((crs, _)) => crs,
+    let crs = match named_crs(layers, diags)? {
+        Some(crs) => crs,
         None => match c.crs.as_deref() {
             Some(text) if text.eq_ignore_ascii_case("local") => None,
             Some(text) => Some(crs::normalize(text)),
@@ -274,19 +288,59 @@ fn resolve_crs(
             }
         },
     };
-    let stated = c.unit.map(|u| u.metres());
-    let kind = crs.as_deref().map_or(crs::CrsKind::Unknown, crs::kind);
-    let metres = match kind {
+    let metres = metres_per_unit(crs.as_deref(), c.unit, &layers[0].file, mapping_file, diags)?;
+    Some((crs, metres))
+}
+
+/// The CRS the layers' `crs` members name: `Some(None)` when none has a member, `None` after
+/// reporting layers that disagree.
+fn named_crs(layers: &[&Layer], diags: &mut Diagnostics) -> Option<Option<Option<String>>> {
+    let mut named: Option<(Option<String>, &str)> = None;
+    for layer in layers {
+        let Some(member) = &layer.crs else { continue };
+        let short = member.as_deref().map(crs::normalize);
+        match &named {
+            Some((first, file)) if *first != short => {
+                diags.error(
+                    Location::file(layer.file.clone()),
+                    format!(
+                        "the CRS {} differs from {}'s {}",
+                        short.as_deref().unwrap_or("null"),
+                        file,
+                        first.as_deref().unwrap_or("null")
+                    ),
+                    "export every layer in the same projected CRS",
+                );
+                return None;
+            }
+            Some(_) => {}
+            None => named = Some((short, &layer.file)),
+        }
+    }
+    Some(named.map(|(crs, _)| crs))
+}
+
+/// Metres per coordinate unit: the CRS's own unit when firemain knows the CRS (a contradicting
+/// `[coordinates] unit` is an error), else the mapping's; a geographic CRS is refused.
+fn metres_per_unit(
+    crs: Option<&str>,
+    unit: Option<mapping::LengthUnit>,
+    layer_file: &str,
+    mapping_file: &str,
+    diags: &mut Diagnostics,
+) -> Option<f64> {
+    let stated = unit.map(|u| u.metres());
+    match crs.map_or(crs::CrsKind::Unknown, crs::kind) {
         crs::CrsKind::Geographic => {
             diags.error(
-                Location::file(layers[0].file.clone()),
+                Location::file(layer_file),
                 format!(
                     "the data is in the geographic CRS {} (longitude/latitude in degrees): pipe lengths and tolerances cannot be measured in degrees",
-                    crs.as_deref().unwrap_or("")
+                    crs.unwrap_or("")
                 ),
                 "project the data first (e.g. to the local state plane or UTM zone) and export the layers again",
             );
-            return None;
+            None
         }
         crs::CrsKind::Projected { metres_per_unit } => match stated {
             Some(s) if (s - metres_per_unit).abs() > 1e-9 * metres_per_unit => {
@@ -295,34 +349,32 @@ fn resolve_crs(
                     format!(
                         "[coordinates] unit gives {} m per unit, but {} is in units of {} m",
                         short(s),
-                        crs.as_deref().unwrap_or(""),
+                        crs.unwrap_or(""),
                         metres_per_unit
                     ),
                     "leave [coordinates] unit out (the CRS decides it) or correct it",
                 );
-                return None;
+                None
             }
-            _ => metres_per_unit,
+            _ => Some(metres_per_unit),
         },
-        crs::CrsKind::Unknown => match stated {
-            Some(s) => s,
-            None => {
+        crs::CrsKind::Unknown => {
+            if stated.is_none() {
                 diags.error(
                     Location::file(mapping_file),
                     format!(
                         "the unit of the coordinates is not known ({})",
-                        match &crs {
+                        match crs {
                             Some(name) => format!("firemain does not know the CRS {name}"),
                             None => "the data names no CRS".into(),
                         }
                     ),
                     "state it in [coordinates] unit = \"ft\", \"us-ft\" or \"m\"",
                 );
-                return None;
             }
-        },
-    };
-    Some((crs, metres))
+            stated
+        }
+    }
 }
 
 fn attribute_units(m: &Mapping) -> AttributeUnits {
@@ -484,25 +536,10 @@ fn place_hydrants(
                 id
             }
         };
-        let required = match m.required_flow.as_deref().map(|a| attribute_number(f, a)) {
-            None | Some(Ok(None)) => None,
-            Some(Ok(Some(q))) if q > 0.0 => Some(q * flow),
-            Some(Ok(Some(q))) => {
-                diags.error(
-                    layer.at(),
-                    format!("{label}: required flow {q} is not above 0"),
-                    "leave it empty to use the criteria's flow for the class",
-                );
-                continue;
-            }
-            Some(Err(text)) => {
-                diags.error(
-                    layer.at(),
-                    format!("{label}: required flow {text} is not a number"),
-                    "give a plain number (no unit) in the GIS",
-                );
-                continue;
-            }
+        let Some(required) =
+            required_flow(f, m.required_flow.as_deref(), flow, &label, layer, diags)
+        else {
+            continue;
         };
         let id = unique_hydrant_id(b, &mut taken, id, f, pos);
         match b.place_point(pos, attach, split) {
@@ -535,6 +572,37 @@ fn place_hydrants(
                     short(split)
                 ),
             )),
+        }
+    }
+}
+
+/// A hydrant's own required flow, m³/s (`Some(None)`: none given); `None` after an error.
+fn required_flow(
+    f: &InFeature,
+    attribute: Option<&str>,
+    m3s_per_unit: f64,
+    label: &str,
+    layer: &Layer,
+    diags: &mut Diagnostics,
+) -> Option<Option<f64>> {
+    match attribute.map(|a| attribute_number(f, a)) {
+        None | Some(Ok(None)) => Some(None),
+        Some(Ok(Some(q))) if q > 0.0 => Some(Some(q * m3s_per_unit)),
+        Some(Ok(Some(q))) => {
+            diags.error(
+                layer.at(),
+                format!("{label}: required flow {q} is not above 0"),
+                "leave it empty to use the criteria's flow for the class",
+            );
+            None
+        }
+        Some(Err(text)) => {
+            diags.error(
+                layer.at(),
+                format!("{label}: required flow {text} is not a number"),
+                "give a plain number (no unit) in the GIS",
+            );
+            None
         }
     }
 }
