@@ -993,3 +993,42 @@ fn junctions_without_elevation_are_named_and_duplicate_hydrants_renamed() {
     );
     assert!(read(&dir.join("n2/import.csv")).contains("renamed,hydrants,1,H1,200,2,"));
 }
+
+#[test]
+fn upsize_geojson_proposed_upsizings_are_lines() {
+    let tmp = tempfile::tempdir().expect("tempdir");
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let out = tmp.path().join("out");
+    let o = firemain(&[
+        "upsize",
+        &root.join("tests/data/sweep_town").display().to_string(),
+        "--criteria",
+        &root
+            .join("tests/data/criteria/us-20psi-1000gpm.toml")
+            .display()
+            .to_string(),
+        "--out",
+        &out.display().to_string(),
+        "--geojson",
+        "--quiet",
+    ]);
+    assert!(
+        matches!(o.status.code(), Some(0 | 1)),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let (_, plan) = parse(&out.join("upsize_plan.geojson"));
+    assert_eq!(plan.len(), rows(&out.join("upsize_plan.csv")).len());
+    assert!(!plan.is_empty() && plan.iter().all(|f| geometry_type(f) == "LineString"));
+    let mut names = property_names(&plan[0]);
+    names.sort();
+    let mut header: Vec<String> = data_lines(&out.join("upsize_plan.csv"))[0]
+        .split(',')
+        .map(str::to_string)
+        .collect();
+    header.sort();
+    assert_eq!(names, header);
+    let (_, hydrants) = parse(&out.join("upsize_hydrants.geojson"));
+    assert!(hydrants.iter().all(|f| geometry_type(f) == "Point"));
+    parse(&out.join("weak_mains_after.geojson"));
+}

@@ -813,11 +813,13 @@ impl Builder {
         let (p, seg, at, d) = self.nearest_on_pipe(pos, split)?;
         let pipe = &self.pipes[p];
         let (first, last) = (pipe.pts[0], pipe.pts[pipe.pts.len() - 1]);
-        // A projection onto a pipe's very end is that end's junction, not a split.
+        // A projection onto a pipe's very end is that end's node, not a split (which would
+        // make a piece of no length); a source there cannot take the point.
         for (end, node) in [(first, pipe.from), (last, pipe.to)] {
-            if dist(at, end) <= SPLIT_END_EPSILON * pipe_scale(pipe)
-                && self.nodes[node].source.is_none()
-            {
+            if dist(at, end) <= SPLIT_END_EPSILON * pipe_scale(pipe) {
+                if self.nodes[node].source.is_some() {
+                    return None;
+                }
                 return Some((
                     node,
                     Action::Attached,

@@ -141,6 +141,14 @@ pub fn parse_layer(text: &str, file: &str, diags: &mut Diagnostics) -> Option<La
         return None;
     }
     let crs = object.get("crs").map(crs_member);
+    if crs == Some(None) && object.get("crs").is_some_and(|c| !c.is_null()) {
+        diags.error(
+            Location::file(file),
+            "the `crs` member does not name a CRS (only the form {\"type\": \"name\", \"properties\": {\"name\": ...}} is read)",
+            "export the layer with its CRS named (e.g. urn:ogc:def:crs:EPSG::2276), or state it in the mapping's [coordinates] crs and remove the member",
+        );
+        return None;
+    }
     let Some(JsonValue::Array(raw)) = object.remove("features") else {
         diags.error(
             Location::file(file),
