@@ -189,7 +189,13 @@ fn build_network(
             "give --sources with the reservoirs and tanks as points at the ends of their pipes",
         );
     }
-    elevations(&mut b, mapping, inputs.elevations, diags);
+    elevations(
+        &mut b,
+        mapping,
+        &read.mapping_file,
+        inputs.elevations,
+        diags,
+    );
     if let Some(path) = inputs.demands {
         demands(&mut b, mapping, path, diags);
     }
@@ -636,7 +642,13 @@ fn unique_hydrant_id(
 }
 
 /// Every junction's elevation, from the pipes' end attributes or the survey points.
-fn elevations(b: &mut Builder, mapping: &Mapping, points: Option<&Path>, diags: &mut Diagnostics) {
+fn elevations(
+    b: &mut Builder,
+    mapping: &Mapping,
+    mapping_file: &str,
+    points: Option<&Path>,
+    diags: &mut Diagnostics,
+) {
     // Samples from the pipes' end attributes.
     let ends: Vec<(usize, Option<f64>)> = b
         .pipes
@@ -654,7 +666,7 @@ fn elevations(b: &mut Builder, mapping: &Mapping, points: Option<&Path>, diags: 
         Some(ElevationSource::Points) => {
             let Some(path) = points else {
                 diags.error(
-                    Location::file(path_text(None)),
+                    Location::file(mapping_file),
                     "[elevations] from = \"points\" but no --elevations file was given",
                     "give --elevations FILE (a CSV with columns x, y, elevation)",
                 );
@@ -698,7 +710,7 @@ fn elevations(b: &mut Builder, mapping: &Mapping, points: Option<&Path>, diags: 
             String::new()
         };
         diags.error(
-            Location::file(path_text(points)),
+            Location::file(points.map_or_else(|| mapping_file.to_string(), |p| p.display().to_string())),
             format!(
                 "{} junction(s) have no elevation, at {shown}{more}",
                 missing.len()
@@ -706,10 +718,6 @@ fn elevations(b: &mut Builder, mapping: &Mapping, points: Option<&Path>, diags: 
             "set [elevations] from = \"attributes\" (with start/end pipe attributes filled at every line end) or \"points\" with an --elevations CSV",
         );
     }
-}
-
-fn path_text(p: Option<&Path>) -> String {
-    p.map_or_else(|| "elevations".to_string(), |p| p.display().to_string())
 }
 
 fn elevations_from_samples(b: &mut Builder) {
