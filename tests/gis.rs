@@ -112,6 +112,7 @@ diameter_unit = "in"
 roughness = "C"
 material = "MAT"
 default_roughness = 100
+zone = "ZONE"
 
 [pipes.roughness_by_material]
 DI = 130
@@ -161,6 +162,7 @@ fn small_layers_at(dir: &Path, offset: [f64; 2], crs: Option<&str>) {
                 ("MAT", json!("DI")),
                 ("Z0", json!(100)),
                 ("Z1", json!(101)),
+                ("ZONE", json!("town")),
             ]),
         ),
         line(
@@ -257,7 +259,8 @@ fn small_network_is_imported_file_by_file() {
         data_lines(&net.join("junctions.csv")),
         [
             "id,elevation,demand,zone,x,y",
-            "J-0001,101,0,,100,0",
+            // A's zone reaches J-0001 (its other end is the source, which has none).
+            "J-0001,101,0,town,100,0",
             "J-0002,103,0,,100,100",
             "J-0003,102,0,,200,0",
             "J-0004,103,0,,300,0",

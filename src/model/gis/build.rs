@@ -558,14 +558,11 @@ impl Builder {
             }
         }
         b.snap_ends(&ends, tolerance, metres_per_unit);
-        for line in lines {
-            b.zone_from_line(line);
-        }
+        b.zones_from_lines(lines);
         b
     }
 
-    /// Groups line ends into junctions, first come first served.
-    /// A snapped end moves onto its junction, so that the line drawn is the pipe modelled; a
+    /// Groups line ends into junctions, first come first served. A snapped end moves onto its junction, so that the line drawn is the pipe modelled; a
     /// measured length is measured again.
     fn snap_ends(
         &mut self,
@@ -679,12 +676,19 @@ impl Builder {
         self.pipes = kept;
     }
 
-    fn zone_from_line(&mut self, line: &LineIn) {
-        let Some(zone) = &line.zone else { return };
-        for p in self.pipes.iter().filter(|p| p.feature == line.feature) {
+    /// A junction takes the zone of the first pipe (in file order) ending at it that has one.
+    fn zones_from_lines(&mut self, lines: &[LineIn]) {
+        let zone_of: HashMap<usize, &String> = lines
+            .iter()
+            .filter_map(|l| l.zone.as_ref().map(|z| (l.feature, z)))
+            .collect();
+        for p in &self.pipes {
+            let Some(zone) = zone_of.get(&p.feature) else {
+                continue;
+            };
             for n in [p.from, p.to] {
                 if let Some(node) = self.nodes.get_mut(n) {
-                    node.zone.get_or_insert_with(|| zone.clone());
+                    node.zone.get_or_insert_with(|| (*zone).clone());
                 }
             }
         }
