@@ -7,7 +7,7 @@ use clap::{Parser, Subcommand};
 
 mod commands;
 
-use commands::{check, flowtest, permit, solve, upsize, validate};
+use commands::{check, flowtest, import, permit, solve, upsize, validate};
 
 const EXIT_CODES: &str = "Exit codes: 0 = success (everything passes), 1 = findings (something fails its criteria), \
 2 = input error (command line, network or criteria files), 3 = analysis error (no hydraulic solution, or output not written).";
@@ -43,6 +43,9 @@ enum Command {
     /// Solve the steady state at one demand condition.
     #[command(after_help = EXIT_CODES)]
     Solve(solve::SolveArgs),
+    /// Make a network folder from GIS layers (GeoJSON), reporting every change.
+    #[command(after_help = EXIT_CODES)]
+    Import(import::ImportArgs),
 }
 
 fn main() -> ExitCode {
@@ -53,6 +56,7 @@ fn main() -> ExitCode {
         Command::Check(args) => check::run(&args),
         Command::Flowtest(args) => flowtest::run(&args),
         Command::Permit(args) => permit::run(&args),
+        Command::Import(args) => import::run(&args),
     };
     if let Err(e) = &result {
         eprint!("{}", e.stderr_text());

@@ -23,6 +23,9 @@ pub enum CliError {
     /// An output folder that is the network folder, refused before any analysis runs.
     #[error("--out {} is the network folder; choose another folder so that no input file can be overwritten", .0.display())]
     OutputIsNetworkFolder(PathBuf),
+    /// An `import` output folder that already holds files.
+    #[error("--out {} already holds files; give a new or empty folder (an import never writes over a network)", .0.display())]
+    OutputNotEmpty(PathBuf),
     /// The network has errors, listed in `diagnostics`.
     #[error("the network in {} has errors; nothing was analysed", .dir.display())]
     Network {
@@ -66,6 +69,9 @@ pub enum CliError {
     /// `--budget` is not a positive number.
     #[error("--budget must be a positive number")]
     Budget,
+    /// The GIS layers or the mapping of `import geojson` have errors, listed in `diagnostics`.
+    #[error("the GIS layers or the mapping have errors; nothing was written")]
+    Import { diagnostics: Diagnostics },
     /// The field flow tests have errors, listed in `diagnostics`.
     #[error("the flow tests have errors; nothing was analysed")]
     FlowTests { diagnostics: Diagnostics },
@@ -108,6 +114,7 @@ impl CliError {
         match self {
             CliError::Argument(_)
             | CliError::OutputIsNetworkFolder(_)
+            | CliError::OutputNotEmpty(_)
             | CliError::Network { .. }
             | CliError::NetworkListed { .. }
             | CliError::Criteria { .. }
@@ -120,6 +127,7 @@ impl CliError {
             | CliError::UnpricedSizes { .. }
             | CliError::Budget
             | CliError::FlowTests { .. }
+            | CliError::Import { .. }
             | CliError::CalibrationGroups { .. } => ExitStatus::InputError,
             CliError::Hydraulics(_)
             | CliError::Solve { .. }
@@ -139,7 +147,8 @@ impl CliError {
             | CliError::Criteria { diagnostics }
             | CliError::Project { diagnostics }
             | CliError::Buildings { diagnostics }
-            | CliError::FlowTests { diagnostics } => {
+            | CliError::FlowTests { diagnostics }
+            | CliError::Import { diagnostics } => {
                 format!(
                     "{}firemain: {self}\n",
                     report::validate::diagnostics(diagnostics)

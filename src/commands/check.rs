@@ -54,6 +54,10 @@ pub struct CheckArgs {
     /// report.html (project, site, applicant, reference, prepared and checked by, revision).
     #[arg(long, value_name = "FILE")]
     project: Option<PathBuf>,
+    /// Also write a GeoJSON twin of each result table with positions (fireflow, service, weak_mains), in the network's
+    /// CRS (see docs/gis.md). Needs --out.
+    #[arg(long, requires = "out")]
+    geojson: bool,
 }
 
 /// Solved points of each supply curve on a hydrant sheet (the required and available flows are
@@ -136,6 +140,10 @@ pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
     }
     if let Some(out) = &args.out {
         let set = report.output_set(args.stats.then_some(&stats));
+        let set = match args.geojson {
+            true => set.and_then(|set| report::geojson::with_twins(set, net)),
+            false => set,
+        };
         write_set(out, &args.network, set, args.quiet)?;
     }
     Ok(Outcome::from_findings(report.has_findings()))

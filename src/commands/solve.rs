@@ -22,6 +22,10 @@ pub struct SolveArgs {
     /// Also write node_results.csv, pipe_results.csv (and pump/valve results) here.
     #[arg(long)]
     out: Option<PathBuf>,
+    /// Also write a GeoJSON twin of each result table with positions (node, pipe, pump and valve results), in the network's
+    /// CRS (see docs/gis.md). Needs --out.
+    #[arg(long, requires = "out")]
+    geojson: bool,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -61,6 +65,10 @@ pub fn run(args: &SolveArgs) -> Result<Outcome, CliError> {
             generator: format!("firemain {VERSION}"),
             files,
         });
+        let set = match args.geojson {
+            true => set.and_then(|set| report::geojson::with_twins(set, net)),
+            false => set,
+        };
         write_set(out, &args.network, set, false)?;
     }
     Ok(Outcome::Success)

@@ -44,6 +44,10 @@ pub struct UpsizeArgs {
     /// proposed-network/ here.
     #[arg(long)]
     out: Option<PathBuf>,
+    /// Also write a GeoJSON twin of each result table with positions (upsize_plan, upsize_hydrants, weak_mains_after), in the network's
+    /// CRS (see docs/gis.md). Needs --out.
+    #[arg(long, requires = "out")]
+    geojson: bool,
     /// Worker threads, 1 to min(4 x cores, 1024) (default: all cores).
     #[arg(long)]
     threads: Option<usize>,
@@ -117,6 +121,10 @@ pub fn run(args: &UpsizeArgs) -> Result<Outcome, CliError> {
                 source: e,
             })
             .and_then(|files| report.output_set(files));
+        let set = match args.geojson {
+            true => set.and_then(|set| report::geojson::with_twins(set, net)),
+            false => set,
+        };
         write_set(out, &args.network, set, args.quiet)?;
     }
     Ok(Outcome::from_findings(after.has_findings()))

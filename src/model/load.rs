@@ -29,6 +29,8 @@ struct ModelFile {
     name: String,
     units: UnitSystem,
     headloss: HeadlossName,
+    /// The coordinate reference system of the x/y columns (`EPSG:NNNN`), see docs/gis.md.
+    crs: Option<String>,
     demand: DemandTable,
 }
 
@@ -225,7 +227,7 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
         return Err(diags);
     }
     let zones: Vec<String> = zones.into_iter().collect();
-    let network = Network::new(
+    let mut network = Network::new(
         model.name,
         model.units,
         match model.headloss {
@@ -239,6 +241,7 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
         hydrants,
         zones,
     );
+    network.crs = model.crs.map(|c| super::gis::crs::normalize(&c));
     super::validate::check_network(&network, &mut diags);
     if diags.has_errors() {
         return Err(diags);

@@ -4,6 +4,7 @@ pub mod buildings;
 pub mod costs;
 pub mod diagnostic;
 pub mod flowtests;
+pub mod gis;
 pub mod limits;
 pub mod load;
 pub mod network;

@@ -283,6 +283,8 @@ pub struct Network {
     pub hydrants: Vec<Hydrant>,
     /// Zone names, sorted.
     pub zones: Vec<String>,
+    /// The coordinate reference system of the x/y positions (`EPSG:NNNN`), from model.toml.
+    pub crs: Option<String>,
     node_index: HashMap<String, usize>,
     link_index: HashMap<String, usize>,
     hydrant_index: HashMap<String, usize>,
@@ -327,6 +329,7 @@ impl Network {
             links,
             hydrants,
             zones,
+            crs: None,
             node_index,
             link_index,
             hydrant_index,

@@ -7,8 +7,10 @@
 
 pub mod check;
 pub mod flowtest;
+pub mod geojson;
 pub mod html;
 pub mod permit;
+pub mod import;
 pub mod set;
 pub mod solve;
 pub mod table;
