@@ -11,8 +11,8 @@ use firemain::report::{self, OutputSet};
 
 pub mod check;
 pub mod flowtest;
-pub mod permit;
 pub mod import;
+pub mod permit;
 pub mod solve;
 pub mod upsize;
 pub mod validate;

@@ -7,8 +7,8 @@ use serde::Serialize;
 use super::html::Html;
 use super::table::{Align, Document, Markdown, Markup, Section, Table, Terminal, Text};
 use super::{
-    csv_bytes, date_of, input_warnings_section, num, JsonInputWarning, Out, OutputFile, OutputSet,
-    ReportError, CAUTIONS,
+    csv_bytes, date_of, input_warnings_section, num, with_code_spans, JsonInputWarning, Out,
+    OutputFile, OutputSet, ReportError, CAUTIONS,
 };
 use crate::criteria::{Criteria, NeededFlowSettings};
 use crate::fireflow::Split;
@@ -271,7 +271,11 @@ impl PermitReport<'_> {
                         .strong("Needed fire flow")
                         .plain(format!(" ({}): how it was reached", n.method)),
                 )
-                .list(n.steps.iter().map(|st| Text::from(st.text.as_str())));
+                .list(
+                    n.steps
+                        .iter()
+                        .map(|st| with_code_spans(Text::new(), &st.text)),
+                );
             if !n.all_verified() {
                 s = s.paragraph("Some figures of the method are unverified (from memory): confirm them against the document the official adopts.");
             }
