@@ -7,7 +7,7 @@ use clap::{Parser, Subcommand};
 
 mod commands;
 
-use commands::{check, flowtest, solve, upsize, validate};
+use commands::{check, flowtest, merge, solve, upsize, validate};
 
 const EXIT_CODES: &str = "Exit codes: 0 = success (everything passes), 1 = findings (something fails its criteria), \
 2 = input error (command line, network or criteria files), 3 = analysis error (no hydraulic solution, or output not written).";
@@ -40,6 +40,9 @@ enum Command {
     /// Solve the steady state at one demand condition.
     #[command(after_help = EXIT_CODES)]
     Solve(solve::SolveArgs),
+    /// Assemble the files of a sharded check (`check --shard K/N`) from its partials.
+    #[command(after_help = EXIT_CODES)]
+    Merge(merge::MergeArgs),
 }
 
 fn main() -> ExitCode {
@@ -49,6 +52,7 @@ fn main() -> ExitCode {
         Command::Upsize(args) => upsize::run(&args),
         Command::Check(args) => check::run(&args),
         Command::Flowtest(args) => flowtest::run(&args),
+        Command::Merge(args) => merge::run(&args),
     };
     if let Err(e) = &result {
         eprint!("{}", e.stderr_text());

@@ -11,6 +11,8 @@ use firemain::report::{self, OutputSet};
 
 pub mod check;
 pub mod flowtest;
+mod journalled;
+pub mod merge;
 pub mod solve;
 pub mod upsize;
 pub mod validate;

@@ -16,7 +16,7 @@ mod sweep;
 
 pub use curve::{supply_curve, supply_curves, CurvePoint, SupplyCurve, CHART_FLOW_EXPONENT};
 pub use search::analyse_hydrant;
-pub use sweep::{sweep, SweepError, SweepStats};
+pub use sweep::{sweep, sweep_each, SweepError, SweepStats};
 
 use crate::criteria::{Criteria, RequiredSource, Scope};
 use crate::hydraulics::{
