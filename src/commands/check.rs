@@ -284,7 +284,7 @@ fn field_test_summary(
 }
 
 /// The `--stats` line.
-fn stats_line(stats: &SweepStats) -> String {
+pub(super) fn stats_line(stats: &SweepStats) -> String {
     format!(
         "sweep: {} hydrants, {} solves, {} iterations, {} numeric factorizations ({:.2} per hydrant on average, {} at most), {:.2} s wall, {} thread(s)",
         stats.hydrants,

@@ -111,6 +111,9 @@ pub(super) fn run(
         (Some(shard), Some(partial)) => {
             writer.into_partial(&partial)?;
             emit(shard_summary(shard, &results));
+            if args.stats {
+                eprintln!("{}", super::check::stats_line(&stats));
+            }
             if !args.quiet {
                 eprintln!("wrote {}", partial.display());
             }
