@@ -5,7 +5,9 @@ use std::collections::HashMap;
 use std::path::Path;
 
 use firemain::cli::CliError;
-use firemain::fireflow::{sweep_each, FireFlowSetup, HydrantResult, Outcome as Verdict};
+use firemain::fireflow::{
+    sweep_each, FireFlowSetup, HydrantResult, Outcome as Verdict, SweepStats,
+};
 use firemain::journal::{
     self, check_resumable, hash_file, hash_network, partial_name, read_journal, shard_journal_name,
     Header, InputRef, JournalError, JournalWriter, Shard, JOURNAL_FILE,
@@ -106,6 +108,7 @@ pub(super) fn run(
         have.insert(r.hydrant, r);
     }
     let results: Vec<HydrantResult> = mine.iter().filter_map(|h| have.remove(h)).collect();
+    let stats = all_counters(stats, &results);
 
     match (args.shard, partial_path) {
         (Some(shard), Some(partial)) => {
@@ -182,4 +185,25 @@ fn shard_summary(shard: Shard, results: &[HydrantResult]) -> String {
         count(Verdict::Fail),
         count(Verdict::Error)
     )
+}
+
+/// The work counters of every hydrant, journalled ones included (each result carries its
+/// own): report.json's `sweep` is then that of an uninterrupted run; wall time and threads
+/// stay this run's.
+fn all_counters(stats: SweepStats, results: &[HydrantResult]) -> SweepStats {
+    let factorizations: u64 = results.iter().map(|r| u64::from(r.factorizations)).sum();
+    SweepStats {
+        hydrants: results.len(),
+        solves: results.iter().map(|r| u64::from(r.solves)).sum(),
+        iterations: results.iter().map(|r| u64::from(r.iterations)).sum(),
+        factorizations,
+        // As `sweep` computes it.
+        factorizations_per_hydrant_mean: if results.is_empty() {
+            0.0
+        } else {
+            factorizations as f64 / results.len() as f64
+        },
+        factorizations_per_hydrant_max: results.iter().map(|r| r.factorizations).max().unwrap_or(0),
+        ..stats
+    }
 }

@@ -129,7 +129,7 @@ fn merge_lists_missing_shards_and_refuses_duplicates_and_other_inputs() {
         .unwrap()
         .finish()
         .unwrap();
-    let e = gather(&[a.clone()]).unwrap_err().to_string();
+    let e = gather(std::slice::from_ref(&a)).unwrap_err().to_string();
     assert!(e.contains("missing 2 of 3 shard(s): 1/3, 2/3"), "{e}");
     assert!(e.contains("check-journal-2-of-3.jsonl"), "{e}");
 
@@ -139,7 +139,7 @@ fn merge_lists_missing_shards_and_refuses_duplicates_and_other_inputs() {
     let e = gather(&[a.clone(), b.clone()]).unwrap_err().to_string();
     assert!(e.contains("shard 0/3 in") && e.contains("twice"), "{e}");
 
-    let g = gather(&[b.clone()]).unwrap();
+    let g = gather(std::slice::from_ref(&b)).unwrap();
     let order: Vec<usize> = g
         .assemble(&[0, 1, 2, 3], |i| i.to_string())
         .unwrap()
