@@ -256,11 +256,31 @@ fn four_shards_merged_give_the_files_of_one_run_and_merge_refuses_what_is_missin
 
     let out = check(&net, &shards[3], &["--shard", "3/4"]);
     assert!(out.status.success(), "{out:?}");
+    // The same folder given twice counts once: shards 2 and 3 are then missing, none is twice.
     let out = merge(&[shards[0].clone(), shards[0].clone(), shards[1].clone()]);
-    assert_eq!(
-        out.status.code(),
-        Some(2),
-        "the same folder twice is still 3 shards"
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{stderr}");
+    assert!(
+        stderr.contains("missing 2 of 4 shard(s): 2/4, 3/4"),
+        "{stderr}"
+    );
+
+    // A partial copied into a second folder is the same shard twice.
+    let copy = dir.path().join("copy");
+    std::fs::create_dir_all(&copy).unwrap();
+    std::fs::copy(
+        shards[1].join("check-partial-1-of-4.jsonl"),
+        copy.join("check-partial-1-of-4.jsonl"),
+    )
+    .unwrap();
+    let mut with_copy = shards.clone();
+    with_copy.push(copy);
+    let out = merge(&with_copy);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{stderr}");
+    assert!(
+        stderr.contains("shard 1/4 in") && stderr.contains("given twice"),
+        "{stderr}"
     );
 
     let out = merge(&shards);
