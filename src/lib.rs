@@ -9,6 +9,7 @@ pub mod criteria;
 pub mod fireflow;
 pub mod flowtest;
 pub mod hydraulics;
+pub mod journal;
 pub mod model;
 pub mod needed;
 pub mod permit;

@@ -7,7 +7,7 @@ use clap::{Parser, Subcommand};
 
 mod commands;
 
-use commands::{check, flowtest, import, permit, solve, upsize, validate};
+use commands::{check, flowtest, import, merge, permit, solve, upsize, validate};
 
 const EXIT_CODES: &str = "Exit codes: 0 = success (everything passes), 1 = findings (something fails its criteria), \
 2 = input error (command line, network or criteria files), 3 = analysis error (no hydraulic solution, or output not written).";
@@ -46,6 +46,9 @@ enum Command {
     /// Make a network folder from GIS layers (GeoJSON), reporting every change.
     #[command(after_help = EXIT_CODES)]
     Import(import::ImportArgs),
+    /// Assemble the files of a sharded check (`check --shard K/N`) from its partials.
+    #[command(after_help = EXIT_CODES)]
+    Merge(merge::MergeArgs),
 }
 
 fn main() -> ExitCode {
@@ -57,6 +60,7 @@ fn main() -> ExitCode {
         Command::Flowtest(args) => flowtest::run(&args),
         Command::Permit(args) => permit::run(&args),
         Command::Import(args) => import::run(&args),
+        Command::Merge(args) => merge::run(&args),
     };
     if let Err(e) = &result {
         eprint!("{}", e.stderr_text());

@@ -190,5 +190,28 @@ fn a_failed_write_leaves_the_previous_set_byte_identical() {
     assert_eq!(run.status.code(), Some(3), "{stderr}");
     assert!(stderr.contains("report.json"), "{stderr}");
     assert!(stderr.contains("no output file was replaced"), "{stderr}");
-    assert!(snapshot(&out) == before, "the previous set changed");
+    // The run keeps its sweep's journal beside the previous set, so that `--resume` can write
+    // the files without sweeping again; nothing else in the folder changed.
+    let mut after = snapshot(&out);
+    assert!(
+        after.remove(Path::new("check-journal.jsonl")).is_some(),
+        "the journal is kept when the set could not be written"
+    );
+    assert!(after == before, "the previous set changed");
+
+    // With the folder out of the way, `--resume` writes the second run's set from the journal.
+    std::fs::remove_dir_all(&json).expect("remove the folder");
+    let run = firemain(&[
+        "check".as_ref(),
+        net.as_os_str(),
+        "--criteria".as_ref(),
+        criteria().as_os_str(),
+        "--out".as_ref(),
+        out.as_os_str(),
+        "--quiet".as_ref(),
+        "--resume".as_ref(),
+    ]);
+    assert!(run.status.code().is_some_and(|c| c <= 1), "{run:?}");
+    assert!(json.is_file(), "report.json written");
+    assert!(!out.join("check-journal.jsonl").exists(), "journal removed");
 }

@@ -98,6 +98,9 @@ pub enum CliError {
     /// An output file could not be written.
     #[error(transparent)]
     Report(#[from] ReportError),
+    /// A journal or partial could not be read, written or combined (refusals are input errors).
+    #[error(transparent)]
+    Journal(#[from] crate::journal::JournalError),
 }
 
 impl CliError {
@@ -135,6 +138,7 @@ impl CliError {
             | CliError::Upsize(_)
             | CliError::FlowTest(_)
             | CliError::Report(_) => ExitStatus::AnalysisError,
+            CliError::Journal(e) => e.exit_status(),
         }
     }
 

@@ -13,6 +13,8 @@ pub mod check;
 pub mod flowtest;
 pub mod import;
 pub mod permit;
+mod journalled;
+pub mod merge;
 pub mod solve;
 pub mod upsize;
 pub mod validate;

@@ -21,7 +21,7 @@ pub use group::{
     GroupResult, Split, SPLIT_TOLERANCE_KPA,
 };
 pub use search::analyse_hydrant;
-pub use sweep::{sweep, SweepError, SweepStats};
+pub use sweep::{sweep, sweep_each, SweepError, SweepStats};
 
 use crate::criteria::{Criteria, RequiredSource, Scope};
 use crate::hydraulics::{

@@ -40,6 +40,17 @@ pub fn sweep(
     threads: Option<usize>,
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<(Vec<HydrantResult>, SweepStats), SweepError> {
+    sweep_each(setup, indices, threads, &|_, done| progress(done))
+}
+
+/// [`sweep`], with `each` called with every result as it is found (in no particular order,
+/// from any thread) and the number of hydrants done so far: a journal records them there.
+pub fn sweep_each(
+    setup: &FireFlowSetup<'_>,
+    indices: &[usize],
+    threads: Option<usize>,
+    each: &(dyn Fn(&HydrantResult, usize) + Sync),
+) -> Result<(Vec<HydrantResult>, SweepStats), SweepError> {
     let started = Instant::now();
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads.unwrap_or(0))
@@ -52,7 +63,7 @@ pub fn sweep(
                 || setup.hydraulics.workspace(),
                 |ws, &h| {
                     let r = analyse_hydrant(setup, ws, h);
-                    progress(done.fetch_add(1, Ordering::Relaxed) + 1);
+                    each(&r, done.fetch_add(1, Ordering::Relaxed) + 1);
                     r
                 },
             )
