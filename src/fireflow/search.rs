@@ -1075,6 +1075,7 @@ pub fn analyse_hydrant(
         outcome: Outcome::Error,
         notes: Vec::new(),
         supply_paths: Vec::new(),
+        delivered: None,
         solves: 0,
         iterations: 0,
         factorizations: 0,
@@ -1113,6 +1114,16 @@ pub fn analyse_hydrant(
     run(&mut search, required, &mut result);
     if !search.unsettled.is_empty() {
         unsettled_row(&search, &mut result);
+    }
+    if result.outcome == Outcome::Fail {
+        // The physical state at the required flow (criteria `[fire] pressure_dependent`).
+        search.solves += u32::from(setup.criteria.pressure_dependent.is_some());
+        match super::delivered::delivered_state(setup, search.ws, at, required) {
+            Ok(state) => result.delivered = state,
+            Err(reason) => result
+                .notes
+                .push(HydrantNote::DeliveredUnavailable { reason }),
+        }
     }
     result.solves = search.solves;
     result.iterations = search.iterations;

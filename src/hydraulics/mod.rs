@@ -2,12 +2,14 @@
 //! and the control rules. No I/O: data in, numbers out.
 
 pub mod controls;
+pub mod demand;
 pub mod factor;
 pub mod headloss;
 pub mod laws;
 pub mod solver;
 
 pub use controls::LinkState;
+pub use demand::{DemandRelation, PressureDependence};
 pub use solver::{FactorSnapshot, Hydraulics, Solution, SolveRequest, Tolerance, Workspace};
 
 use thiserror::Error;

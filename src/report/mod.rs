@@ -274,6 +274,16 @@ impl Out {
         num(((self.flow(m3s) * scale) - 1e-6).ceil() / scale, decimals)
     }
 
+    /// The volume a flow (m³/s) carries in one hour, in US gallons or m³, with its unit
+    /// (1 US gal = 3.785411784 L, `units`): a customer shortfall worded as water not delivered.
+    pub fn hourly_volume(&self, m3s: f64) -> (String, &'static str) {
+        let m3 = m3s * 3600.0;
+        match self.units {
+            UnitSystem::Us => (num(m3 / (crate::units::M3S_PER_GPM * 60.0), 0), "gal"),
+            UnitSystem::Si => (num(m3, 1), "m3"),
+        }
+    }
+
     fn flow_decimals(&self) -> usize {
         match self.units {
             UnitSystem::Us => 0,
