@@ -194,3 +194,82 @@ fn with_every_pressure_above_service_the_state_is_the_demand_driven_one() {
         assert_eq!(delivered[j].0, net.nodes[j].base_demand_m3s);
     }
 }
+
+/// A criteria set in US units with `[fire] pressure_dependent` (netkit's set plus the option).
+fn pdd_criteria(
+    net: &firemain::model::Network,
+    minimum_psi: f64,
+    service_psi: f64,
+) -> firemain::criteria::Criteria {
+    let text = format!(
+        "name = \"pressure-dependent test criteria\"\nreference = \"tests\"\nunits = \"us\"\n\
+         [service]\nmin_pressure = 40\nmax_pressure = 100\n\
+         [fire]\nresidual_floor = 20\nscope = \"system\"\nsearch_cap = 8000\n\
+         default_required_flow = 1000\n\
+         pressure_dependent = {{ minimum = {minimum_psi}, service = {service_psi} }}\n"
+    );
+    let dir = tempfile::tempdir().expect("tempdir");
+    let path = dir.path().join("criteria.toml");
+    std::fs::write(&path, text).expect("write criteria");
+    firemain::criteria::load_criteria(&path, net).unwrap_or_else(|d| panic!("{d}"))
+}
+
+#[test]
+fn failing_hydrant_delivers_the_closed_form_fire_flow() {
+    // A hydrant junction 150 ft below a reservoir, fed by 2000 ft of 8-in pipe (C 120), with
+    // 100 gpm of customer demand (150 gpm max-day) and 3000 gpm required: it fails. With
+    // pressure-dependent demands the junction's pressure p satisfies
+    //   G − z − r (q_c(p) + q_f(p))^1.852 = p,
+    // q_c = 150 gpm·√((p − 5 psi)/(20 − 5 psi)) (customers, criteria minimum 5, service 20) and
+    // q_f = 3000 gpm·√(p/20 psi) (the fire demand, between 0 and the floor): Hazen-Williams
+    // (Williams & Hazen 1920, netkit::hw_resistance) and the Wagner-Shamir-Marks relation
+    // (1988, from memory), solved by bisection on p.
+    use netkit::{KPA_PER_M, KPA_PER_PSI, M3S_PER_GPM, M_PER_FT, M_PER_IN};
+    let (grade_ft, z_ft) = (950.0, 800.0);
+    let mut f = NetFiles::us_hw();
+    f.max_day(1.5)
+        .reservoir("R", grade_ft)
+        .junction("H", z_ft, 100.0)
+        .pipe("P", "R", "H", 2000.0, 8.0, 120.0)
+        .hydrant("FH", "H", Some(3000.0));
+    let net = f.load();
+    let criteria = pdd_criteria(&net, 5.0, 20.0);
+    let psi_m = KPA_PER_PSI / KPA_PER_M;
+    let r = hw_resistance(2000.0 * M_PER_FT, 8.0 * M_PER_IN, 120.0);
+    let (dc, qr) = (150.0 * M3S_PER_GPM, 3000.0 * M3S_PER_GPM);
+    let (pc_min, pc_serv, floor) = (5.0 * psi_m, 20.0 * psi_m, 20.0 * psi_m);
+    let qc = |p: f64| dc * ((p - pc_min) / (pc_serv - pc_min)).sqrt();
+    let qf = |p: f64| qr * (p / floor).sqrt();
+    let head = (grade_ft - z_ft) * M_PER_FT;
+    let p = bisect(pc_min + 1e-9, floor, |p| {
+        head - hw_loss(r, qc(p) + qf(p)) - p
+    });
+    let (xc, xf) = ((p - pc_min) / (pc_serv - pc_min), p / floor);
+    assert!(
+        (0.06..0.94).contains(&xc) && (0.06..0.94).contains(&xf),
+        "{xc} {xf}"
+    );
+
+    let result = netkit::fire_sweep(&net, &criteria, 1)
+        .pop()
+        .expect("one hydrant");
+    assert_eq!(result.outcome, firemain::fireflow::Outcome::Fail);
+    let d = result
+        .delivered
+        .as_ref()
+        .expect("a pressure-dependent state");
+    // Tolerance: the search's solves converge heads to 2e-4 m (Tolerance::SEARCH); the flows
+    // then agree to well under 0.1 %.
+    assert!(
+        (d.fire_flow_m3s - qf(p)).abs() < 1e-3 * qf(p),
+        "fire flow delivered {} gpm, closed form {} gpm",
+        d.fire_flow_m3s / M3S_PER_GPM,
+        qf(p) / M3S_PER_GPM
+    );
+    assert!((d.hydrant_kpa - p * KPA_PER_M).abs() < 0.05);
+    assert_eq!(d.short.len(), 1);
+    assert!((d.customer_shortfall_m3s - (dc - qc(p))).abs() < 1e-3 * dc);
+    // The demand-driven figures are unchanged beside it: the residual at 3000 gpm is far below
+    // zero (the impossible number the pressure-dependent state replaces).
+    assert!(result.residual_kpa.expect("residual") < 0.0);
+}

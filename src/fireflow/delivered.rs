@@ -18,7 +18,7 @@
 
 use super::supply_paths::{supply_path_shares, PipeShare, PIPES_PER_HYDRANT};
 use super::FireFlowSetup;
-use crate::hydraulics::{DemandRelation, PressureDependence, SolveRequest, Workspace};
+use crate::hydraulics::{DemandRelation, PressureDependence, SolveRequest, Tolerance, Workspace};
 use crate::units::head_m_from_pressure_kpa;
 
 /// A customer whose delivered demand is below this fraction of the demand asked loses service
@@ -86,6 +86,8 @@ pub fn delivered_state(
         extra_demand: &extra,
         fixed_head: None,
     };
+    // Reported pressures: the tolerance of the search's reported solves.
+    ws.set_tolerance(Tolerance::SEARCH);
     let sol = setup
         .hydraulics
         .solve_pressure_dependent(ws, &request, &pdd, &setup.base)

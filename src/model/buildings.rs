@@ -276,7 +276,10 @@ fn read_stories(c: &mut Cells<'_, '_>) -> Option<u32> {
     let loc = c.cell("stories").location(c.file());
     c.diagnostics().error(
         loc,
-        format!("`stories` must be a whole number from 1 to {MAX_STORIES}, got {v}"),
+        format!(
+            "`stories` must be a whole number from 1 to {MAX_STORIES}, got {}",
+            crate::units::display_value(v)
+        ),
         "give the number of storeys above grade, such as 2",
     );
     None
@@ -295,7 +298,10 @@ fn read_duration(c: &mut Cells<'_, '_>) -> Option<f64> {
     let loc = c.cell("duration").location(c.file());
     c.diagnostics().error(
         loc,
-        format!("`duration` {h} h is longer than any fire-flow duration (they run ½ to 4 hours)"),
+        format!(
+            "`duration` {} h is longer than any fire-flow duration (they run ½ to 4 hours)",
+            crate::units::display_value(h)
+        ),
         "give the duration in hours, not minutes",
     );
     None
