@@ -273,3 +273,67 @@ fn failing_hydrant_delivers_the_closed_form_fire_flow() {
     // zero (the impossible number the pressure-dependent state replaces).
     assert!(result.residual_kpa.expect("residual") < 0.0);
 }
+
+#[test]
+fn reports_say_which_mode_produced_each_figure() {
+    // The demo town (invented data) checked with `[fire] pressure_dependent`: invariants only,
+    // no check values. Every failing hydrant has the pressure-dependent columns filled, with a
+    // delivered fire flow at most the required one and finite figures; passing hydrants have
+    // them empty; report.json marks the mode; report.md has the section and says the weak
+    // mains come from that state; without the option the files have none of it (the
+    // demand-driven files are compared byte for byte with docs/outputs.md by doc_examples.rs).
+    let dir = tempfile::tempdir().expect("tempdir");
+    let criteria = std::fs::read_to_string("criteria/cedar-county-demo.toml").expect("criteria");
+    let criteria = criteria.replace(
+        "default_required_flow = 1000",
+        "default_required_flow = 1000\npressure_dependent = { minimum = 5, service = 20 }",
+    );
+    let methods = dir.path().join("methods");
+    std::fs::create_dir_all(&methods).expect("mkdir");
+    for entry in std::fs::read_dir("criteria/methods")
+        .expect("methods")
+        .flatten()
+    {
+        std::fs::copy(entry.path(), methods.join(entry.file_name())).expect("copy");
+    }
+    let path = dir.path().join("criteria.toml");
+    std::fs::write(&path, criteria).expect("write");
+    let out = dir.path().join("out");
+    let status = std::process::Command::new(env!("CARGO_BIN_EXE_firemain"))
+        .args(["check", "examples/demo-town", "--criteria"])
+        .arg(&path)
+        .arg("--out")
+        .arg(&out)
+        .arg("--quiet")
+        .status()
+        .expect("run");
+    assert_eq!(status.code(), Some(1), "the demo has failing hydrants");
+    let csv = std::fs::read_to_string(out.join("fireflow.csv")).expect("fireflow.csv");
+    let mut lines = csv.lines();
+    let header: Vec<&str> = lines.next().expect("header").split(',').collect();
+    let col = |name: &str| header.iter().position(|h| *h == name).expect(name);
+    let (required, result) = (col("required_flow_gpm"), col("result"));
+    let delivered = col("pressure_dependent_fire_flow_delivered_gpm");
+    let pressure = col("pressure_dependent_hydrant_pressure_psi");
+    let mut failing = 0;
+    for line in lines {
+        // Notes may hold commas inside quotes; the demo's failing rows have none.
+        let cells: Vec<&str> = line.split(',').collect();
+        if cells.get(result) == Some(&"fail") && !line.contains('"') {
+            failing += 1;
+            let q: f64 = cells[delivered].parse().expect("delivered flow");
+            let r: f64 = cells[required].parse().expect("required flow");
+            let p: f64 = cells[pressure].parse().expect("pressure");
+            assert!(q.is_finite() && p.is_finite() && q > 0.0 && q <= r + 1e-9);
+        } else if cells.get(result) == Some(&"pass") {
+            assert_eq!(cells[delivered], "");
+        }
+    }
+    assert!(failing > 0);
+    let json = std::fs::read_to_string(out.join("report.json")).expect("report.json");
+    assert!(json.contains("\"mode\": \"pressure-dependent\""));
+    assert!(!json.contains("NaN"));
+    let md = std::fs::read_to_string(out.join("report.md")).expect("report.md");
+    assert!(md.contains("## Failing hydrants as the system would deliver"));
+    assert!(md.contains("with pressure-dependent demands"));
+}

@@ -51,6 +51,9 @@ pub struct DeliveredState {
     pub customer_shortfall_m3s: f64,
     /// Supply-path shares of the hydrant's junction in this state (weak mains).
     pub supply_paths: Vec<PipeShare>,
+    /// Solver iterations and numeric factorizations of the solve (work counters).
+    pub iterations: u32,
+    pub factorizations: u32,
 }
 
 /// The relations of one hydrant's pressure-dependent solve (module doc).
@@ -128,5 +131,7 @@ pub fn delivered_state(
         short,
         customer_shortfall_m3s,
         supply_paths: supply_path_shares(net, &sol, at, PIPES_PER_HYDRANT),
+        iterations: sol.iterations,
+        factorizations: sol.factorizations,
     }))
 }

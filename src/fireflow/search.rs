@@ -1119,7 +1119,13 @@ pub fn analyse_hydrant(
         // The physical state at the required flow (criteria `[fire] pressure_dependent`).
         search.solves += u32::from(setup.criteria.pressure_dependent.is_some());
         match super::delivered::delivered_state(setup, search.ws, at, required) {
-            Ok(state) => result.delivered = state,
+            Ok(state) => {
+                if let Some(d) = &state {
+                    search.iterations += d.iterations;
+                    search.factorizations += d.factorizations;
+                }
+                result.delivered = state;
+            }
             Err(reason) => result
                 .notes
                 .push(HydrantNote::DeliveredUnavailable { reason }),
