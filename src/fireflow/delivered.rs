@@ -72,12 +72,18 @@ pub fn relations(setup: &FireFlowSetup<'_>) -> Option<PressureDependence> {
 }
 
 /// Solves the state at fire flow `required_m3s` at junction `at` with pressure-dependent
-/// demands, from the max-day state; an error message when it cannot be solved.
+/// demands, starting from `start`; an error message when it cannot be solved.
+///
+/// The search passes the state at the available flow: there the hydrant is at (or above) the
+/// floor and every flow is already near the delivered one, so the Newton steps stay short. From
+/// the static state the first step would push the whole required flow through the mains at
+/// once, far outside where their head-loss laws are near linear.
 pub fn delivered_state(
     setup: &FireFlowSetup<'_>,
     ws: &mut Workspace,
     at: usize,
     required_m3s: f64,
+    start: &crate::hydraulics::Solution,
 ) -> Result<Option<DeliveredState>, String> {
     let Some(pdd) = relations(setup) else {
         return Ok(None);
@@ -93,7 +99,7 @@ pub fn delivered_state(
     ws.set_tolerance(Tolerance::SEARCH);
     let sol = setup
         .hydraulics
-        .solve_pressure_dependent(ws, &request, &pdd, &setup.base)
+        .solve_pressure_dependent(ws, &request, &pdd, start)
         .map_err(|e| e.to_string())?;
     let delivered = setup.hydraulics.delivered_m3s(&request, &pdd, &sol);
     let mut short = Vec::new();

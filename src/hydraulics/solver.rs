@@ -182,6 +182,8 @@ pub struct Workspace {
     /// m³/s, and the slope d(outflow)/dH of the last assembly, m²/s.
     asked: Vec<(f64, f64)>,
     outflow_slope: Vec<f64>,
+    /// The fixed weights of the continuity residuals in the damped step's merit, 1/(m²/s).
+    pdd_weight: Vec<f64>,
 }
 
 /// A copy of a workspace's factorization, to start other workspaces from (the fire-flow sweep
@@ -569,6 +571,7 @@ impl<'n> Hydraulics<'n> {
             pdd: None,
             asked: Vec::new(),
             outflow_slope: Vec::new(),
+            pdd_weight: Vec::new(),
         }
     }
 
@@ -819,6 +822,7 @@ impl<'n> Hydraulics<'n> {
         if ws.pdd.is_some() {
             ws.asked = self.asked_demands(request);
             ws.outflow_slope = vec![0.0; nj];
+            ws.pdd_weight.clear();
         }
         // A junction held at a head is pinned there like the junction a PRV regulates; the
         // flow it draws beyond its demand follows from continuity after every step.
@@ -1097,7 +1101,8 @@ impl<'n> Hydraulics<'n> {
     /// backtracking on the squared residual norm ½‖F‖² of the full system: each conducting
     /// link's energy residual φ(Q) − (H_from − H_to), m, and each free junction's continuity
     /// residual Σ inflow − q_j(H_j), divided by the junction's diagonal entry (its conductances
-    /// and dq_j/dH_j, as factorized) to make it a head, m. A Newton step of the system is a
+    /// and dq_j/dH_j) at the first step of the solve, kept for the whole solve, to make it a
+    /// head, m. A Newton step of the system is a
     /// descent direction of that norm for any fixed positive weights, so halving finds a step
     /// that reduces it (Armijo's condition; Dennis & Schnabel, *Numerical Methods for
     /// Unconstrained Optimization and Nonlinear Equations*, SIAM 1996, §6.3 — from memory).
@@ -1111,6 +1116,12 @@ impl<'n> Hydraulics<'n> {
         factored_now: bool,
     ) -> Option<(f64, f64)> {
         self.compute_flow_step(ws);
+        if ws.pdd_weight.is_empty() {
+            // Fixed for the whole solve, so that every accepted step lowers one function.
+            ws.pdd_weight = (0..self.n_junctions)
+                .map(|j| 1.0 / ws.values[self.diag_slot[j]].max(MIN_SLOPE_S_PER_M2))
+                .collect();
+        }
         let start = self.pdd_merit(ws, it, 0.0);
         let mut alpha = 1.0;
         let mut accepted = false;
@@ -1197,8 +1208,7 @@ impl<'n> Hydraulics<'n> {
         }
         for j in 0..nj {
             if ws.pinned[j].is_none() {
-                let diagonal = ws.values[self.diag_slot[j]].max(MIN_SLOPE_S_PER_M2);
-                let c = residual[j] / diagonal;
+                let c = residual[j] * ws.pdd_weight[j];
                 total += c * c;
             }
         }
