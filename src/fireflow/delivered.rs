@@ -100,7 +100,7 @@ pub fn delivered_state(
     let sol = setup
         .hydraulics
         .solve_pressure_dependent(ws, &request, &pdd, start)
-        .map_err(|e| e.to_string())?;
+        .map_err(|e| e.describe(net.units))?;
     let delivered = setup.hydraulics.delivered_m3s(&request, &pdd, &sol);
     let mut short = Vec::new();
     let mut customer_shortfall_m3s = 0.0;
