@@ -111,7 +111,7 @@ fn write_base(root: &Path) {
     let net = root.join("net");
     std::fs::create_dir_all(&net).expect("mkdir");
     for (name, body) in base_files() {
-        let path = if name == "criteria.toml" {
+        let path = if name == "criteria.toml" || name == "project.toml" {
             root.join(&name)
         } else {
             net.join(&name)
@@ -180,7 +180,7 @@ fn every_row_of_the_error_catalogue_holds() {
                 })
                 .collect()
         } else {
-            let path = if row.file == "criteria.toml" {
+            let path = if row.file == "criteria.toml" || row.file == "project.toml" {
                 root.join(&row.file)
             } else {
                 root.join("net").join(&row.file)
@@ -190,22 +190,19 @@ fn every_row_of_the_error_catalogue_holds() {
                 Some(t) => std::fs::write(&path, t).expect("write"),
                 None => std::fs::remove_file(&path).expect("remove"),
             }
-            if row.file == "criteria.toml" {
-                [
+            let args: &[&str] = match row.file.as_str() {
+                "criteria.toml" => &["check", "net", "--criteria", "criteria.toml"],
+                "project.toml" => &[
                     "check",
                     "net",
                     "--criteria",
                     "criteria.toml",
-                    "--hydrant",
-                    "H1",
-                ]
-            } else {
-                ["validate", "net", "", "", "", ""]
-            }
-            .iter()
-            .filter(|a| !a.is_empty())
-            .map(|a| a.to_string())
-            .collect()
+                    "--project",
+                    "project.toml",
+                ],
+                _ => &["validate", "net"],
+            };
+            args.iter().map(|a| a.to_string()).collect()
         };
         let (code, text) = run(root, &args);
         let status_ok = row.severity != "error" || code == Some(2);
