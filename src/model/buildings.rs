@@ -217,7 +217,10 @@ fn read_row(c: &mut Cells<'_, '_>, line: u64) -> Option<Building> {
         let loc = c.cell("fire_flow_area").location(c.file());
         c.diagnostics().error(
             loc,
-            format!("`fire_flow_area` {a} {area_unit} is larger than any building"),
+            format!(
+                "`fire_flow_area` {} {area_unit} is larger than any building",
+                crate::units::display_value(a)
+            ),
             format!("check the value and its unit ({area_unit}, the network's units)"),
         );
         None
