@@ -142,11 +142,51 @@ fn fire_flow_sweep(c: &mut Criterion) {
     g.finish();
 }
 
+/// The cost of `[fire] pressure_dependent`: the 10k network's first 20 failing hydrants swept
+/// with and without it (with it, each failing hydrant gets one more, pressure-dependent, solve;
+/// docs/fire-flow-method.md §2b).
+fn pressure_dependent_sweep(c: &mut Criterion) {
+    let mut g = c.benchmark_group("failing_hydrants_10k");
+    g.sample_size(10).measurement_time(Duration::from_secs(30));
+    let net = load(10_000);
+    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("criteria/common-practice-us.toml");
+    let text = std::fs::read_to_string(&path).expect("criteria");
+    let dir = tempfile::tempdir().expect("tempdir");
+    let with = dir.path().join("pdd.toml");
+    let pdd_line =
+        "default_required_flow = 1000\npressure_dependent = { minimum = 5, service = 20 }";
+    std::fs::write(
+        &with,
+        text.replace("default_required_flow = 1000", pdd_line),
+    )
+    .expect("write");
+    let h = Hydraulics::new(&net).expect("prepare");
+    let plain = load_criteria(&path, &net).expect("criteria");
+    let pdd = load_criteria(&with, &net).expect("criteria");
+    let setup = FireFlowSetup::new(&h, &plain).expect("max-day");
+    let all: Vec<usize> = (0..net.hydrants.len()).collect();
+    let (results, _) = sweep(&setup, &all, None, &|_| {}).expect("sweep");
+    let failing: Vec<usize> = results
+        .iter()
+        .filter(|r| r.outcome == firemain::fireflow::Outcome::Fail)
+        .map(|r| r.hydrant)
+        .take(20)
+        .collect();
+    for (name, criteria) in [("demand_driven", &plain), ("pressure_dependent", &pdd)] {
+        let setup = FireFlowSetup::new(&h, criteria).expect("max-day");
+        g.bench_function(name, |b| {
+            b.iter(|| sweep(&setup, &failing, Some(1), &|_| {}).expect("sweep"))
+        });
+    }
+    g.finish();
+}
+
 criterion_group!(
     benches,
     load_and_validate,
     steady_solve,
     refactorization,
-    fire_flow_sweep
+    fire_flow_sweep,
+    pressure_dependent_sweep
 );
 criterion_main!(benches);

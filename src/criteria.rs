@@ -65,6 +65,15 @@ struct FireTable {
     default_required_flow: Option<Spanned<f64>>,
     #[serde(default)]
     required_flow: BTreeMap<String, Spanned<f64>>,
+    #[serde(default)]
+    pressure_dependent: Option<PressureDependentTable>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct PressureDependentTable {
+    minimum: Spanned<f64>,
+    service: Spanned<f64>,
 }
 
 #[derive(Deserialize)]
@@ -123,6 +132,9 @@ pub struct Criteria {
     pub calibration_bounds: Option<(f64, f64)>,
     /// The needed-fire-flow method and hose-lay settings of `firemain permit`, if given.
     pub needed_flow: Option<NeededFlowSettings>,
+    /// `[fire] pressure_dependent`: the state of a failing hydrant at its required flow is
+    /// also solved with pressure-dependent demands (see docs/fire-flow-method.md §2b).
+    pub pressure_dependent: Option<PressureDependentSettings>,
     /// The file name shown in messages.
     pub file: String,
     /// Warnings about applying the set to the network (e.g. hydrant classes it does not list).
@@ -155,6 +167,15 @@ pub struct NeededFlowSettings {
     pub max_hose_lay_m: f64,
     /// The most hydrants that may share a building's needed flow.
     pub max_hydrants: usize,
+}
+
+/// `[fire] pressure_dependent = { minimum = .., service = .. }`, kPa: customers' demands are
+/// delivered in part between the two pressures (none at or below `minimum`, all at or above
+/// `service`).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct PressureDependentSettings {
+    pub minimum_kpa: f64,
+    pub service_kpa: f64,
 }
 
 /// Where a required fire flow came from.
@@ -437,6 +458,47 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         read_needed_flow(t, &of, &at, &mut diags)
     });
 
+    let pressure_dependent = c.fire.pressure_dependent.as_ref().map(|t| {
+        let read = |v: &Spanned<f64>, what: &str, diags: &mut Diagnostics| {
+            let x = *v.get_ref();
+            let kpa = units.to_si(Quantity::Pressure, x);
+            if !(x.is_finite() && x >= 0.0 && limits::PRESSURE.holds(kpa.max(1e-9))) {
+                diags.error(
+                    at(v.span()),
+                    format!(
+                        "{what} must be a pressure of zero or more, got {}",
+                        display_value(x)
+                    ),
+                    format!("give {what} in {}", units.symbol(Quantity::Pressure)),
+                );
+            }
+            kpa
+        };
+        let minimum_kpa = read(&t.minimum, "[fire] pressure_dependent minimum", &mut diags);
+        let service_kpa = read(&t.service, "[fire] pressure_dependent service", &mut diags);
+        // The relation needs a range of at least 0.1 m of head (hydraulics::demand::MIN_RANGE_M).
+        let min_range_kpa =
+            crate::units::pressure_kpa_from_head_m(crate::hydraulics::demand::MIN_RANGE_M);
+        if service_kpa.is_finite()
+            && minimum_kpa.is_finite()
+            && service_kpa < minimum_kpa + min_range_kpa
+        {
+            diags.error(
+                at(t.service.span()),
+                format!(
+                    "[fire] pressure_dependent service {} {psym} must be above minimum {} {psym}",
+                    pressure(&t.service),
+                    pressure(&t.minimum),
+                ),
+                "give the pressure below which customers get nothing as minimum, and the one from which they get their whole demand as service (e.g. 5 and 20 psi)",
+            );
+        }
+        PressureDependentSettings {
+            minimum_kpa,
+            service_kpa,
+        }
+    });
+
     check_required_above_cap(&c.fire, units, search_cap_m3s, &at, &mut warnings);
     let classes: Vec<&str> = c.fire.required_flow.keys().map(String::as_str).collect();
     let resolution = ClassCheck {
@@ -468,6 +530,7 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         min_main_diameter_m,
         calibration_bounds,
         needed_flow,
+        pressure_dependent,
         file,
         warnings,
     })

@@ -122,9 +122,17 @@ impl UnitSystem {
 
 /// A number as messages show it: at most six significant digits without trailing zeros, and an
 /// exponent for magnitudes from a billion up or below a thousandth (`1e300`, not 301 digits).
+/// A value that is not a finite number (only ever one a file gave, as TOML spells it: `nan`,
+/// `inf`) is quoted as written, so that no message states NaN or an infinity as a figure.
 pub fn display_value(x: f64) -> String {
-    if !x.is_finite() || x == 0.0 {
-        return format!("{}", if x == 0.0 { 0.0 } else { x });
+    if x.is_nan() {
+        return "`nan`".to_string();
+    }
+    if x.is_infinite() {
+        return if x > 0.0 { "`inf`" } else { "`-inf`" }.to_string();
+    }
+    if x == 0.0 {
+        return "0".to_string();
     }
     let a = x.abs();
     if !(1.0e-3..1.0e9).contains(&a) {
@@ -207,6 +215,10 @@ mod tests {
         assert_eq!(display_value(328083.99), "328084");
         assert_eq!(display_value(0.0), "0");
         assert_eq!(display_value(-0.0), "0");
+        // Never NaN or an infinity as a figure: the file's spelling, quoted.
+        assert_eq!(display_value(f64::NAN), "`nan`");
+        assert_eq!(display_value(f64::INFINITY), "`inf`");
+        assert_eq!(display_value(f64::NEG_INFINITY), "`-inf`");
     }
 
     #[test]

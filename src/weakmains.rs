@@ -69,7 +69,13 @@ const MIN_SHARE: f64 = 0.01;
 pub fn weak_mains(net: &Network, criteria: &Criteria, results: &[HydrantResult]) -> Vec<WeakMain> {
     let mut by_link: std::collections::BTreeMap<usize, WeakMain> = Default::default();
     for r in results.iter().filter(|r| r.outcome == Outcome::Fail) {
-        for s in r.supply_paths.iter().filter(|s| s.share >= MIN_SHARE) {
+        // With pressure-dependent demands, the physical state at the required flow (no
+        // impossible velocities from demands a real system would not deliver).
+        let shares = r
+            .delivered
+            .as_ref()
+            .map_or(&r.supply_paths, |d| &d.supply_paths);
+        for s in shares.iter().filter(|s| s.share >= MIN_SHARE) {
             let e = by_link.entry(s.link).or_insert(WeakMain {
                 link: s.link,
                 hydrants_limited: 0,

@@ -168,7 +168,7 @@ fn solve_point(
         };
         solve_or_from_base(setup, ws, &request, start)
             .0
-            .map_err(|e| e.to_string())?
+            .map_err(|e| e.describe(setup.network().units))?
     };
     if !sol.unsettled.is_empty() {
         return Err(unsettled_reason(setup.network(), &sol.unsettled));

@@ -649,7 +649,7 @@ impl GroupSearch<'_, '_> {
 
     fn reason(&self, e: &ProbeError) -> String {
         match e {
-            ProbeError::Solve(e) => e.to_string(),
+            ProbeError::Solve(e) => e.describe(self.setup.network().units),
             ProbeError::Unsettled(links) => unsettled_reason(self.setup.network(), links),
         }
     }

@@ -10,6 +10,7 @@
 //!   constraints (the first crossing, the safe reading for a fire flow that ramps up).
 
 mod curve;
+pub mod delivered;
 mod group;
 mod search;
 pub mod supply_paths;
@@ -115,6 +116,8 @@ pub enum HydrantNote {
     OtherStatesAbove { flow_m3s: f64, links: Vec<usize> },
     /// The analysis failed.
     Error { reason: String },
+    /// The pressure-dependent state at the required flow could not be solved.
+    DeliveredUnavailable { reason: String },
 }
 
 /// The result for one hydrant, SI units.
@@ -143,6 +146,9 @@ pub struct HydrantResult {
     /// For a failing hydrant: the pipes on the supply paths of the lowest constrained junction
     /// at the required flow, largest share of the head loss first (weak mains).
     pub supply_paths: Vec<supply_paths::PipeShare>,
+    /// For a failing hydrant, with criteria `[fire] pressure_dependent`: the state at the
+    /// required flow with pressure-dependent demands (fire flow delivered, customers short).
+    pub delivered: Option<delivered::DeliveredState>,
     /// Hydraulic solves, solver iterations and numeric factorizations spent on this hydrant.
     pub solves: u32,
     pub iterations: u32,

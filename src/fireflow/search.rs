@@ -777,7 +777,7 @@ impl Search<'_, '_> {
 
     fn reason(&self, e: &ProbeError) -> String {
         match e {
-            ProbeError::Solve(e) => e.to_string(),
+            ProbeError::Solve(e) => e.describe(self.setup.network().units),
             ProbeError::Unsettled(links) => unsettled_reason(self.setup.network(), links),
         }
     }
@@ -1075,6 +1075,7 @@ pub fn analyse_hydrant(
         outcome: Outcome::Error,
         notes: Vec::new(),
         supply_paths: Vec::new(),
+        delivered: None,
         solves: 0,
         iterations: 0,
         factorizations: 0,
@@ -1110,9 +1111,26 @@ pub fn analyse_hydrant(
             .notes
             .push(HydrantNote::RequiredAboveCap { cap_m3s: cap });
     }
-    run(&mut search, required, &mut result);
+    let answer_state = run(&mut search, required, &mut result);
     if !search.unsettled.is_empty() {
         unsettled_row(&search, &mut result);
+    }
+    if result.outcome == Outcome::Fail {
+        // The physical state at the required flow (criteria `[fire] pressure_dependent`).
+        search.solves += u32::from(setup.criteria.pressure_dependent.is_some());
+        let start = answer_state.as_ref().unwrap_or(&setup.base);
+        match super::delivered::delivered_state(setup, search.ws, at, required, start) {
+            Ok(state) => {
+                if let Some(d) = &state {
+                    search.iterations += d.iterations;
+                    search.factorizations += d.factorizations;
+                }
+                result.delivered = state;
+            }
+            Err(reason) => result
+                .notes
+                .push(HydrantNote::DeliveredUnavailable { reason }),
+        }
     }
     result.solves = search.solves;
     result.iterations = search.iterations;
@@ -1133,13 +1151,14 @@ fn unsettled_row(search: &Search<'_, '_>, result: &mut HydrantResult) {
     });
 }
 
-/// The steps of one hydrant's search (see the module documentation).
-fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
+/// The steps of one hydrant's search (see the module documentation); returns the solution at
+/// the available flow (`None` when the static state already fails).
+fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) -> Option<Solution> {
     let base = s.static_point();
     let at_required = s.at_required_flow(required, result);
     if !base.passes {
         static_failure(s, &base, result);
-        return;
+        return None;
     }
     let mut b = Bracket { lo: base, hi: None };
     if let Some(p) = &at_required {
@@ -1181,6 +1200,7 @@ fn run(s: &mut Search<'_, '_>, required: f64, result: &mut HydrantResult) {
     } else {
         Outcome::Fail
     };
+    Some(b.lo.sol)
 }
 
 /// Step 1's failure: a constraint violated with no fire flow.

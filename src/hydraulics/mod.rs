@@ -2,12 +2,14 @@
 //! and the control rules. No I/O: data in, numbers out.
 
 pub mod controls;
+pub mod demand;
 pub mod factor;
 pub mod headloss;
 pub mod laws;
 pub mod solver;
 
 pub use controls::LinkState;
+pub use demand::{DemandRelation, PressureDependence};
 pub use solver::{FactorSnapshot, Hydraulics, Solution, SolveRequest, Tolerance, Workspace};
 
 use thiserror::Error;
@@ -47,10 +49,66 @@ pub enum SolveError {
     TopologyChanged,
 }
 
+impl SolveError {
+    /// The message in the network's units: head changes and energy residuals in its length
+    /// unit, at most six significant digits (the `Display` form gives them in metres).
+    pub fn describe(&self, units: crate::units::UnitSystem) -> String {
+        use crate::units::{display_value, Quantity};
+        let list = |items: &[(String, f64)]| {
+            items
+                .iter()
+                .map(|(id, v)| {
+                    format!(
+                        "{id} ({} {})",
+                        display_value(units.from_si(Quantity::Length, *v)),
+                        units.symbol(Quantity::Length)
+                    )
+                })
+                .collect::<Vec<_>>()
+                .join(", ")
+        };
+        match self {
+            SolveError::NoConvergence {
+                iterations,
+                junctions,
+                links,
+            } => format!(
+                "no convergence after {iterations} iterations; largest head changes at junctions {}; largest energy imbalance in links {}",
+                list(junctions),
+                list(links)
+            ),
+            other => other.to_string(),
+        }
+    }
+}
+
 fn list_values(items: &[(String, f64)]) -> String {
     items
         .iter()
         .map(|(id, v)| format!("{id} ({v:.3e} m)"))
         .collect::<Vec<_>>()
         .join(", ")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::SolveError;
+    use crate::units::UnitSystem;
+
+    #[test]
+    fn a_convergence_failure_is_described_in_the_network_units() {
+        // 10.5156 m = 34.5 ft exactly (1 ft = 0.3048 m, international foot, 1959).
+        let e = SolveError::NoConvergence {
+            iterations: 200,
+            junctions: vec![("J1".into(), 10.5156)],
+            links: vec![("P1".into(), 0.3048e-2)],
+        };
+        let us = e.describe(UnitSystem::Us);
+        assert!(
+            us.contains("J1 (34.5 ft)") && us.contains("P1 (0.01 ft)"),
+            "{us}"
+        );
+        let si = e.describe(UnitSystem::Si);
+        assert!(si.contains("J1 (10.5156 m)"), "{si}");
+    }
 }

@@ -23,8 +23,9 @@
 use std::sync::Arc;
 
 use super::controls::{self, LinkState, LinkView, MAX_SWITCHES};
+use super::demand::PressureDependence;
 use super::factor::{OrderedPattern, SparseCholesky, SpdFactorization, SymbolicAnalysis};
-use super::laws::LinkLaw;
+use super::laws::{LinkLaw, MIN_SLOPE_S_PER_M2};
 use super::SolveError;
 use crate::model::{LinkKind, Network, ValveKind};
 use crate::units::head_m_from_pressure_kpa;
@@ -94,6 +95,11 @@ const LINE_SEARCH_MIN_STEP_M: f64 = 0.1;
 const MERIT_ROUNDOFF: f64 = 1.0e-12;
 /// Halvings of the step the line search tries.
 const LINE_SEARCH_HALVINGS: u32 = 6;
+/// Halvings tried by the damped step of a pressure-dependent solve (down to 1/512 of it).
+const PDD_HALVINGS: u32 = 10;
+/// ½‖F‖² (m²) below which any step is accepted: the residuals are then far inside every
+/// tolerance and the merit's round-off decides nothing.
+const PDD_MERIT_FLOOR: f64 = 1.0e-20;
 /// Initial flow velocity of a cold start, m/s (a common starting guess, about 1 ft/s).
 const COLD_START_VELOCITY_M_PER_S: f64 = 0.3;
 
@@ -169,6 +175,15 @@ pub struct Workspace {
     /// That border: b, z = A⁻¹b and the Schur complement d − bᵀz, in matrix order.
     border_z: Option<(Vec<f64>, Vec<f64>, f64)>,
     tolerance: Tolerance,
+    /// Pressure-dependent demands of the current solve (see
+    /// [`Hydraulics::solve_pressure_dependent`]); `None` in a demand-driven solve.
+    pdd: Option<PressureDependence>,
+    /// In a pressure-dependent solve: each junction's customer demand and extra demand asked,
+    /// m³/s, and the slope d(outflow)/dH of the last assembly, m²/s.
+    asked: Vec<(f64, f64)>,
+    outflow_slope: Vec<f64>,
+    /// The fixed weights of the continuity residuals in the damped step's merit, 1/(m²/s).
+    pdd_weight: Vec<f64>,
 }
 
 /// A copy of a workspace's factorization, to start other workspaces from (the fire-flow sweep
@@ -553,6 +568,10 @@ impl<'n> Hydraulics<'n> {
             border_at: None,
             border_z: None,
             tolerance: Tolerance::STEADY,
+            pdd: None,
+            asked: Vec::new(),
+            outflow_slope: Vec::new(),
+            pdd_weight: Vec::new(),
         }
     }
 
@@ -652,6 +671,90 @@ impl<'n> Hydraulics<'n> {
         }
     }
 
+    /// Solves `request` with pressure-dependent demands: each junction delivers its customer
+    /// demand times `pdd.customers`' fraction at its pressure, and its extra demand times
+    /// `pdd.extra`'s (see [`super::demand`]), instead of the whole demand whatever the
+    /// pressure.
+    ///
+    /// Formulation: the global gradient algorithm with the nodal outflow a function of the
+    /// junction's head, as in Giustolisi, Savic & Kapelan, "Pressure-driven demand and leakage
+    /// simulation for water distribution networks", J. Hydraul. Eng. 134(5), 2008 (the
+    /// structure from memory): continuity at junction j reads Σ inflow − q_j(H_j) = 0, and its
+    /// Newton linearisation adds dq_j/dH_j to the diagonal of the junction (Schur) matrix
+    /// A₂₁·D⁻¹·A₁₂, with −q_j(H_j) at the current heads in the right-hand side; no outer
+    /// fixed-point loop. The derivative is non-negative, so the matrix stays symmetric positive
+    /// definite. The content line search is not used (its merit function would need the
+    /// inverse of the demand relation); the smoothing of the relation keeps the Newton steps
+    /// steady. The factorization is fresh at the start and forgotten at the end, so that no
+    /// demand-driven solve reuses a matrix with these extra diagonal terms.
+    pub fn solve_pressure_dependent(
+        &self,
+        ws: &mut Workspace,
+        request: &SolveRequest<'_>,
+        pdd: &PressureDependence,
+        start: &Solution,
+    ) -> Result<Solution, SolveError> {
+        ws.forget_factor();
+        ws.pdd = Some(*pdd);
+        let result = self.solve(ws, request, start);
+        ws.pdd = None;
+        ws.forget_factor();
+        result
+    }
+
+    /// Each junction's customer demand and extra demand asked by `request`, m³/s.
+    fn asked_demands(&self, request: &SolveRequest<'_>) -> Vec<(f64, f64)> {
+        let mut asked: Vec<(f64, f64)> = (0..self.n_junctions)
+            .map(|j| {
+                (
+                    self.net.nodes[j].base_demand_m3s * request.demand_factor,
+                    0.0,
+                )
+            })
+            .collect();
+        for &(j, q) in request.extra_demand {
+            if j < self.n_junctions {
+                asked[j].1 += q;
+            }
+        }
+        asked
+    }
+
+    /// The outflow junction `j` delivers at head `head_m` and its derivative d/dH, m³/s and
+    /// m²/s.
+    fn delivered_at(
+        &self,
+        pdd: &PressureDependence,
+        asked: (f64, f64),
+        j: usize,
+        head_m: f64,
+    ) -> (f64, f64) {
+        let p = head_m - self.net.nodes[j].elevation_m;
+        let (fc, sc) = pdd.customers.fraction(p);
+        let (fe, se) = pdd.extra.fraction(p);
+        (asked.0 * fc + asked.1 * fe, asked.0 * sc + asked.1 * se)
+    }
+
+    /// The (customer, extra) outflow each junction delivers in `sol`, a solution of
+    /// [`Hydraulics::solve_pressure_dependent`] for `request` and `pdd`, m³/s.
+    pub fn delivered_m3s(
+        &self,
+        request: &SolveRequest<'_>,
+        pdd: &PressureDependence,
+        sol: &Solution,
+    ) -> Vec<(f64, f64)> {
+        let asked = self.asked_demands(request);
+        (0..self.n_junctions)
+            .map(|j| {
+                let p = sol.heads_m[j] - self.net.nodes[j].elevation_m;
+                (
+                    asked[j].0 * pdd.customers.fraction(p).0,
+                    asked[j].1 * pdd.extra.fraction(p).0,
+                )
+            })
+            .collect()
+    }
+
     /// Solves `request`, starting from `start` (a previous solution of the same network, or
     /// [`Hydraulics::cold_start`]).
     ///
@@ -715,6 +818,11 @@ impl<'n> Hydraulics<'n> {
         }
         for &(j, q) in request.extra_demand {
             ws.demand[j] += q;
+        }
+        if ws.pdd.is_some() {
+            ws.asked = self.asked_demands(request);
+            ws.outflow_slope = vec![0.0; nj];
+            ws.pdd_weight.clear();
         }
         // A junction held at a head is pinned there like the junction a PRV regulates; the
         // flow it draws beyond its demand follows from continuity after every step.
@@ -793,11 +901,19 @@ impl<'n> Hydraulics<'n> {
         let need_factor = it.need_factor;
         // The step of every fixed node: a pinned junction moves to its target in this step,
         // sources stay where they are.
+        let pdd = ws.pdd;
         for j in 0..nj {
             ws.node_step[j] = match ws.pinned[j] {
                 Some(target) => target - heads[j],
                 None => 0.0,
             };
+            if let Some(pdd) = &pdd {
+                // Pressure-dependent outflow at the current head (see
+                // `solve_pressure_dependent`); its slope joins the diagonal below.
+                let (q, slope) = self.delivered_at(pdd, ws.asked[j], j, heads[j]);
+                ws.demand[j] = q;
+                ws.outflow_slope[j] = slope;
+            }
             ws.rhs[self.row_of[j]] = -ws.demand[j];
         }
         if need_factor {
@@ -857,6 +973,11 @@ impl<'n> Hydraulics<'n> {
                 if off != NO_ROW && ws.pinned[a].is_none() && ws.pinned[b].is_none() {
                     ws.values[off as usize] -= g;
                 }
+            }
+        }
+        if need_factor && pdd.is_some() {
+            for j in 0..nj {
+                ws.values[self.diag_slot[j]] += ws.outflow_slope[j];
             }
         }
         for j in 0..nj {
@@ -921,9 +1042,15 @@ impl<'n> Hydraulics<'n> {
         let nl = self.ends.len();
         // Steps that shrink at least twofold need no line search: the iteration contracts.
         let contracting = full_step_h < 0.5 * it.previous_step;
-        let search = !it.continuity_pending && full_step_h > LINE_SEARCH_MIN_STEP_M && !contracting;
+        let search = ws.pdd.is_none()
+            && !it.continuity_pending
+            && full_step_h > LINE_SEARCH_MIN_STEP_M
+            && !contracting;
         if search {
             self.compute_flow_step(ws);
+        }
+        if ws.pdd.is_some() {
+            return self.take_pdd_step(ws, it, factored_now);
         }
         let alpha = if search {
             match self.line_search(ws, &it.flows, &it.states, factored_now) {
@@ -968,6 +1095,124 @@ impl<'n> Hydraulics<'n> {
             }
         }
         Some((step_h, step_q))
+    }
+
+    /// The step of a pressure-dependent solve (see `solve_pressure_dependent`), damped by
+    /// backtracking on the squared residual norm ½‖F‖² of the full system: each conducting
+    /// link's energy residual φ(Q) − (H_from − H_to), m, and each free junction's continuity
+    /// residual Σ inflow − q_j(H_j), divided by the junction's diagonal entry (its conductances
+    /// and dq_j/dH_j) at the first step of the solve, kept for the whole solve, to make it a
+    /// head, m. A Newton step of the system is a
+    /// descent direction of that norm for any fixed positive weights, so halving finds a step
+    /// that reduces it (Armijo's condition; Dennis & Schnabel, *Numerical Methods for
+    /// Unconstrained Optimization and Nonlinear Equations*, SIAM 1996, §6.3 — from memory).
+    /// Without it, Newton's steps swing between full delivery (no slope) and none. A chord
+    /// step that does not descend is discarded for a Newton step; a damped step does not
+    /// count towards convergence.
+    fn take_pdd_step(
+        &self,
+        ws: &mut Workspace,
+        it: &mut Iterate,
+        factored_now: bool,
+    ) -> Option<(f64, f64)> {
+        self.compute_flow_step(ws);
+        if ws.pdd_weight.is_empty() {
+            // Fixed for the whole solve, so that every accepted step lowers one function.
+            ws.pdd_weight = (0..self.n_junctions)
+                .map(|j| 1.0 / ws.values[self.diag_slot[j]].max(MIN_SLOPE_S_PER_M2))
+                .collect();
+        }
+        let start = self.pdd_merit(ws, it, 0.0);
+        let mut alpha = 1.0;
+        let mut accepted = false;
+        for _ in 0..PDD_HALVINGS {
+            let merit = self.pdd_merit(ws, it, alpha);
+            if merit <= (1.0 - 1.0e-4 * alpha) * start || merit <= PDD_MERIT_FLOOR {
+                accepted = true;
+                break;
+            }
+            if !factored_now {
+                break;
+            }
+            alpha *= 0.5;
+        }
+        if !accepted && !factored_now {
+            it.need_factor = true;
+            it.previous_step = f64::INFINITY;
+            it.previous_flow_step = f64::INFINITY;
+            return None;
+        }
+        it.continuity_pending = false;
+        let nj = self.n_junctions;
+        let mut step_h = 0.0_f64;
+        for j in 0..nj {
+            let d = ws.node_step[j];
+            if ws.pinned[j].is_none() {
+                it.heads[j] += alpha * d;
+                step_h = step_h.max((alpha * d).abs());
+            } else {
+                it.heads[j] += d;
+            }
+        }
+        let mut step_q = 0.0_f64;
+        for i in 0..self.ends.len() {
+            let dq = alpha * ws.flow_step[i];
+            it.flows[i] += dq;
+            step_q = step_q.max(dq.abs());
+        }
+        if alpha < 1.0 {
+            // Not a Newton step: the next one needs a fresh matrix, and this one's size says
+            // nothing about the distance to the solution.
+            it.need_factor = true;
+            it.previous_step = f64::INFINITY;
+            it.previous_flow_step = f64::INFINITY;
+            return Some((f64::INFINITY, f64::INFINITY));
+        }
+        Some((step_h, step_q))
+    }
+
+    /// ½‖F‖² of [`Hydraulics::take_pdd_step`] at step length `alpha` along the current step.
+    fn pdd_merit(&self, ws: &Workspace, it: &Iterate, alpha: f64) -> f64 {
+        let nj = self.n_junctions;
+        let Some(pdd) = &ws.pdd else {
+            return 0.0;
+        };
+        let head = |n: usize| -> f64 {
+            if n >= nj {
+                self.source_grade[n]
+            } else if ws.pinned[n].is_some() {
+                it.heads[n] + ws.node_step[n]
+            } else {
+                it.heads[n] + alpha * ws.node_step[n]
+            }
+        };
+        let mut residual: Vec<f64> = (0..nj)
+            .map(|j| -self.delivered_at(pdd, ws.asked[j], j, head(j)).0)
+            .collect();
+        let mut total = 0.0;
+        for (i, &(a, b)) in self.ends.iter().enumerate() {
+            if a == b {
+                continue;
+            }
+            let q = it.flows[i] + alpha * ws.flow_step[i];
+            if it.states[i].conducts() {
+                let e = self.laws[i].evaluate(q).0 - (head(a) - head(b));
+                total += e * e;
+            }
+            if a < nj {
+                residual[a] -= q;
+            }
+            if b < nj {
+                residual[b] += q;
+            }
+        }
+        for j in 0..nj {
+            if ws.pinned[j].is_none() {
+                let c = residual[j] * ws.pdd_weight[j];
+                total += c * c;
+            }
+        }
+        0.5 * total
     }
 
     /// Regulating PRV/PSV: flow from continuity at the junction they hold; `step_q` takes the

@@ -217,7 +217,10 @@ fn read_row(c: &mut Cells<'_, '_>, line: u64) -> Option<Building> {
         let loc = c.cell("fire_flow_area").location(c.file());
         c.diagnostics().error(
             loc,
-            format!("`fire_flow_area` {a} {area_unit} is larger than any building"),
+            format!(
+                "`fire_flow_area` {} {area_unit} is larger than any building",
+                crate::units::display_value(a)
+            ),
             format!("check the value and its unit ({area_unit}, the network's units)"),
         );
         None
@@ -276,7 +279,10 @@ fn read_stories(c: &mut Cells<'_, '_>) -> Option<u32> {
     let loc = c.cell("stories").location(c.file());
     c.diagnostics().error(
         loc,
-        format!("`stories` must be a whole number from 1 to {MAX_STORIES}, got {v}"),
+        format!(
+            "`stories` must be a whole number from 1 to {MAX_STORIES}, got {}",
+            crate::units::display_value(v)
+        ),
         "give the number of storeys above grade, such as 2",
     );
     None
@@ -295,7 +301,10 @@ fn read_duration(c: &mut Cells<'_, '_>) -> Option<f64> {
     let loc = c.cell("duration").location(c.file());
     c.diagnostics().error(
         loc,
-        format!("`duration` {h} h is longer than any fire-flow duration (they run ½ to 4 hours)"),
+        format!(
+            "`duration` {} h is longer than any fire-flow duration (they run ½ to 4 hours)",
+            crate::units::display_value(h)
+        ),
         "give the duration in hours, not minutes",
     );
     None

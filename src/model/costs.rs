@@ -44,7 +44,10 @@ pub fn load_cost_table(path: &Path, units: UnitSystem) -> Result<Vec<(f64, f64)>
             if rows.iter().any(|&(e, _): &(f64, f64)| same_diameter(e, d)) {
                 diags.error(
                     Location::line(file.clone(), row.line),
-                    format!("diameter {diameter} appears twice"),
+                    format!(
+                        "diameter {} appears twice",
+                        crate::units::display_value(diameter)
+                    ),
                     "give each diameter once",
                 );
             }

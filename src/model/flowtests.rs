@@ -685,7 +685,7 @@ fn read_sources(t: &Table, net: &Network, tests: &mut [FlowTest], diags: &mut Di
             let loc = r.at("grade");
             r.diags.error(
                 loc,
-                format!("grade {} is not plausible", r.cell("grade").text),
+                format!("grade `{}` is not plausible", r.cell("grade").text),
                 "give the grade (elevation of the water surface) in the network's length unit",
             );
             continue;

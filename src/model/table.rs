@@ -542,7 +542,14 @@ pub fn parse_table(
     if !unknown.is_empty() {
         diags.note(
             Location::line(file, header_line),
-            format!("ignored columns: {}", unknown.join(", ")),
+            format!(
+                "ignored columns: {}",
+                unknown
+                    .iter()
+                    .map(|c| format!("`{c}`"))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
         );
     }
     if !ok {

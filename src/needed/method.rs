@@ -442,7 +442,10 @@ impl Checker<'_> {
             let at = self.at(v.span());
             self.diags.error(
                 at,
-                format!("{what} must be a positive number, got {x}"),
+                format!(
+                    "{what} must be a positive number, got {}",
+                    crate::units::display_value(x)
+                ),
                 "give the figure as the document prints it",
             );
         }
@@ -809,7 +812,7 @@ impl Checker<'_> {
                 self.diags.error(
                     at,
                     "an area range is two numbers [from, to] with from ≤ to",
-                    "write [0, 3600], or [85101, inf] for \"85,101 and above\"",
+                    "write `[0, 3600]`, or `[85101, inf]` for \"85,101 and above\"",
                 );
                 None
             }

@@ -176,6 +176,12 @@ pub fn date_of(generated: &str) -> &str {
 /// A number with fixed decimals; empty for a non-finite value (which the analyses never
 /// produce, but no report may ever print NaN).
 pub fn num(value: f64, decimals: usize) -> String {
+    // Beyond any quantity of a water system (1e15 gpm, psi, ft ...), a figure is written with an
+    // exponent rather than as a run of digits (common practice, no source); no input within
+    // the loaders' limits gets there.
+    if value.is_finite() && value.abs() >= 1.0e15 {
+        return crate::units::display_value(value);
+    }
     if value.is_finite() {
         let s = format!("{value:.decimals$}");
         // Avoid "-0.00".
@@ -276,6 +282,16 @@ impl Out {
         num(((self.flow(m3s) * scale) - 1e-6).ceil() / scale, decimals)
     }
 
+    /// The volume a flow (m³/s) carries in one hour, in US gallons or m³, with its unit
+    /// (1 US gal = 3.785411784 L, `units`): a customer shortfall worded as water not delivered.
+    pub fn hourly_volume(&self, m3s: f64) -> (String, &'static str) {
+        let m3 = m3s * 3600.0;
+        match self.units {
+            UnitSystem::Us => (num(m3 / (crate::units::M3S_PER_GPM * 60.0), 0), "gal"),
+            UnitSystem::Si => (num(m3, 1), "m3"),
+        }
+    }
+
     fn flow_decimals(&self) -> usize {
         match self.units {
             UnitSystem::Us => 0,
@@ -337,5 +353,9 @@ mod tests {
         assert_eq!(num(f64::INFINITY, 2), "");
         assert_eq!(num(-0.0001, 2), "0.00");
         assert_eq!(num(-1.234, 1), "-1.2");
+        // Never a run of hundreds of digits (common practice, no source).
+        assert_eq!(num(1e300, 2), "1e300");
+        assert_eq!(num(-2.5e16, 1), "-2.5e16");
+        assert_eq!(num(123456789.0, 1), "123456789.0");
     }
 }

@@ -9,7 +9,7 @@ impl CheckReport<'_> {
     pub fn fireflow_csv(&self) -> Result<Vec<u8>, ReportError> {
         let o = self.out();
         let (f, p) = (o.sfx(Quantity::Flow), o.sfx(Quantity::Pressure));
-        let header: Vec<String> = vec![
+        let mut header: Vec<String> = vec![
             "hydrant".into(),
             "junction".into(),
             "zone".into(),
@@ -24,6 +24,16 @@ impl CheckReport<'_> {
             "result".into(),
             "notes".into(),
         ];
+        let pdd = self.criteria.pressure_dependent.is_some();
+        if pdd {
+            let (_, vol) = o.hourly_volume(0.0);
+            header.extend([
+                format!("pressure_dependent_fire_flow_delivered_{f}"),
+                format!("pressure_dependent_hydrant_pressure_{p}"),
+                "pressure_dependent_junctions_losing_service".into(),
+                format!("pressure_dependent_customer_volume_short_per_hour_{vol}"),
+            ]);
+        }
         let flow = |q: Option<f64>| {
             q.map(|q| o.fmt_precise(Quantity::Flow, q))
                 .unwrap_or_default()
@@ -36,7 +46,7 @@ impl CheckReport<'_> {
             .results
             .iter()
             .map(|r| {
-                vec![
+                let mut row = vec![
                     self.hydrant_id(r).to_string(),
                     self.network.nodes[r.junction].id.clone(),
                     self.zone(r),
@@ -50,7 +60,20 @@ impl CheckReport<'_> {
                     r.limited_by.map(|l| l.name()).unwrap_or("").to_string(),
                     r.outcome.name().to_string(),
                     self.notes_text(r),
-                ]
+                ];
+                if pdd {
+                    // Empty for hydrants that pass (their demand-driven state is physical).
+                    row.extend(match &r.delivered {
+                        Some(d) => vec![
+                            flow(Some(d.fire_flow_m3s)),
+                            pressure(Some(d.hydrant_kpa)),
+                            d.short.len().to_string(),
+                            o.hourly_volume(d.customer_shortfall_m3s).0,
+                        ],
+                        None => vec![String::new(); 4],
+                    });
+                }
+                row
             })
             .collect();
         csv_bytes(&header, &rows)

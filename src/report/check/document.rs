@@ -28,6 +28,7 @@ impl CheckReport<'_> {
             self.legend_section(),
             self.compliance_section(),
         ]);
+        sections.extend(self.delivered_section());
         sections.extend(self.weak_mains_section());
         sections.push(self.service_section());
         sections.push(self.units_section());
@@ -265,6 +266,56 @@ impl CheckReport<'_> {
         section
     }
 
+    /// With `[fire] pressure_dependent`: per failing hydrant, what the system delivers when
+    /// the required flow is asked (pressure-dependent), beside the demand-driven residual.
+    fn delivered_section(&self) -> Option<Section> {
+        let pd = self.criteria.pressure_dependent?;
+        let o = self.out();
+        let psym = o.sym(Quantity::Pressure);
+        let items: Vec<Text> = self
+            .by_margin()
+            .into_iter()
+            .filter_map(|r| {
+                let d = r.delivered.as_ref()?;
+                let (volume, unit) = o.hourly_volume(d.customer_shortfall_m3s);
+                let unit = if unit == "m3" { "m³" } else { unit };
+                let lowest = d
+                    .min_customer_kpa
+                    .map(|(j, p)| {
+                        format!(
+                            "; lowest customer pressure {} {psym} at {}",
+                            o.fmt(Quantity::Pressure, p),
+                            self.network.nodes[j].id
+                        )
+                    })
+                    .unwrap_or_default();
+                Some(Text::new().strong(self.hydrant_id(r)).plain(format!(
+                    ": asked {} {f}, delivers {} {f} at {} {psym}; {} lose service, {volume} {unit} short per hour{lowest}",
+                    o.flow_text(r.required_m3s),
+                    o.flow_text_down(d.fire_flow_m3s),
+                    o.fmt(Quantity::Pressure, d.hydrant_kpa),
+                    match d.short.len() {
+                        1 => "1 junction".to_string(),
+                        n => format!("{n} junctions"),
+                    },
+                    f = o.sym(Quantity::Flow),
+                )))
+            })
+            .collect();
+        if items.is_empty() {
+            return None;
+        }
+        Some(
+            Section::titled("Failing hydrants as the system would deliver")
+                .paragraph(format!(
+                    "Pressure-dependent: the state at each failing hydrant's required flow with customers' demands delivered in part between {} and {} {psym} (Wagner, Shamir & Marks, 1988) and the fire demand in part between 0 and the residual floor; a junction loses service below 99 % of its demand. The available flow, the residual and the lowest pressures of the compliance table are demand-driven.",
+                    o.fmt(Quantity::Pressure, pd.minimum_kpa),
+                    o.fmt(Quantity::Pressure, pd.service_kpa),
+                ))
+                .list(items),
+        )
+    }
+
     /// The top weak mains and, per failing hydrant, the pipes with the largest shares of its
     /// head loss; `None` when no main limits a failing hydrant.
     fn weak_mains_section(&self) -> Option<Section> {
@@ -273,13 +324,19 @@ impl CheckReport<'_> {
         }
         let o = self.out();
         let l = o.sym(Quantity::Length);
+        let pdd = self.criteria.pressure_dependent.is_some();
+        // With pressure-dependent demands, the physical state's shares (see weakmains).
+        fn shares(r: &HydrantResult) -> &[crate::fireflow::supply_paths::PipeShare] {
+            r.delivered
+                .as_ref()
+                .map_or(&r.supply_paths, |d| &d.supply_paths)
+        }
         let paths = self
             .by_margin()
             .into_iter()
-            .filter(|r| !r.supply_paths.is_empty())
+            .filter(|r| !shares(r).is_empty())
             .map(|r| {
-                let pipes: Vec<String> = r
-                    .supply_paths
+                let pipes: Vec<String> = shares(r)
                     .iter()
                     .take(SUPPLY_PIPES_SHOWN)
                     .map(|p| {
@@ -292,16 +349,26 @@ impl CheckReport<'_> {
                         )
                     })
                     .collect();
-                Text::new().strong(self.hydrant_id(r)).plain(format!(
-                    " (lowest pressure at {}): {}",
-                    self.node_id(r.min_pressure_junction),
-                    pipes.join(", ")
-                ))
+                let at = match &r.delivered {
+                    Some(_) => format!("supply of {}", self.network.nodes[r.junction].id),
+                    None => format!(
+                        "lowest pressure at {}",
+                        self.node_id(r.min_pressure_junction)
+                    ),
+                };
+                Text::new()
+                    .strong(self.hydrant_id(r))
+                    .plain(format!(" ({at}): {}", pipes.join(", ")))
             });
+        let lead = if pdd {
+            "Pipes on the supply paths of failing hydrants' junctions, at their required flow asked with pressure-dependent demands (what the system delivers, not the demand-driven state), ranked by their share of the head lost between the sources and the hydrant, summed over the failing hydrants they limit"
+        } else {
+            "Pipes on the supply paths of failing hydrants, at their required flow, ranked by their share of the head lost between the sources and the lowest-pressure junction, summed over the failing hydrants they limit"
+        };
         Some(
             Section::titled("Weak mains")
                 .paragraph(format!(
-                    "Pipes on the supply paths of failing hydrants, at their required flow, ranked by their share of the head lost between the sources and the lowest-pressure junction, summed over the failing hydrants they limit (the top {} of {}; all in weak_mains.csv).",
+                    "{lead} (the top {} of {}; all in weak_mains.csv).",
                     WEAK_MAINS_SHOWN.min(self.weak_mains.len()),
                     self.weak_mains.len()
                 ))

@@ -41,6 +41,11 @@ impl CheckReport<'_> {
                     .map(|v| round(o.velocity(v), 4)),
                 service_min_pressure: round(o.pressure(self.criteria.service_min_kpa), 4),
                 service_max_pressure: round(o.pressure(self.criteria.service_max_kpa), 4),
+                pressure_dependent: self.criteria.pressure_dependent.map(|pd| JsonPddCriteria {
+                    minimum: round(o.pressure(pd.minimum_kpa), 4),
+                    service: round(o.pressure(pd.service_kpa), 4),
+                    modes: "available_flow, residual_pressure, min_pressure and supply_paths are demand-driven; pressure_dependent_at_required_flow is pressure-dependent, and weak_mains are ranked from it",
+                }),
             },
             demand_factors: JsonDemand {
                 max_day: self.network.demand_factors.max_day,
@@ -98,6 +103,33 @@ impl CheckReport<'_> {
                             velocity: round(o.velocity(p.velocity_m_per_s), 4),
                         })
                         .collect(),
+                    pressure_dependent_at_required_flow: r.delivered.as_ref().map(|d| {
+                        let (volume, volume_unit) = o.hourly_volume(d.customer_shortfall_m3s);
+                        JsonDelivered {
+                            mode: "pressure-dependent",
+                            fire_flow_delivered: round(o.flow(d.fire_flow_m3s), 4),
+                            hydrant_pressure: round(o.pressure(d.hydrant_kpa), 4),
+                            min_customer_pressure: d
+                                .min_customer_kpa
+                                .map(|(_, p)| round(o.pressure(p), 4)),
+                            min_customer_junction: d
+                                .min_customer_kpa
+                                .map(|(j, _)| self.network.nodes[j].id.clone()),
+                            customer_shortfall: round(o.flow(d.customer_shortfall_m3s), 4),
+                            customer_volume_short_per_hour: volume,
+                            volume_unit,
+                            junctions_losing_service: d
+                                .short
+                                .iter()
+                                .map(|j| JsonShort {
+                                    junction: self.network.nodes[j.junction].id.clone(),
+                                    asked: round(o.flow(j.asked_m3s), 4),
+                                    delivered: round(o.flow(j.delivered_m3s), 4),
+                                    pressure: round(o.pressure(j.pressure_kpa), 4),
+                                })
+                                .collect(),
+                        }
+                    }),
                 })
                 .collect(),
             service: self
@@ -203,6 +235,40 @@ struct JsonCriteria {
     max_velocity: Option<f64>,
     service_min_pressure: f64,
     service_max_pressure: f64,
+    /// `[fire] pressure_dependent`; absent when not set.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pressure_dependent: Option<JsonPddCriteria>,
+}
+
+#[derive(Serialize)]
+struct JsonPddCriteria {
+    minimum: f64,
+    service: f64,
+    /// Which figures each mode produced.
+    modes: &'static str,
+}
+
+/// A failing hydrant at its required flow with pressure-dependent demands.
+#[derive(Serialize)]
+struct JsonDelivered {
+    mode: &'static str,
+    fire_flow_delivered: f64,
+    hydrant_pressure: f64,
+    min_customer_pressure: Option<f64>,
+    min_customer_junction: Option<String>,
+    customer_shortfall: f64,
+    /// The shortfall over one hour, in `volume_unit` (gal | m3), as text.
+    customer_volume_short_per_hour: String,
+    volume_unit: &'static str,
+    junctions_losing_service: Vec<JsonShort>,
+}
+
+#[derive(Serialize)]
+struct JsonShort {
+    junction: String,
+    asked: f64,
+    delivered: f64,
+    pressure: f64,
 }
 
 #[derive(Serialize)]
@@ -243,6 +309,9 @@ struct JsonHydrant {
     /// Failing hydrants: supply-path pipes by share of head loss (unit head loss per 1000
     /// length units).
     supply_paths: Vec<JsonShare>,
+    /// With `[fire] pressure_dependent`, failing hydrants only; absent otherwise.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pressure_dependent_at_required_flow: Option<JsonDelivered>,
 }
 
 #[derive(Serialize)]

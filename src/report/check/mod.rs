@@ -203,6 +203,9 @@ impl CheckReport<'_> {
             HydrantNote::ResidualUnavailable { reason } => {
                 format!("no hydraulic solution at the required flow: {reason}")
             }
+            HydrantNote::DeliveredUnavailable { reason } => format!(
+                "no pressure-dependent solution at the required flow: {reason}"
+            ),
             HydrantNote::NonMonotone {
                 passes_again_at_m3s,
             } => format!(
