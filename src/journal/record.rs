@@ -9,6 +9,7 @@
 use serde::{Deserialize, Serialize};
 
 use crate::criteria::RequiredSource;
+use crate::fireflow::delivered::{DeliveredState, ShortJunction};
 use crate::fireflow::supply_paths::PipeShare;
 use crate::fireflow::{HydrantNote, HydrantResult, LimitedBy, Outcome};
 use crate::hydraulics::LinkState;
@@ -63,9 +64,99 @@ pub struct Record {
     outcome: String,
     notes: Vec<Note>,
     supply_paths: Vec<Share>,
+    /// The pressure-dependent state at the required flow (`[fire] pressure_dependent`);
+    /// absent in journals of runs without it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    delivered: Option<Delivered>,
     solves: u32,
     iterations: u32,
     factorizations: u32,
+}
+
+#[derive(Debug, Serialize, Deserialize)]
+struct Delivered {
+    fire_flow_m3s: Bits,
+    hydrant_kpa: Bits,
+    min_customer: Option<(usize, Bits)>,
+    short: Vec<Short>,
+    customer_shortfall_m3s: Bits,
+    supply_paths: Vec<Share>,
+    iterations: u32,
+    factorizations: u32,
+}
+
+#[derive(Debug, Serialize, Deserialize)]
+struct Short {
+    junction: usize,
+    asked_m3s: Bits,
+    delivered_m3s: Bits,
+    pressure_kpa: Bits,
+}
+
+fn share_record(p: &PipeShare) -> Share {
+    Share {
+        link: p.link,
+        share: Bits(p.share),
+        weight: Bits(p.weight),
+        headloss_m: Bits(p.headloss_m),
+        unit_headloss: Bits(p.unit_headloss),
+        velocity_m_per_s: Bits(p.velocity_m_per_s),
+    }
+}
+
+fn share_result(p: Share) -> PipeShare {
+    PipeShare {
+        link: p.link,
+        share: p.share.0,
+        weight: p.weight.0,
+        headloss_m: p.headloss_m.0,
+        unit_headloss: p.unit_headloss.0,
+        velocity_m_per_s: p.velocity_m_per_s.0,
+    }
+}
+
+fn delivered_record(d: &DeliveredState) -> Delivered {
+    Delivered {
+        fire_flow_m3s: Bits(d.fire_flow_m3s),
+        hydrant_kpa: Bits(d.hydrant_kpa),
+        min_customer: d.min_customer_kpa.map(|(j, p)| (j, Bits(p))),
+        short: d
+            .short
+            .iter()
+            .map(|s| Short {
+                junction: s.junction,
+                asked_m3s: Bits(s.asked_m3s),
+                delivered_m3s: Bits(s.delivered_m3s),
+                pressure_kpa: Bits(s.pressure_kpa),
+            })
+            .collect(),
+        customer_shortfall_m3s: Bits(d.customer_shortfall_m3s),
+        supply_paths: d.supply_paths.iter().map(share_record).collect(),
+        iterations: d.iterations,
+        factorizations: d.factorizations,
+    }
+}
+
+fn delivered_result(d: Delivered) -> DeliveredState {
+    DeliveredState {
+        fire_flow_m3s: d.fire_flow_m3s.0,
+        hydrant_kpa: d.hydrant_kpa.0,
+        min_customer_kpa: d.min_customer.map(|(j, p)| (j, p.0)),
+        short: d
+            .short
+            .into_iter()
+            .map(|s| ShortJunction {
+                junction: s.junction,
+                asked_m3s: s.asked_m3s.0,
+                delivered_m3s: s.delivered_m3s.0,
+                pressure_kpa: s.pressure_kpa.0,
+            })
+            .collect(),
+        customer_shortfall_m3s: d.customer_shortfall_m3s.0,
+        supply_paths: d.supply_paths.into_iter().map(share_result).collect(),
+        iterations: d.iterations,
+        factorizations: d.factorizations,
+    }
 }
 
 #[derive(Debug, Serialize, Deserialize)]
@@ -122,6 +213,9 @@ enum Note {
         links: Vec<usize>,
     },
     Error {
+        reason: String,
+    },
+    DeliveredUnavailable {
         reason: String,
     },
 }
@@ -185,18 +279,8 @@ impl Record {
             limited_by: r.limited_by.map(|l| l.name().to_string()),
             outcome: r.outcome.name().to_string(),
             notes: r.notes.iter().map(note_record).collect(),
-            supply_paths: r
-                .supply_paths
-                .iter()
-                .map(|p| Share {
-                    link: p.link,
-                    share: Bits(p.share),
-                    weight: Bits(p.weight),
-                    headloss_m: Bits(p.headloss_m),
-                    unit_headloss: Bits(p.unit_headloss),
-                    velocity_m_per_s: Bits(p.velocity_m_per_s),
-                })
-                .collect(),
+            supply_paths: r.supply_paths.iter().map(share_record).collect(),
+            delivered: r.delivered.as_ref().map(delivered_record),
             solves: r.solves,
             iterations: r.iterations,
             factorizations: r.factorizations,
@@ -227,18 +311,8 @@ impl Record {
                 .into_iter()
                 .map(result_note)
                 .collect::<Result<_, _>>()?,
-            supply_paths: self
-                .supply_paths
-                .into_iter()
-                .map(|p| PipeShare {
-                    link: p.link,
-                    share: p.share.0,
-                    weight: p.weight.0,
-                    headloss_m: p.headloss_m.0,
-                    unit_headloss: p.unit_headloss.0,
-                    velocity_m_per_s: p.velocity_m_per_s.0,
-                })
-                .collect(),
+            supply_paths: self.supply_paths.into_iter().map(share_result).collect(),
+            delivered: self.delivered.map(delivered_result),
             solves: self.solves,
             iterations: self.iterations,
             factorizations: self.factorizations,
@@ -302,6 +376,9 @@ fn note_record(n: &HydrantNote) -> Note {
         HydrantNote::Error { reason } => Note::Error {
             reason: reason.clone(),
         },
+        HydrantNote::DeliveredUnavailable { reason } => Note::DeliveredUnavailable {
+            reason: reason.clone(),
+        },
     }
 }
 
@@ -353,6 +430,7 @@ fn result_note(n: Note) -> Result<HydrantNote, String> {
             links,
         },
         Note::Error { reason } => HydrantNote::Error { reason },
+        Note::DeliveredUnavailable { reason } => HydrantNote::DeliveredUnavailable { reason },
     })
 }
 
@@ -417,6 +495,9 @@ mod tests {
                 HydrantNote::Error {
                     reason: "é".into()
                 },
+                HydrantNote::DeliveredUnavailable {
+                    reason: "no solution".into(),
+                },
             ],
             supply_paths: vec![PipeShare {
                 link: 1,
@@ -426,6 +507,28 @@ mod tests {
                 unit_headloss: 0.3,
                 velocity_m_per_s: 1.1,
             }],
+            delivered: Some(DeliveredState {
+                fire_flow_m3s: AWKWARD[4],
+                hydrant_kpa: AWKWARD[2],
+                min_customer_kpa: Some((5, AWKWARD[1])),
+                short: vec![ShortJunction {
+                    junction: 5,
+                    asked_m3s: 0.1,
+                    delivered_m3s: AWKWARD[3],
+                    pressure_kpa: 12.5,
+                }],
+                customer_shortfall_m3s: 0.05,
+                supply_paths: vec![PipeShare {
+                    link: 2,
+                    share: 0.4,
+                    weight: 0.5,
+                    headloss_m: 1.2,
+                    unit_headloss: 0.7,
+                    velocity_m_per_s: 0.9,
+                }],
+                iterations: 6,
+                factorizations: 6,
+            }),
             solves: 11,
             iterations: 40,
             factorizations: 12,

@@ -22,6 +22,7 @@ fn result(hydrant: usize) -> HydrantResult {
         outcome: Outcome::Pass,
         notes: Vec::new(),
         supply_paths: Vec::new(),
+        delivered: None,
         solves: 1,
         iterations: 2,
         factorizations: 3,
