@@ -62,14 +62,8 @@ fn diameter_and_min_level(tank: &Node) -> Result<(f64, f64), StorageError> {
 /// Usable storage of a cylindrical tank between its `min_level` and `max_level`, m³:
 /// V = π/4 · D² · (max_level − min_level).
 pub fn usable_storage_m3(tank: &Node) -> Result<f64, StorageError> {
-    let s = storage_of(tank)?;
-    let d = s
-        .diameter_m
-        .ok_or_else(|| StorageError::Missing(tank.id.clone(), "diameter"))?;
-    let lo = s
-        .min_level_m
-        .ok_or_else(|| StorageError::Missing(tank.id.clone(), "min_level"))?;
-    let hi = s
+    let (d, lo) = diameter_and_min_level(tank)?;
+    let hi = storage_of(tank)?
         .max_level_m
         .ok_or_else(|| StorageError::Missing(tank.id.clone(), "max_level"))?;
     Ok(area_m2(d) * (hi - lo))

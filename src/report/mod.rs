@@ -133,6 +133,15 @@ pub fn with_code_spans(mut t: table::Text, text: &str) -> table::Text {
     t
 }
 
+/// The title block of a report (`--project`): the project's facts, then its free notes.
+pub fn project_section(p: &crate::model::project::Project) -> table::Section {
+    let section = table::Section::titled("Project").table(table::Table::facts(p.rows()));
+    if p.notes.is_empty() {
+        return section;
+    }
+    section.list(p.notes.iter().map(|n| table::Text::from(n.as_str())))
+}
+
 /// One input warning in `report.json`.
 #[derive(serde::Serialize)]
 pub struct JsonInputWarning {

@@ -7,8 +7,8 @@ use serde::Serialize;
 use super::html::Html;
 use super::table::{Align, Document, Markdown, Markup, Section, Table, Terminal, Text};
 use super::{
-    csv_bytes, date_of, input_warnings_section, num, with_code_spans, JsonInputWarning, Out,
-    OutputFile, OutputSet, ReportError, CAUTIONS,
+    csv_bytes, date_of, input_warnings_section, num, project_section, with_code_spans,
+    JsonInputWarning, Out, OutputFile, OutputSet, ReportError, CAUTIONS,
 };
 use crate::criteria::{Criteria, NeededFlowSettings};
 use crate::fireflow::Split;
@@ -171,16 +171,7 @@ impl PermitReport<'_> {
 
     /// The report's sections in order (report.md and report.html).
     pub fn document(&self) -> Document {
-        let mut sections: Vec<Section> = self
-            .project
-            .map(|p| {
-                let rows = p.rows().into_iter().map(|(k, v)| vec![k.to_string(), v]);
-                Section::titled("Project")
-                    .table(Table::untitled().with_rows(rows))
-                    .list(p.notes.iter().map(|n| Text::from(n.as_str())))
-            })
-            .into_iter()
-            .collect();
+        let mut sections: Vec<Section> = self.project.map(project_section).into_iter().collect();
         sections.push(self.facts_section());
         sections.push(self.cautions_section());
         sections.push(input_warnings_section(self.input_warnings));
@@ -236,9 +227,7 @@ impl PermitReport<'_> {
             ("Run id", self.run_id.clone()),
             ("Produced by", format!("firemain {}", self.version)),
         ];
-        Section::titled("Analysis").table(
-            Table::untitled().with_rows(rows.into_iter().map(|(k, v)| vec![k.to_string(), v])),
-        )
+        Section::titled("Analysis").table(Table::facts(rows))
     }
 
     fn cautions_section(&self) -> Section {

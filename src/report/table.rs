@@ -41,6 +41,11 @@ impl Table {
         Table::default()
     }
 
+    /// A table of facts: a label and its value per row, without a header.
+    pub fn facts<'a>(rows: impl IntoIterator<Item = (&'a str, String)>) -> Self {
+        Table::untitled().with_rows(rows.into_iter().map(|(k, v)| vec![k.to_string(), v]))
+    }
+
     /// Adds a row.
     pub fn push(&mut self, row: Vec<String>) {
         self.rows.push(row);

@@ -41,13 +41,7 @@ impl CheckReport<'_> {
     /// The title block of a permit package (`--project`): who, where, what reference, prepared
     /// and checked by whom, which revision; its free notes below it.
     fn title_block_section(&self) -> Option<Section> {
-        let p = self.project?;
-        let rows = p.rows().into_iter().map(|(k, v)| vec![k.to_string(), v]);
-        let mut section = Section::titled("Project").table(Table::untitled().with_rows(rows));
-        if !p.notes.is_empty() {
-            section = section.list(p.notes.iter().map(|n| Text::from(n.as_str())));
-        }
-        Some(section)
+        self.project.map(crate::report::project_section)
     }
 
     /// The untitled table of what was analysed, under what assumptions, when and by what.
@@ -97,9 +91,7 @@ impl CheckReport<'_> {
             ("Run id", self.run_id.clone()),
             ("Produced by", format!("firemain {}", self.version)),
         ];
-        Section::titled("Analysis").table(
-            Table::untitled().with_rows(rows.into_iter().map(|(k, v)| vec![k.to_string(), v])),
-        )
+        Section::titled("Analysis").table(Table::facts(rows))
     }
 
     /// The cautions, and the assumptions of the analysis in plain words.
