@@ -192,19 +192,5 @@ fn shard_summary(shard: Shard, results: &[HydrantResult]) -> String {
 /// own): report.json's `sweep` is then that of an uninterrupted run; wall time and threads
 /// stay this run's.
 fn all_counters(stats: SweepStats, results: &[HydrantResult]) -> SweepStats {
-    let factorizations: u64 = results.iter().map(|r| u64::from(r.factorizations)).sum();
-    SweepStats {
-        hydrants: results.len(),
-        solves: results.iter().map(|r| u64::from(r.solves)).sum(),
-        iterations: results.iter().map(|r| u64::from(r.iterations)).sum(),
-        factorizations,
-        // As `sweep` computes it.
-        factorizations_per_hydrant_mean: if results.is_empty() {
-            0.0
-        } else {
-            factorizations as f64 / results.len() as f64
-        },
-        factorizations_per_hydrant_max: results.iter().map(|r| r.factorizations).max().unwrap_or(0),
-        ..stats
-    }
+    SweepStats::of_results(results, stats.wall_time, stats.threads)
 }

@@ -23,6 +23,32 @@ pub struct SweepStats {
     pub threads: usize,
 }
 
+impl SweepStats {
+    /// The work counters summed over `results` (each result carries its own), with the wall
+    /// time and thread count of the run that reports them.
+    pub fn of_results(results: &[HydrantResult], wall_time: Duration, threads: usize) -> Self {
+        let factorizations: u64 = results.iter().map(|r| u64::from(r.factorizations)).sum();
+        SweepStats {
+            hydrants: results.len(),
+            solves: results.iter().map(|r| u64::from(r.solves)).sum(),
+            iterations: results.iter().map(|r| u64::from(r.iterations)).sum(),
+            factorizations,
+            factorizations_per_hydrant_mean: if results.is_empty() {
+                0.0
+            } else {
+                factorizations as f64 / results.len() as f64
+            },
+            factorizations_per_hydrant_max: results
+                .iter()
+                .map(|r| r.factorizations)
+                .max()
+                .unwrap_or(0),
+            wall_time,
+            threads,
+        }
+    }
+}
+
 /// Why a sweep could not run. A hydrant whose analysis fails is a result of its own (an
 /// `error` row), never a sweep error.
 #[derive(Debug, Error)]
@@ -69,20 +95,6 @@ pub fn sweep_each(
             )
             .collect()
     });
-    let factorizations: u64 = results.iter().map(|r| u64::from(r.factorizations)).sum();
-    let stats = SweepStats {
-        hydrants: results.len(),
-        solves: results.iter().map(|r| u64::from(r.solves)).sum(),
-        iterations: results.iter().map(|r| u64::from(r.iterations)).sum(),
-        factorizations,
-        factorizations_per_hydrant_mean: if results.is_empty() {
-            0.0
-        } else {
-            factorizations as f64 / results.len() as f64
-        },
-        factorizations_per_hydrant_max: results.iter().map(|r| r.factorizations).max().unwrap_or(0),
-        wall_time: started.elapsed(),
-        threads: pool.current_num_threads(),
-    };
+    let stats = SweepStats::of_results(&results, started.elapsed(), pool.current_num_threads());
     Ok((results, stats))
 }

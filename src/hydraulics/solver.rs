@@ -1068,16 +1068,7 @@ impl<'n> Hydraulics<'n> {
             1.0
         };
         it.continuity_pending = false;
-        let mut step_h = 0.0_f64;
-        for j in 0..nj {
-            let d = ws.node_step[j];
-            if ws.pinned[j].is_none() {
-                it.heads[j] += alpha * d;
-                step_h = step_h.max((alpha * d).abs());
-            } else {
-                it.heads[j] += d;
-            }
-        }
+        let step_h = apply_head_step(ws, it, nj, alpha);
         let mut step_q = 0.0_f64;
         if search {
             for i in 0..nl {
@@ -1144,16 +1135,7 @@ impl<'n> Hydraulics<'n> {
         }
         it.continuity_pending = false;
         let nj = self.n_junctions;
-        let mut step_h = 0.0_f64;
-        for j in 0..nj {
-            let d = ws.node_step[j];
-            if ws.pinned[j].is_none() {
-                it.heads[j] += alpha * d;
-                step_h = step_h.max((alpha * d).abs());
-            } else {
-                it.heads[j] += d;
-            }
-        }
+        let step_h = apply_head_step(ws, it, nj, alpha);
         let mut step_q = 0.0_f64;
         for i in 0..self.ends.len() {
             let dq = alpha * ws.flow_step[i];
@@ -1759,6 +1741,22 @@ impl Solution {
         let l = &net.links[link];
         self.heads_m[l.from] - self.heads_m[l.to]
     }
+}
+
+/// Moves the heads of the `nj` junctions by the step in `ws`, scaled by `alpha` (a pinned
+/// junction takes its whole step: it goes to its held head); returns the largest scaled move, m.
+fn apply_head_step(ws: &Workspace, it: &mut Iterate, nj: usize, alpha: f64) -> f64 {
+    let mut step_h = 0.0_f64;
+    for j in 0..nj {
+        let d = ws.node_step[j];
+        if ws.pinned[j].is_none() {
+            it.heads[j] += alpha * d;
+            step_h = step_h.max((alpha * d).abs());
+        } else {
+            it.heads[j] += d;
+        }
+    }
+    step_h
 }
 
 #[cfg(test)]
