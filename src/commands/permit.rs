@@ -76,7 +76,7 @@ pub fn run(args: &PermitArgs) -> Result<Outcome, CliError> {
     }
     let hydraulics = Hydraulics::new(net).map_err(CliError::Hydraulics)?;
     let setup = firemain::fireflow::FireFlowSetup::new(&hydraulics, &criteria)
-        .map_err(|e| CliError::solve("max-day condition", e))?;
+        .map_err(|e| CliError::solve("max-day condition", net.units, e))?;
     let permit = PermitSetup {
         setup: &setup,
         settings,
