@@ -250,7 +250,14 @@ fn check_row(row: &Row) -> Option<String> {
         let path = path_of(root, &row.file);
         let text = std::fs::read_to_string(&path).unwrap_or_default();
         match apply(row, &text) {
-            Some(t) => std::fs::write(&path, t).expect("write"),
+            Some(t) => {
+                // A row's file may sit in a folder of its own (e.g. a folder in the way of an
+                // output file), which the row creates.
+                if let Some(parent) = path.parent() {
+                    std::fs::create_dir_all(parent).expect("mkdir");
+                }
+                std::fs::write(&path, t).expect("write")
+            }
             None => std::fs::remove_file(&path).expect("remove"),
         }
         arguments(&row.command)
