@@ -269,6 +269,47 @@ fn failing_hydrant_delivers_the_closed_form_fire_flow() {
     assert!((d.hydrant_kpa - p * KPA_PER_M).abs() < 0.05);
     assert_eq!(d.short.len(), 1);
     assert!((d.customer_shortfall_m3s - (dc - qc(p))).abs() < 1e-3 * dc);
+
+    // Demand-driven, the pressures would fall below the relation's minimum (the residual is
+    // negative, below). In the pressure-dependent state no junction may: under the
+    // Wagner-Shamir-Marks relation (Wagner, Shamir & Marks 1988, J. Water Resour. Plan. Manage.
+    // 114(3)) a junction at or below p_min delivers nothing, so nothing draws its pressure
+    // lower. The network's one junction is the hydrant's; every pressure the state reports
+    // (the hydrant's, the lowest customer pressure, each short junction's) is held to
+    // p_min − 0.01 kPa. Tolerance: heads converge to 2e-4 m (Tolerance::SEARCH), about
+    // 0.002 kPa; 0.01 kPa leaves room for the rounding of the conversion.
+    let p_min_kpa = pc_min * KPA_PER_M;
+    let tol_kpa = 0.01;
+    assert!(d.hydrant_kpa >= p_min_kpa - tol_kpa, "{}", d.hydrant_kpa);
+    let (lowest_at, lowest_kpa) = d.min_customer_kpa.expect("a customer junction");
+    assert!(lowest_kpa >= p_min_kpa - tol_kpa, "{lowest_kpa}");
+    let h = net.node_by_id("H").expect("junction H");
+    assert_eq!(lowest_at, h);
+    // The junction asked for more than it gets is reported, with what it is short: asked the
+    // max-day demand dc, delivered q_c(p) of the same relation (Wagner, Shamir & Marks 1988),
+    // short dc − q_c(p) (m³/s, a volume per second). Tolerance as for the flows above: 0.1 %.
+    let short = &d.short[0];
+    assert_eq!(short.junction, h);
+    assert!(
+        short.pressure_kpa >= p_min_kpa - tol_kpa,
+        "{}",
+        short.pressure_kpa
+    );
+    assert!((short.pressure_kpa - p * KPA_PER_M).abs() < 0.05);
+    assert!(
+        (short.asked_m3s - dc).abs() < 1e-9 * dc,
+        "{}",
+        short.asked_m3s
+    );
+    assert!(
+        (short.delivered_m3s - qc(p)).abs() < 1e-3 * dc,
+        "delivered {} gpm, closed form {} gpm",
+        short.delivered_m3s / M3S_PER_GPM,
+        qc(p) / M3S_PER_GPM
+    );
+    let volume_short = short.asked_m3s - short.delivered_m3s;
+    assert!(volume_short > 0.0);
+    assert!((volume_short - (dc - qc(p))).abs() < 1e-3 * dc);
     // The demand-driven figures are unchanged beside it: the residual at 3000 gpm is far below
     // zero (the impossible number the pressure-dependent state replaces).
     assert!(result.residual_kpa.expect("residual") < 0.0);

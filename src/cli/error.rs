@@ -10,6 +10,7 @@ use super::ArgumentError;
 use crate::hydraulics::SolveError;
 use crate::model::Diagnostics;
 use crate::report::{self, ReportError};
+use crate::units::UnitSystem;
 use crate::upsizing::UpsizeError;
 use crate::ExitStatus;
 
@@ -83,15 +84,21 @@ pub enum CliError {
     /// The network's hydraulics could not be set up.
     #[error("{0}")]
     Hydraulics(SolveError),
-    /// A solve failed; `context` names what was solved (e.g. `max-day condition`).
-    #[error("{context}: {source}")]
-    Solve { context: String, source: SolveError },
+    /// A solve failed; `context` names what was solved (e.g. `max-day condition`). The message
+    /// is in the network's `units` (a convergence failure's head changes in ft for a US network).
+    #[error("{context}: {}", .source.describe(*.units))]
+    Solve {
+        context: String,
+        units: UnitSystem,
+        source: SolveError,
+    },
     /// The worker threads could not be started.
     #[error("cannot start worker threads: {0}")]
     Threads(crate::fireflow::SweepError),
-    /// The upsizing search failed.
+    /// The upsizing search could not start its worker threads (a failed solve of the search is
+    /// a [`CliError::Solve`], worded in the network's units: see [`CliError::upsize`]).
     #[error(transparent)]
-    Upsize(#[from] UpsizeError),
+    Upsize(UpsizeError),
     /// A field flow test could not be simulated, or the calibration failed.
     #[error(transparent)]
     FlowTest(#[from] crate::flowtest::compare::FlowTestError),
@@ -105,10 +112,19 @@ pub enum CliError {
 
 impl CliError {
     /// A failed solve of what `context` names.
-    pub fn solve(context: impl Into<String>, source: SolveError) -> Self {
+    pub fn solve(context: impl Into<String>, units: UnitSystem, source: SolveError) -> Self {
         CliError::Solve {
             context: context.into(),
+            units,
             source,
+        }
+    }
+
+    /// A failed upsizing search, its solver failure worded in the network's `units`.
+    pub fn upsize(units: UnitSystem, error: UpsizeError) -> Self {
+        match error {
+            UpsizeError::Solve(source) => CliError::solve("upsizing search", units, source),
+            other => CliError::Upsize(other),
         }
     }
 
@@ -204,5 +220,23 @@ mod tests {
             .stderr_text(),
             ""
         );
+    }
+
+    #[test]
+    fn a_failed_solve_is_worded_in_the_network_units() {
+        // 10.5156 m = 34.5 ft exactly (1 ft = 0.3048 m, international foot, 1959).
+        let source = SolveError::NoConvergence {
+            iterations: 200,
+            junctions: vec![("J1".into(), 10.5156)],
+            links: vec![],
+        };
+        let us = CliError::solve("max-day condition", UnitSystem::Us, source.clone());
+        assert!(us.to_string().contains("J1 (34.5 ft)"), "{us}");
+        let upsize = CliError::upsize(UnitSystem::Us, UpsizeError::Solve(source));
+        assert!(
+            upsize.to_string().starts_with("upsizing search: "),
+            "{upsize}"
+        );
+        assert!(!upsize.to_string().contains(" m)"), "{upsize}");
     }
 }

@@ -108,7 +108,13 @@ pub struct ProposedChecks {
 pub fn check_proposed(plan: &UpsizePlan, criteria: &Criteria) -> Result<ProposedChecks, CliError> {
     let service = Hydraulics::new(&plan.proposed)
         .and_then(|h| service_check(&h, criteria))
-        .map_err(|e| CliError::solve("service-pressure conditions of the proposed network", e))?;
+        .map_err(|e| {
+            CliError::solve(
+                "service-pressure conditions of the proposed network",
+                plan.proposed.units,
+                e,
+            )
+        })?;
     Ok(ProposedChecks {
         service,
         weak_mains: weak_mains(&plan.proposed, criteria, &plan.after),

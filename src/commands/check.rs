@@ -150,7 +150,7 @@ pub fn run(args: &CheckArgs) -> Result<Outcome, CliError> {
     let net = &inputs.loaded.network;
     let hydraulics = Hydraulics::new(net).map_err(CliError::Hydraulics)?;
     let setup = FireFlowSetup::new(&hydraulics, &inputs.criteria)
-        .map_err(|e| CliError::solve("max-day condition", e))?;
+        .map_err(|e| CliError::solve("max-day condition", net.units, e))?;
     let Some(out) = &args.out else {
         let bar = SweepBar::new(inputs.indices.len(), 0, args.quiet);
         let (results, stats) = sweep(&setup, &inputs.indices, threads, &|done| bar.set(done))
@@ -195,7 +195,7 @@ impl Assembly<'_> {
         let net = &inputs.loaded.network;
         let criteria = &inputs.criteria;
         let service = service_check(setup.hydraulics, criteria)
-            .map_err(|e| CliError::solve("service-pressure conditions", e))?;
+            .map_err(|e| CliError::solve("service-pressure conditions", net.units, e))?;
         let weak = weak_mains(net, criteria, results);
         // The sheets of report.html: failing hydrants, or every hydrant asked for.
         let curves = match self.out {

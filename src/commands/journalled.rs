@@ -57,7 +57,7 @@ pub(super) fn run(
         None => inputs.indices.clone(),
     };
     let header = header(args, inputs, mine.len())?;
-    std::fs::create_dir_all(out).map_err(io(out))?;
+    firemain::report::create_output_folder(out)?;
     let journal_path = out.join(match args.shard {
         Some(s) => shard_journal_name(s),
         None => JOURNAL_FILE.to_string(),

@@ -97,7 +97,7 @@ pub fn run(args: &MergeArgs) -> Result<Outcome, CliError> {
     let results = gathered.assemble(&inputs.indices, |i| net.hydrants[i].id.clone())?;
     let hydraulics = Hydraulics::new(net).map_err(CliError::Hydraulics)?;
     let setup = FireFlowSetup::new(&hydraulics, &inputs.criteria)
-        .map_err(|e| CliError::solve("max-day condition", e))?;
+        .map_err(|e| CliError::solve("max-day condition", net.units, e))?;
     let assembly = Assembly {
         threads,
         out: Some(&args.out),

@@ -74,9 +74,19 @@ pub fn run(args: &PermitArgs) -> Result<Outcome, CliError> {
             diagnostics: problems,
         });
     }
+    // The buildings' warnings go to stderr as the network's and the criteria's do (they were
+    // only in the report files, so a run without --out never showed them).
+    let mut building_findings = buildings.diagnostics.clone();
+    building_findings.extend(problems.clone());
+    if !building_findings.is_empty() {
+        eprint!(
+            "{}",
+            report::validate::diagnostics_brief(&building_findings)
+        );
+    }
     let hydraulics = Hydraulics::new(net).map_err(CliError::Hydraulics)?;
     let setup = firemain::fireflow::FireFlowSetup::new(&hydraulics, &criteria)
-        .map_err(|e| CliError::solve("max-day condition", e))?;
+        .map_err(|e| CliError::solve("max-day condition", net.units, e))?;
     let permit = PermitSetup {
         setup: &setup,
         settings,

@@ -54,7 +54,7 @@ pub fn run(args: &SolveArgs) -> Result<Outcome, CliError> {
     let net = &loaded.network;
     let hydraulics = Hydraulics::new(net).map_err(CliError::Hydraulics)?;
     let solution = steady::solve_condition(&hydraulics, condition)
-        .map_err(|e| CliError::solve(format!("{} condition", condition.name()), e))?;
+        .map_err(|e| CliError::solve(format!("{} condition", condition.name()), net.units, e))?;
     let result = steady::steady_report(&hydraulics, condition, &solution);
     emit(report::solve::terminal(&result, net.units));
     if let Some(out) = &args.out {

@@ -83,7 +83,8 @@ pub fn run(args: &UpsizeArgs) -> Result<Outcome, CliError> {
             s.set_message(progress_text(p));
         }
     };
-    let plan = plan_upsizing(net, &criteria, &config, &progress)?;
+    let plan = plan_upsizing(net, &criteria, &config, &progress)
+        .map_err(|e| CliError::upsize(net.units, e))?;
     if let Some(s) = &spinner {
         s.finish_and_clear();
     }

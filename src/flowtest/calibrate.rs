@@ -173,6 +173,7 @@ impl Problem<'_> {
             let failed = |source| FlowTestError::Solve {
                 test: test.id.clone(),
                 which: "residual",
+                units: net.units,
                 source,
             };
             let own;

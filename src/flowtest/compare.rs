@@ -14,7 +14,7 @@ use super::{reduce, reduce_test, Reduced};
 use crate::hydraulics::{Hydraulics, Solution, SolveError, SolveRequest, Workspace};
 use crate::model::flowtests::FlowTest;
 use crate::model::Network;
-use crate::units::KPA_PER_PSI;
+use crate::units::{UnitSystem, KPA_PER_PSI};
 
 /// A modelled pressure this far from the measured one is a large misfit: "the modelled residual
 /// differs from the measured residual by more than ~5 psi at the test flow" suggests a closed
@@ -24,10 +24,12 @@ pub const LARGE_MISFIT_KPA: f64 = 5.0 * KPA_PER_PSI;
 
 #[derive(Debug, Error)]
 pub enum FlowTestError {
-    #[error("test {test}: {which} state: {source}")]
+    /// A test's state could not be solved; the message in the network's `units`.
+    #[error("test {test}: {which} state: {}", .source.describe(*.units))]
     Solve {
         test: String,
         which: &'static str,
+        units: UnitSystem,
         source: SolveError,
     },
     #[error("test {test}: the residual hydrant's junction has no pressure in the model (cut off by closed elements)")]
@@ -146,6 +148,7 @@ pub fn solve_test_from(
         .map_err(|source| FlowTestError::Solve {
             test: test.id.clone(),
             which,
+            units: h.network().units,
             source,
         })
 }
@@ -178,6 +181,7 @@ pub fn compare(
         let h = Hydraulics::new(&tnet).map_err(|source| FlowTestError::Solve {
             test: test.id.clone(),
             which: "static",
+            units: net.units,
             source,
         })?;
         let mut ws = h.workspace();

@@ -4,7 +4,7 @@
 //! One row per flowing outlet; rows with the same `test` form one test. Every problem is a
 //! diagnostic with file, line, column and a fix, as for the network files.
 
-use std::collections::HashMap;
+use std::collections::{HashMap, HashSet};
 use std::path::Path;
 
 use super::diagnostic::{Diagnostics, Location};
@@ -133,7 +133,14 @@ pub fn load_flowtests(path: &Path, net: &Network) -> Result<LoadedTests, Diagnos
     let sources_file = sources_path.as_ref().map(|_| FLOWTEST_SOURCES.to_string());
     if let Some(sp) = &sources_path {
         if let Some(t) = read_table(sp, FLOWTEST_SOURCES, &SOURCES, &mut diags) {
-            read_sources(&t, net, &mut tests, &mut diags);
+            // A test refused for an error of its own is still a test of the file: its source
+            // grades are not reported as naming an unknown test on top of that error.
+            let named: HashSet<String> = table
+                .rows()
+                .iter()
+                .map(|row| table.cell(row, "test").text.trim().to_string())
+                .collect();
+            read_sources(&t, net, &named, &mut tests, &mut diags);
         }
     }
     if diags.has_errors() {
@@ -618,7 +625,14 @@ fn finish_test(
 }
 
 /// Reads per-test source grades into the tests.
-fn read_sources(t: &Table, net: &Network, tests: &mut [FlowTest], diags: &mut Diagnostics) {
+/// `named` holds every test id of the tests file, including those of tests refused for errors.
+fn read_sources(
+    t: &Table,
+    net: &Network,
+    named: &HashSet<String>,
+    tests: &mut [FlowTest],
+    diags: &mut Diagnostics,
+) {
     let index: HashMap<String, usize> = tests
         .iter()
         .enumerate()
@@ -650,6 +664,9 @@ fn read_sources(t: &Table, net: &Network, tests: &mut [FlowTest], diags: &mut Di
             continue;
         };
         let Some(&ti) = index.get(test) else {
+            if named.contains(test) {
+                continue;
+            }
             let loc = r.at("test");
             r.diags.error(
                 loc,

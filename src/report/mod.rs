@@ -26,12 +26,13 @@ use crate::model::{Diagnostic, Diagnostics, Severity};
 use crate::units::{Quantity, UnitSystem};
 
 pub use set::{
-    manifest_name, mask_run, new_run_id, write_outputs, OutputFile, OutputSet, MANIFEST_PREFIX,
+    create_output_folder, manifest_name, mask_run, new_run_id, write_outputs, OutputFile,
+    OutputSet, MANIFEST_PREFIX,
 };
 
 #[derive(Debug, Error)]
 pub enum ReportError {
-    #[error("cannot create output folder {path}: {source}")]
+    #[error("cannot create the output folder {path}: {source}; fix: give --out a folder that exists or can be created (no part of its path may be a file)")]
     CreateDir {
         path: PathBuf,
         source: std::io::Error,
@@ -41,8 +42,11 @@ pub enum ReportError {
         path: PathBuf,
         source: std::io::Error,
     },
-    #[error("cannot write {path}: a folder of that name is in the way; move or remove it")]
+    #[error("cannot write the output file {path}: a folder of that name is in the way (move or remove that folder, or give --out another folder)")]
     InTheWay { path: PathBuf },
+    /// `--out` names an existing file.
+    #[error("the output folder {path} is a file; fix: give --out the path of a folder (a new one, or one that holds earlier results)")]
+    OutIsFile { path: PathBuf },
     #[error(
         "cannot write {name}: an output file name must be a relative path inside the output folder"
     )]

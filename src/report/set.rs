@@ -186,6 +186,20 @@ enum Done {
     MovedAside { path: PathBuf, backup: PathBuf },
 }
 
+/// Creates the output folder `dir` (and its parents) if it does not exist; a file at `dir` is
+/// refused by name rather than with the system's terse "File exists".
+pub fn create_output_folder(dir: &Path) -> Result<(), ReportError> {
+    if dir.exists() && !dir.is_dir() {
+        return Err(ReportError::OutIsFile {
+            path: dir.to_path_buf(),
+        });
+    }
+    std::fs::create_dir_all(dir).map_err(|source| ReportError::CreateDir {
+        path: dir.to_path_buf(),
+        source,
+    })
+}
+
 /// `write_outputs`, with a failure injected before the `fail_at`-th rename of step 2 (tests).
 fn write_set(
     dir: &Path,
@@ -193,10 +207,7 @@ fn write_set(
     set: &OutputSet,
     fail_at: Option<usize>,
 ) -> Result<Vec<PathBuf>, ReportError> {
-    std::fs::create_dir_all(dir).map_err(|source| ReportError::CreateDir {
-        path: dir.to_path_buf(),
-        source,
-    })?;
+    create_output_folder(dir)?;
     if is_same_folder(dir, input_dir) {
         return Err(ReportError::OutputIsInput(dir.to_path_buf()));
     }
