@@ -105,6 +105,9 @@ pub enum CliError {
     /// An output file could not be written.
     #[error(transparent)]
     Report(#[from] ReportError),
+    /// `--out` cannot be an output folder (seen before the analysis).
+    #[error(transparent)]
+    OutputFolder(ReportError),
     /// A journal or partial could not be read, written or combined (refusals are input errors).
     #[error(transparent)]
     Journal(#[from] crate::journal::JournalError),
@@ -133,6 +136,7 @@ impl CliError {
         match self {
             CliError::Argument(_)
             | CliError::OutputIsNetworkFolder(_)
+            | CliError::OutputFolder(_)
             | CliError::OutputNotEmpty(_)
             | CliError::Network { .. }
             | CliError::NetworkListed { .. }

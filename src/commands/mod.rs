@@ -30,13 +30,15 @@ pub fn emit(text: impl AsRef<str>) {
     let _ = std::io::stdout().lock().write_all(text.as_ref().as_bytes());
 }
 
-/// Refuses an output folder that is the network folder, before any analysis runs.
+/// Refuses, before any analysis runs, an output folder that is the network folder or that could
+/// not be created (a file at its path or at one of its parents').
 pub fn check_output_folder(out: Option<&Path>, network: &Path) -> Result<(), CliError> {
     match out {
         Some(out) if report::is_same_folder(out, network) => {
             Err(CliError::OutputIsNetworkFolder(out.to_path_buf()))
         }
-        _ => Ok(()),
+        Some(out) => report::check_output_path(out).map_err(CliError::OutputFolder),
+        None => Ok(()),
     }
 }
 

@@ -26,8 +26,8 @@ use crate::model::{Diagnostic, Diagnostics, Severity};
 use crate::units::{Quantity, UnitSystem};
 
 pub use set::{
-    create_output_folder, manifest_name, mask_run, new_run_id, write_outputs, OutputFile,
-    OutputSet, MANIFEST_PREFIX,
+    check_output_path, create_output_folder, manifest_name, mask_run, new_run_id, write_outputs,
+    OutputFile, OutputSet, MANIFEST_PREFIX,
 };
 
 #[derive(Debug, Error)]

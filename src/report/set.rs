@@ -200,6 +200,33 @@ pub fn create_output_folder(dir: &Path) -> Result<(), ReportError> {
     })
 }
 
+/// Refuses, before any work, an output folder that could not be created: a file at `dir`, or a
+/// file where one of its parent folders would be. A long analysis then does not end in an
+/// error that an earlier look would have shown (the folder itself is created only when the
+/// files are written).
+pub fn check_output_path(dir: &Path) -> Result<(), ReportError> {
+    if dir.exists() && !dir.is_dir() {
+        return Err(ReportError::OutIsFile {
+            path: dir.to_path_buf(),
+        });
+    }
+    for ancestor in dir.ancestors().skip(1) {
+        if ancestor.as_os_str().is_empty() {
+            break;
+        }
+        if ancestor.exists() {
+            if !ancestor.is_dir() {
+                return Err(ReportError::CreateDir {
+                    path: dir.to_path_buf(),
+                    source: std::io::Error::other(format!("{} is a file", ancestor.display())),
+                });
+            }
+            break;
+        }
+    }
+    Ok(())
+}
+
 /// `write_outputs`, with a failure injected before the `fail_at`-th rename of step 2 (tests).
 fn write_set(
     dir: &Path,
