@@ -583,6 +583,14 @@ impl Checker<'_> {
                     "give the dwelling rule its own occupancy name, such as \"dwelling\"",
                 );
             }
+            if *d.max_stories.get_ref() == 0 {
+                let at = self.at(d.max_stories.span());
+                self.diags.error(
+                    at,
+                    "[dwelling] max_stories must be at least 1",
+                    "give the largest number of storeys the dwelling rule covers",
+                );
+            }
             SeparationDwelling {
                 occupancy: d.occupancy.get_ref().trim().to_string(),
                 max_stories: *d.max_stories.get_ref(),

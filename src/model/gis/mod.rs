@@ -354,9 +354,9 @@ fn metres_per_unit(
                     Location::file(mapping_file),
                     format!(
                         "[coordinates] unit gives {} m per unit, but {} is in units of {} m",
-                        short(s),
+                        ten_decimals(s),
                         crs.unwrap_or(""),
-                        metres_per_unit
+                        ten_decimals(metres_per_unit)
                     ),
                     "leave [coordinates] unit out (the CRS decides it) or correct it",
                 );
@@ -818,4 +818,11 @@ fn demands(b: &mut Builder, mapping: &Mapping, path: &Path, diags: &mut Diagnost
             });
         }
     }
+}
+
+/// A length per unit to ten decimals, trailing zeros dropped: enough to tell the international
+/// foot (0.3048 m) from the US survey foot (0.3048006096 m), which the message is about.
+fn ten_decimals(x: f64) -> String {
+    let s = format!("{x:.10}");
+    s.trim_end_matches('0').trim_end_matches('.').to_string()
 }
