@@ -580,6 +580,27 @@ fn unterminated_quote() {
     }
 }
 
+/// A row refused whole (a quoted field over several lines, a wrong number of fields) is one
+/// error: the pipes and hydrants that name its junction are not reported again as naming an
+/// unknown one (common practice, no source: one finding per mistake).
+#[test]
+fn a_refused_row_is_reported_once() {
+    for contents in [
+        "id,elevation,demand\nJ1,100,10\nJ2,105,\"2\n0\"\nJ3,110,15\n",
+        "id,elevation,demand\nJ1,100,10\nJ2,105,20,7\nJ3,110,15\n",
+    ] {
+        let net = Net::us();
+        net.write("junctions.csv", contents);
+        let run = assert_refused(&net, &[("junctions.csv:3", "")]);
+        let text = run.text();
+        let errors = findings(&text)
+            .iter()
+            .filter(|f| f.severity == "error")
+            .count();
+        assert_eq!(errors, 1, "one error expected:\n{text}");
+    }
+}
+
 /// A file with old-style CR-only line ends is either refused as such or read with correct
 /// line numbers; here a bad number on line 3 must not be reported on line 1.
 #[test]

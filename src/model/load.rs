@@ -374,6 +374,13 @@ impl Reader {
         }
     }
 
+    /// Remembers the ids of the node rows the table reader refused whole (already reported).
+    fn refused_node_rows(&mut self, t: &Table) {
+        for id in t.refused_ids() {
+            self.broken_nodes.insert(id.to_string());
+        }
+    }
+
     /// Whether a reference to the unknown node `id` is only a consequence of an error already
     /// reported (an unreadable node file, or a node row with errors).
     fn knock_on(&self, id: &str) -> bool {
@@ -397,6 +404,7 @@ impl Reader {
 
     fn junctions(&mut self, t: &Table) {
         let file = t.file.as_str();
+        self.refused_node_rows(t);
         if t.rows().is_empty() {
             self.diags.error(
                 Location::file(file),
@@ -445,6 +453,7 @@ impl Reader {
 
     fn sources(&mut self, t: &Table) {
         let file = t.file.as_str();
+        self.refused_node_rows(t);
         if t.rows().is_empty() {
             self.diags.error(
                 Location::file(file),

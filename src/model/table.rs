@@ -32,6 +32,9 @@ pub struct Table {
     pub file: String,
     columns: HashMap<String, usize>,
     rows: Vec<Row>,
+    /// Rows refused whole (already reported: a wrong number of fields, a cell over several
+    /// lines or not UTF-8), kept so that references to their ids are not reported again.
+    refused: Vec<Row>,
 }
 
 /// One data row: its line in the file and its trimmed fields.
@@ -68,6 +71,15 @@ impl Cell<'_> {
 impl Table {
     pub fn rows(&self) -> &[Row] {
         &self.rows
+    }
+
+    /// The ids (column `id`) of the rows refused whole while reading, where readable.
+    pub fn refused_ids(&self) -> impl Iterator<Item = &str> {
+        let column = self.columns.get("id").copied();
+        self.refused.iter().filter_map(move |row| {
+            let text = row.fields.get(column?)?.as_str();
+            (!text.is_empty()).then_some(text)
+        })
     }
 
     pub fn has_column(&self, name: &str) -> bool {
@@ -423,6 +435,7 @@ pub fn parse_table(
     }
     let mut header: Option<(u64, Vec<String>)> = None;
     let mut rows = Vec::new();
+    let mut refused = Vec::new();
     let mut record = csv::ByteRecord::new();
     loop {
         match reader.read_byte_record(&mut record) {
@@ -486,10 +499,13 @@ pub fn parse_table(
                         "give every row one field per header column (an empty field means the default); \
                          quote fields that contain commas",
                     );
+                    refused.push(Row { line, fields });
                     continue;
                 }
                 if utf8_ok {
                     rows.push(Row { line, fields });
+                } else {
+                    refused.push(Row { line, fields });
                 }
             }
         }
@@ -559,6 +575,7 @@ pub fn parse_table(
         file: file.to_string(),
         columns,
         rows,
+        refused,
     })
 }
 
