@@ -17,7 +17,9 @@
 #
 # The committed corpora in fuzz/corpus/<target>/ are read, never written: new inputs go to
 # the log folder's corpus (minimize them into fuzz/corpus with `cargo fuzz cmin`, see
-# DEVELOPERS.md, "Fuzzing"). Prints per target: executions, exec/s, coverage, crashes.
+# DEVELOPERS.md, "Fuzzing"). Each target gets the dictionary of its file format (fuzz/dict/:
+# CSV, TOML or JSON tokens, and numbers that broke readers before). Prints per target:
+# executions, exec/s, coverage, corpus size and crashes.
 set -u
 
 here="$(cd "$(dirname "$0")" && pwd)"
@@ -54,6 +56,20 @@ max_len() {
     echo "$largest"
 }
 
+# The dictionary of a target's file format (fuzz/dict/, the numbers appended), or nothing.
+dict_arg() {
+    local kind
+    case "$1" in
+    solve) return ;;
+    gis_pipes | gis_hydrants | journal) kind=json ;;
+    model_toml | criteria | method | project | gis_mapping) kind=toml ;;
+    *) kind=csv ;;
+    esac
+    mkdir -p "$logs/dict"
+    cat "dict/$kind.dict" dict/numbers.dict >"$logs/dict/$kind.dict"
+    echo "-dict=$logs/dict/$kind.dict"
+}
+
 # Runs one target for $seconds, restarting after a crash while time is left.
 run_target() {
     local t="$1"
@@ -64,6 +80,8 @@ run_target() {
     : >"$log"
     local end=$(($(date +%s) + seconds))
     local n=0
+    local dict
+    dict=$(dict_arg "$t")
     while :; do
         local left=$((end - $(date +%s)))
         [ "$left" -le 0 ] && break
@@ -71,7 +89,7 @@ run_target() {
         "$bin_dir/$t" "$work" "corpus/$t" \
             -max_total_time="$left" -rss_limit_mb=1024 -timeout=10 \
             -max_len="$(max_len "$t")" -print_final_stats=1 \
-            -artifact_prefix="$artifacts" >>"$log" 2>&1
+            -artifact_prefix="$artifacts" $dict >>"$log" 2>&1
         local rc=$?
         echo "=== exit $rc" >>"$log"
         [ "$rc" -eq 0 ] && break
