@@ -36,12 +36,17 @@ pub const METHOD: &str = "criteria/methods/fire-code-appendix-b-2015.toml";
 /// Seeds of the inputs the demo town has no file for (cost table, GIS layers, journal).
 pub const SEEDS: &str = "tests/data/fuzz-seeds";
 
-/// Text outside `...`, "..." and '...' quotes: what the program wrote, not the input it quotes.
+/// Text outside `...` and "..." quotes: what the program wrote, not the input it quotes. Inside
+/// "...", a backslash escapes the next character (the parsers quote strings as Rust's `{:?}`
+/// does, `"a\"b"`).
 pub fn unquoted(message: &str) -> String {
     let mut out = String::new();
     let mut quote: Option<char> = None;
+    let mut escaped = false;
     for c in message.chars() {
         match quote {
+            Some('"') if escaped => escaped = false,
+            Some('"') if c == '\\' => escaped = true,
             Some(q) if c == q => quote = None,
             Some(_) => {}
             None if matches!(c, '`' | '"') => quote = Some(c),
