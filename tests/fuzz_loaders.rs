@@ -6,14 +6,9 @@
 //! duplicated, swapped or replaced by huge, tiny, NaN, infinite, negative, empty, unicode or
 //! quoting values; lines deleted, duplicated or swapped; random bytes; truncation; an empty
 //! file; CRLF line ends; a byte-order mark; invalid UTF-8) and loads it through the library.
-//! Every outcome must be:
-//! - no panic;
-//! - on failure, every error located: a file always, and a line for CSV tables (a few
-//!   whole-file findings are listed in `FILE_LEVEL`);
-//! - no NaN or infinity, and no number of more than 40 digits, in any message (text the input
-//!   itself holds, quoted in the message, excepted);
-//! - on success, finite numbers in the loaded model, and (for networks) a steady solve that
-//!   either fails with an error or gives finite heads and flows.
+//! The rules every outcome must keep (no panic, located errors, no NaN, infinity or absurd
+//! number in any message or loaded value, a steady solve that is finite or fails) and the
+//! loading of each file are in `fuzzkit`, shared with the coverage-guided targets in `fuzz/`.
 //!
 //! The demo files are invented data; they are only the seeds of mutation, never check values.
 //! Common practice, no source: the properties are firemain's own rules (docs/ARCHITECTURE.md,
@@ -23,22 +18,15 @@
 //! build); `FIREMAIN_FUZZ_SEED` for another seed (default fixed). A failing case is written to
 //! `target/tmp/fuzz-failures/` for a regression test (see `regressions_stay_fixed`).
 
+mod fuzzkit;
 mod netkit;
 
 use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
 
-use firemain::criteria::load_criteria;
-use firemain::hydraulics::{Hydraulics, SolveRequest};
-use firemain::model::buildings::load_buildings;
-use firemain::model::flowtests::load_flowtests;
-use firemain::model::project::load_project;
-use firemain::model::{load_network, Diagnostics, Network, Severity};
-
-const DEMO: &str = "examples/demo-town";
-const CRITERIA: &str = "criteria/cedar-county-demo.toml";
-const METHOD: &str = "criteria/methods/fire-code-appendix-b-2015.toml";
+use firemain::model::{load_network, Network};
+use fuzzkit::{check_diagnostics, check_network, Target, Workspace, TARGETS};
 
 /// A small xorshift64* generator (Vigna, "An experimental exploration of Marsaglia's xorshift
 /// generators, scrambled", ACM TOMS 42(4), 2016 — from memory): repeatable without a crate.
@@ -261,283 +249,28 @@ fn mutate_toml(text: &[u8], rng: &mut Rng) -> Vec<u8> {
     out.into_bytes()
 }
 
-/// Text outside `...`, "..." and '...' quotes: what the program wrote, not the input it quotes.
-fn unquoted(message: &str) -> String {
-    let mut out = String::new();
-    let mut quote: Option<char> = None;
-    for c in message.chars() {
-        match quote {
-            Some(q) if c == q => quote = None,
-            Some(_) => {}
-            None if matches!(c, '`' | '"') => quote = Some(c),
-            None => out.push(c),
-        }
-    }
-    out
-}
-
-/// A problem with a message: NaN or infinity, or a number of more than 40 digits, written by
-/// the program itself.
-fn bad_number(message: &str) -> Option<String> {
-    let text = unquoted(message);
-    for word in text.split(|c: char| !(c.is_alphanumeric() || c == '.' || c == '-')) {
-        let w = word
-            .trim_matches(|c: char| c == '.' || c == '-')
-            .to_ascii_lowercase();
-        if matches!(w.as_str(), "nan" | "inf" | "infinity") {
-            return Some(format!("non-finite number `{word}`"));
-        }
-        let digits = w.chars().filter(char::is_ascii_digit).count();
-        if digits > 40
-            && w.chars()
-                .all(|c| c.is_ascii_digit() || c == '.' || c == 'e')
-        {
-            return Some(format!("{digits}-digit number"));
-        }
-    }
-    None
-}
-
-/// Findings that concern a whole file, legitimately without a line (the file's absence,
-/// emptiness, size or encoding, a missing header or column, a table without rows).
-const FILE_LEVEL: &[&str] = &[
-    "empty",
-    "no header",
-    "not found",
-    "cannot read",
-    "missing",
-    "UTF-8",
-    "larger than",
-    "no rows",
-    "there are no",
-    "has no",
-    "no junction",
-    "no source",
-    "no pipe",
-    "not a folder",
-    "not connected",
-    "reach",
-    "semicolon",
-    "delimiter",
-];
-
-/// Checks the diagnostics of a load: every error located, no bad number in any message.
-fn check_diagnostics(diags: &Diagnostics, csv: bool) -> Result<(), String> {
-    for d in diags.iter() {
-        let text = d.to_string();
-        if d.location.file.is_empty() {
-            return Err(format!("unlocated: {text}"));
-        }
-        if csv
-            && d.severity == Severity::Error
-            && d.location.line.is_none()
-            && !FILE_LEVEL.iter().any(|k| d.message.contains(k))
-        {
-            return Err(format!("error without a line: {text}"));
-        }
-        if let Some(why) = bad_number(&text) {
-            return Err(format!("{why} in: {text}"));
-        }
-    }
-    Ok(())
-}
-
-/// Every loaded number finite, and a steady solve that fails cleanly or gives finite numbers.
-fn check_network(net: &Network) -> Result<(), String> {
-    for n in &net.nodes {
-        let g = n.grade_m.unwrap_or(0.0);
-        if !(n.elevation_m.is_finite() && n.base_demand_m3s.is_finite() && g.is_finite()) {
-            return Err(format!("non-finite number at node {}", n.id));
-        }
-    }
-    for l in &net.links {
-        if let Some(d) = l.diameter_m() {
-            if !(d.is_finite() && d > 0.0) {
-                return Err(format!("diameter {d} in link {}", l.id));
-            }
-        }
-    }
-    let Ok(h) = Hydraulics::new(net) else {
-        return Ok(());
-    };
-    let mut ws = h.workspace();
-    let request = SolveRequest {
-        demand_factor: net.demand_factors.max_day,
-        extra_demand: &[],
-        fixed_head: None,
-    };
-    if let Ok(sol) = h.solve(&mut ws, &request, &h.cold_start()) {
-        if sol
-            .heads_m
-            .iter()
-            .chain(&sol.flows_m3s)
-            .any(|v| !v.is_finite())
-        {
-            return Err("a solve returned a non-finite head or flow".into());
-        }
-    }
-    Ok(())
-}
-
-/// The demo folder copied to a fresh temporary directory.
-fn demo_copy() -> tempfile::TempDir {
-    let dir = tempfile::tempdir().expect("tempdir");
-    for entry in std::fs::read_dir(DEMO).expect("demo folder") {
-        let entry = entry.expect("entry");
-        let name = entry.file_name();
-        let name = name.to_string_lossy();
-        if name.ends_with(".csv") || name.ends_with(".toml") {
-            std::fs::copy(entry.path(), dir.path().join(&*name)).expect("copy");
-        }
-    }
-    dir
+/// The repository root (the seeds are read from there).
+fn root() -> &'static Path {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
 }
 
 fn demo_network() -> Network {
-    load_network(Path::new(DEMO)).expect("demo loads").network
+    fuzzkit::demo_network(root())
 }
 
-/// One input file to fuzz: its name, the mutation, and how it is loaded and checked.
-#[derive(Clone, Copy)]
-enum Target {
-    /// A file of the network folder.
-    NetworkFile(&'static str),
-    Criteria,
-    Method,
-    Project,
-    Buildings,
-    FlowTests,
-    FlowTestSources,
-}
-
-impl Target {
-    fn name(self) -> String {
-        match self {
-            Target::NetworkFile(f) => f.to_string(),
-            Target::Criteria => "criteria.toml".into(),
-            Target::Method => "method.toml".into(),
-            Target::Project => "project.toml".into(),
-            Target::Buildings => "buildings.csv".into(),
-            Target::FlowTests => "flowtests.csv".into(),
-            Target::FlowTestSources => "flowtest_sources.csv".into(),
-        }
-    }
-
-    fn seed_bytes(self) -> Vec<u8> {
-        let path: PathBuf = match self {
-            Target::NetworkFile(f) => Path::new(DEMO).join(f),
-            Target::Criteria => CRITERIA.into(),
-            Target::Method => METHOD.into(),
-            Target::Project => Path::new(DEMO).join("project.toml"),
-            Target::Buildings => Path::new(DEMO).join("buildings.csv"),
-            Target::FlowTests => Path::new(DEMO).join("flowtests.csv"),
-            Target::FlowTestSources => Path::new(DEMO).join("flowtest_sources.csv"),
-        };
-        std::fs::read(path).expect("seed file")
-    }
-
-    fn is_csv(self) -> bool {
-        self.name().ends_with(".csv")
-    }
-
-    fn mutate(self, seed: &[u8], rng: &mut Rng) -> Vec<u8> {
-        if self.is_csv() {
-            mutate_csv(seed, rng)
-        } else {
-            mutate_toml(seed, rng)
-        }
-    }
-
-    /// Loads `bytes` as this target's file (the other files unchanged) and checks the outcome.
-    fn run(self, bytes: &[u8], demo: &Network) -> Result<(), String> {
-        let dir = demo_copy();
-        let d = dir.path();
-        let csv = self.is_csv();
-        match self {
-            Target::NetworkFile(f) => {
-                std::fs::write(d.join(f), bytes).expect("write");
-                match load_network(d) {
-                    Ok(loaded) => {
-                        check_diagnostics(&loaded.diagnostics, csv)?;
-                        check_network(&loaded.network)
-                    }
-                    Err(diags) => check_diagnostics(&diags, csv),
-                }
-            }
-            Target::Criteria => {
-                let methods = d.join("methods");
-                std::fs::create_dir_all(&methods).expect("mkdir");
-                std::fs::copy(METHOD, methods.join("fire-code-appendix-b-2015.toml"))
-                    .expect("copy method");
-                let path = d.join("criteria.toml");
-                std::fs::write(&path, bytes).expect("write");
-                match load_criteria(&path, demo) {
-                    Ok(c) => {
-                        check_diagnostics(&c.warnings, false)?;
-                        let numbers = [
-                            c.residual_floor_kpa,
-                            c.search_cap_m3s,
-                            c.service_min_kpa,
-                            c.service_max_kpa,
-                        ];
-                        if numbers.iter().any(|v| !v.is_finite()) {
-                            return Err("criteria loaded a non-finite number".into());
-                        }
-                        Ok(())
-                    }
-                    Err(diags) => check_diagnostics(&diags, false),
-                }
-            }
-            Target::Method => {
-                let text = String::from_utf8_lossy(bytes);
-                match firemain::needed::method::parse_method(&text, "method.toml") {
-                    Ok(_) => Ok(()),
-                    Err(diags) => check_diagnostics(&diags, false),
-                }
-            }
-            Target::Project => {
-                let path = d.join("project.toml");
-                std::fs::write(&path, bytes).expect("write");
-                match load_project(&path) {
-                    Ok(_) => Ok(()),
-                    Err(diags) => check_diagnostics(&diags, false),
-                }
-            }
-            Target::Buildings => {
-                let path = d.join("buildings.csv");
-                std::fs::write(&path, bytes).expect("write");
-                match load_buildings(&path, demo.units) {
-                    Ok(b) => check_diagnostics(&b.diagnostics, csv),
-                    Err(diags) => check_diagnostics(&diags, csv),
-                }
-            }
-            Target::FlowTests | Target::FlowTestSources => {
-                let name = self.name();
-                std::fs::write(d.join(&name), bytes).expect("write");
-                match load_flowtests(&d.join("flowtests.csv"), demo) {
-                    Ok(t) => check_diagnostics(&t.diagnostics, csv),
-                    Err(diags) => check_diagnostics(&diags, csv),
-                }
-            }
-        }
+/// The seed of `target`, mutated as a CSV table or a TOML file.
+fn mutate(target: Target, seed: &[u8], rng: &mut Rng) -> Vec<u8> {
+    if target.is_csv() {
+        mutate_csv(seed, rng)
+    } else {
+        mutate_toml(seed, rng)
     }
 }
 
-const TARGETS: [Target; 13] = [
-    Target::NetworkFile("model.toml"),
-    Target::NetworkFile("junctions.csv"),
-    Target::NetworkFile("sources.csv"),
-    Target::NetworkFile("pipes.csv"),
-    Target::NetworkFile("hydrants.csv"),
-    Target::NetworkFile("pumps.csv"),
-    Target::NetworkFile("valves.csv"),
-    Target::Criteria,
-    Target::Method,
-    Target::Project,
-    Target::Buildings,
-    Target::FlowTests,
-    Target::FlowTestSources,
-];
+/// One case in a fresh copy of the seeds.
+fn run(target: Target, bytes: &[u8], demo: &Network) -> Result<(), String> {
+    target.run(&Workspace::new(root()), bytes, demo)
+}
 
 fn budget() -> Duration {
     let secs = std::env::var("FIREMAIN_FUZZ_SECONDS")
@@ -584,14 +317,14 @@ fn fuzz_targets(targets: &[Target]) {
     let mut failures = Vec::new();
     let mut runs = 0usize;
     for (k, &target) in targets.iter().enumerate() {
-        let seed_bytes = target.seed_bytes();
+        let seed_bytes = std::fs::read(root().join(target.seed_path())).expect("seed file");
         let mut rng = Rng(seed() ^ (k as u64 + 1).wrapping_mul(0x9e37_79b9_7f4a_7c15));
         let start = Instant::now();
         let mut n = 0usize;
         while start.elapsed() < budget() {
-            let bytes = target.mutate(&seed_bytes, &mut rng);
+            let bytes = mutate(target, &seed_bytes, &mut rng);
             n += 1;
-            if let Err(e) = guarded(|| target.run(&bytes, &demo)) {
+            if let Err(e) = guarded(|| run(target, &bytes, &demo)) {
                 let kept = keep_failure(&target.name(), failures.len(), &bytes);
                 failures.push(format!(
                     "{}: {e} (input kept in {})",
@@ -625,7 +358,13 @@ fn network_loaders_survive_mutated_files() {
 
 #[test]
 fn other_loaders_survive_mutated_files() {
-    fuzz_targets(&TARGETS[7..]);
+    fuzz_targets(&TARGETS[7..13]);
+}
+
+/// The cost table, the GIS import's five inputs and a sweep's journal.
+#[test]
+fn import_costs_and_journal_survive_mutated_files() {
+    fuzz_targets(&TARGETS[13..]);
 }
 
 /// A random small network (tree plus a few loops, random elevations, lengths, diameters,
@@ -711,7 +450,7 @@ fn regressions_stay_fixed() {
         };
         for case in std::fs::read_dir(dir.path()).expect("cases").flatten() {
             let bytes = std::fs::read(case.path()).expect("case");
-            if let Err(e) = guarded(|| target.run(&bytes, &demo)) {
+            if let Err(e) = guarded(|| run(*target, &bytes, &demo)) {
                 panic!("{}: {e}", case.path().display());
             }
         }

@@ -13,6 +13,7 @@ use crate::fireflow::delivered::{DeliveredState, ShortJunction};
 use crate::fireflow::supply_paths::PipeShare;
 use crate::fireflow::{HydrantNote, HydrantResult, LimitedBy, Outcome};
 use crate::hydraulics::LinkState;
+use crate::model::diagnostic::quoted;
 
 /// An `f64` stored as the hex digits of its bits.
 #[derive(Clone, Copy, Debug)]
@@ -29,12 +30,15 @@ impl<'de> Deserialize<'de> for Bits {
         let text = String::deserialize(d)?;
         if text.len() != 16 {
             return Err(serde::de::Error::custom(format!(
-                "`{text}` is not 16 hex digits"
+                "{} is not 16 hex digits",
+                quoted(&text)
             )));
         }
         u64::from_str_radix(&text, 16)
             .map(|b| Bits(f64::from_bits(b)))
-            .map_err(|_| serde::de::Error::custom(format!("`{text}` is not 16 hex digits")))
+            .map_err(|_| {
+                serde::de::Error::custom(format!("{} is not 16 hex digits", quoted(&text)))
+            })
     }
 }
 

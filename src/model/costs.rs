@@ -41,6 +41,19 @@ pub fn load_cost_table(path: &Path, units: UnitSystem) -> Result<Vec<(f64, f64)>
             let d = units.to_si(Quantity::Diameter, diameter);
             // Cost per length unit -> cost per metre.
             let per_m = cost / units.to_si(Quantity::Length, 1.0);
+            if !(d.is_finite() && per_m.is_finite()) {
+                // Only numbers near the largest f64 overflow in the conversion (found by fuzzing).
+                diags.error(
+                    Location::line(file.clone(), row.line),
+                    format!(
+                        "diameter {} or cost {} is too large",
+                        crate::units::display_value(diameter),
+                        crate::units::display_value(cost)
+                    ),
+                    "give the diameter and the cost per length as plain numbers of sensible size",
+                );
+                continue;
+            }
             if rows.iter().any(|&(e, _): &(f64, f64)| same_diameter(e, d)) {
                 diags.error(
                     Location::line(file.clone(), row.line),
@@ -101,6 +114,14 @@ mod tests {
         ] {
             assert!(text.contains(expected), "missing `{expected}` in:\n{text}");
         }
+        // 1e308 per ft is more than the largest f64 per m (IEEE 754-2008, binary64: about
+        // 1.8e308): a located error, not an infinite cost.
+        let d = load("diameter,cost_per_length\n8,1e308\n").expect_err("too large");
+        assert!(
+            d.to_string()
+                .contains("costs.csv:2: error: diameter 8 or cost 1e308 is too large"),
+            "{d}"
+        );
         let d = load("diameter,cost_per_length\n").expect_err("no rows");
         assert!(d.to_string().contains("the cost table has no rows"), "{d}");
     }

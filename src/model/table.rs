@@ -9,7 +9,7 @@
 use std::collections::HashMap;
 use std::path::Path;
 
-use super::diagnostic::{Diagnostics, Location};
+use super::diagnostic::{quoted, Diagnostics, Location};
 use super::limits::Limit;
 use crate::units::{Quantity, UnitSystem};
 
@@ -531,7 +531,7 @@ pub fn parse_table(
         if columns.contains_key(&name) {
             diags.error(
                 Location::cell(file, header_line, i as u64 + 1),
-                format!("column `{name}` appears twice in the header"),
+                format!("column {} appears twice in the header", quoted(&name)),
                 "remove or rename one of the two columns",
             );
             ok = false;
@@ -562,7 +562,7 @@ pub fn parse_table(
                 "ignored columns: {}",
                 unknown
                     .iter()
-                    .map(|c| format!("`{c}`"))
+                    .map(|c| quoted(c))
                     .collect::<Vec<_>>()
                     .join(", ")
             ),

@@ -5,7 +5,7 @@ use std::path::Path;
 
 use serde::de::DeserializeOwned;
 
-use super::diagnostic::{Diagnostics, Location};
+use super::diagnostic::{quoted, Diagnostics, Location};
 
 /// Largest TOML file read; these files are a few lines long.
 const MAX_TOML_BYTES: u64 = 1 << 20;
@@ -75,10 +75,36 @@ pub fn parse_toml<T: DeserializeOwned>(
                 .filter(|l| !l.is_empty())
                 .collect::<Vec<_>>()
                 .join("; ");
-            diags.error(location, message, fix);
+            diags.error(location, requote(&message), fix);
             None
         }
     }
+}
+
+/// The parser's "unknown variant `X`, expected ..." and "unknown field `X`, ..." with the
+/// input's `X` quoted by [`quoted`]: serde writes it as given, and a backtick in it ended the
+/// quote early (found by coverage-guided fuzzing). The name runs to the last "`, " before the
+/// parser's own text, which never holds that sequence.
+fn requote(message: &str) -> String {
+    for prefix in ["unknown variant `", "unknown field `"] {
+        let Some(rest) = message.strip_prefix(prefix) else {
+            continue;
+        };
+        let end = ["`, expected", "`, there are no"]
+            .iter()
+            .filter_map(|tail| rest.rfind(tail))
+            .max();
+        if let Some(end) = end {
+            let name = &rest[..end];
+            return format!(
+                "{}{}{}",
+                &prefix[..prefix.len() - 1],
+                quoted(name),
+                &rest[end + 1..]
+            );
+        }
+    }
+    message.to_string()
 }
 
 /// 1-based line and character column of byte offset `offset` in `text`.
@@ -105,6 +131,23 @@ fn floor_char_boundary(text: &str, mut offset: usize) -> usize {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Common practice, no source: the name the input gave stays whole and plain.
+    #[test]
+    fn a_backtick_in_an_unknown_name_does_not_end_its_quote() {
+        assert_eq!(
+            requote("unknown variant `a`b`, expected `us` or `si`"),
+            "unknown variant `a'b`, expected `us` or `si`"
+        );
+        assert_eq!(
+            requote("unknown field `x`, expected one of `name`, `units`"),
+            "unknown field `x`, expected one of `name`, `units`"
+        );
+        assert_eq!(
+            requote("invalid type: integer `5`"),
+            "invalid type: integer `5`"
+        );
+    }
 
     #[test]
     fn line_and_column_are_one_based() {

@@ -965,10 +965,15 @@ pub fn segment_crossing(a: [f64; 2], b: [f64; 2], c: [f64; 2], d: [f64; 2]) -> O
         .then(|| [a[0] + t * r[0], a[1] + t * r[1]])
 }
 
-/// A distance or coordinate for a message: at most 3 decimals, no trailing zeros.
+/// A distance or coordinate for a message: at most 3 decimals, no trailing zeros; from 1e15 up
+/// (beyond any real coordinate, where f64 has no decimals left), in scientific notation (a
+/// point at 1e44 printed 45 digits; found by fuzzing).
 pub fn short(x: f64) -> String {
     if !x.is_finite() {
         return String::new();
+    }
+    if x.abs() >= 1e15 {
+        return crate::units::display_value(x);
     }
     let s = format!("{x:.3}");
     let s = s.trim_end_matches('0').trim_end_matches('.');

@@ -18,6 +18,7 @@ use geojson::GeometryValue;
 
 use crate::model::diagnostic::{Diagnostics, Location};
 use crate::model::table::{read_table, TableSpec};
+use crate::units::display_value;
 use build::{event, short, Action, AttributeUnits, BHydrant, BSource, Builder, Event};
 use mapping::{
     default_diameter, default_flow, default_length, ElevationMethod, ElevationSource, HeadlossWord,
@@ -227,7 +228,10 @@ fn check_mapping(m: &Mapping, file: &str, diags: &mut Diagnostics) {
             if !(v.is_finite() && v >= 0.0) {
                 diags.error(
                     Location::file(file),
-                    format!("{name} is {v}, not a distance of 0 or more"),
+                    format!(
+                        "{name} is {}, not a distance of 0 or more",
+                        display_value(v)
+                    ),
                     "give the tolerance in the data's coordinate units",
                 );
             }
@@ -243,7 +247,10 @@ fn check_mapping(m: &Mapping, file: &str, diags: &mut Diagnostics) {
             if !(v.is_finite() && v > 0.0 && v <= 100.0) {
                 diags.error(
                     Location::file(file),
-                    format!("[network] {name} is {v}, not a ratio above 0 and at most 100"),
+                    format!(
+                        "[network] {name} is {}, not a ratio above 0 and at most 100",
+                        display_value(v)
+                    ),
                     "give the ratio of the condition's demand to average-day demand (e.g. 1.5)",
                 );
             }
