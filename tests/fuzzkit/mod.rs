@@ -79,9 +79,11 @@ pub fn bad_number(message: &str) -> Option<String> {
 }
 
 /// Findings that concern a whole file, legitimately without a line (the file's absence,
-/// emptiness, size or encoding, a missing header or column, a table without rows).
+/// emptiness, size or encoding, a missing header or column, a table without rows, points an
+/// elevations file lacks for some line ends).
 pub const FILE_LEVEL: &[&str] = &[
     "empty",
+    "have no elevation",
     "no header",
     "not found",
     "cannot read",
