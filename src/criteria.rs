@@ -9,6 +9,7 @@ use std::path::Path;
 use serde::Deserialize;
 use toml::Spanned;
 
+use crate::model::diagnostic::quoted;
 use crate::model::limits::{self, Limit};
 use crate::model::toml_input::{read_toml, span_location};
 use crate::model::{Diagnostics, Location, Network};
@@ -354,7 +355,10 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
         if required_flow_by_class.insert(class_key(class), q).is_some() {
             diags.error(
                 at(v.span()),
-                format!("[fire.required_flow] names class `{class}` twice (classes are compared without case)"),
+                format!(
+                    "[fire.required_flow] names class {} twice (classes are compared without case)",
+                    quoted(class)
+                ),
                 "keep one value per class",
             );
         }
@@ -366,8 +370,8 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
             _ => diags.error(
                 at(e.span()),
                 format!(
-                    "exempt junction `{}` is not a junction of the network",
-                    e.get_ref()
+                    "exempt junction {} is not a junction of the network",
+                    quoted(e.get_ref())
                 ),
                 "list junction ids of the network (compared exactly)",
             ),
@@ -616,7 +620,7 @@ fn read_needed_method(
         if let Some((class, v)) = t.classes.iter().next() {
             diags.error(
                 at(v.span()),
-                format!("[needed_flow.classes] gives class `{class}`, but method is a file"),
+                format!("[needed_flow.classes] gives class {}, but method is a file", quoted(class)),
                 format!("write method = \"{CRITERIA_METHOD}\" to use the classes, or remove [needed_flow.classes]"),
             );
         }
@@ -628,7 +632,8 @@ fn read_needed_method(
                 diags.error(
                     at(t.method.span()),
                     format!(
-                        "the method file `{name}` (resolved as {}) cannot be used",
+                        "the method file {} (resolved as {}) cannot be used",
+                        quoted(name),
                         method_path.display()
                     ),
                     format!("give the path of a method file relative to {}, or method = \"{CRITERIA_METHOD}\"; the problems in it follow", of.file),
@@ -774,8 +779,9 @@ impl ClassCheck<'_> {
             None => format!(" (it lists: {})", self.classes.join(", ")),
         };
         let message = format!(
-            "hydrant `{}` has class `{class}`, which {file} does not list under [fire.required_flow]{suggestion}",
-            h.id
+            "hydrant `{}` has class {}, which {file} does not list under [fire.required_flow]{suggestion}",
+            h.id,
+            quoted(class)
         );
         let otherwise = if self.has_default {
             "; leave the class empty to use default_required_flow"

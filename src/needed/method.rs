@@ -13,6 +13,7 @@ use std::path::Path;
 use serde::Deserialize;
 use toml::Spanned;
 
+use crate::model::diagnostic::quoted;
 use crate::model::toml_input::{parse_toml, read_toml, span_location};
 use crate::model::{Diagnostics, Location};
 use crate::units::UnitSystem;
@@ -407,7 +408,7 @@ fn parse_kind(
             let at = ck.at(kind.kind.span());
             ck.diags.error(
                 at,
-                format!("unknown method kind `{other}`"),
+                format!("unknown method kind {}", quoted(other)),
                 format!("write kind = \"{KIND_INSURANCE}\" or \"{KIND_TABLE}\""),
             );
             None
@@ -468,7 +469,7 @@ impl Checker<'_> {
                 let at = self.at(f.class.span());
                 self.diags.error(
                     at,
-                    format!("{what} class `{class}` is listed twice"),
+                    format!("{what} class {} is listed twice", quoted(&class)),
                     "keep one row per class (classes are compared without case)",
                 );
             }
@@ -541,8 +542,8 @@ impl Checker<'_> {
                     self.diags.error(
                         at,
                         format!(
-                            "[[c_maximum]] names class `{}`, which no [[construction]] row gives",
-                            c.get_ref()
+                            "[[c_maximum]] names class {}, which no [[construction]] row gives",
+                            quoted(c.get_ref())
                         ),
                         "name construction classes as the [[construction]] rows do",
                     );
@@ -565,7 +566,10 @@ impl Checker<'_> {
             {
                 self.diags.error(
                     Location::file(self.file),
-                    format!("construction class `{}` has no [[c_maximum]]", f.class),
+                    format!(
+                        "construction class {} has no [[c_maximum]]",
+                        quoted(&f.class)
+                    ),
                     "list every construction class in one [[c_maximum]] row",
                 );
             }
@@ -711,7 +715,10 @@ impl Checker<'_> {
             let at = self.at(span);
             self.diags.error(
                 at,
-                format!("sprinkler class `{s}` is not listed under [sprinklers]"),
+                format!(
+                    "sprinkler class {} is not listed under [sprinklers]",
+                    quoted(&s)
+                ),
                 "list the class under [sprinklers] with what it means, or correct the name",
             );
         }
@@ -748,7 +755,10 @@ impl Checker<'_> {
                     let at = self.at(class.span());
                     self.diags.error(
                         at,
-                        format!("construction type `{}` is in two columns", class.get_ref()),
+                        format!(
+                            "construction type {} is in two columns",
+                            quoted(class.get_ref())
+                        ),
                         "list every construction type in one column",
                     );
                 }
@@ -781,7 +791,10 @@ impl Checker<'_> {
                     let at = self.at(r.areas.span());
                     self.diags.error(
                         at,
-                        format!("the row names column `{name}`, which no [[column]] gives"),
+                        format!(
+                            "the row names column {}, which no [[column]] gives",
+                            quoted(name)
+                        ),
                         "name the columns as the [[column]] tables do",
                     );
                     continue;
@@ -794,7 +807,10 @@ impl Checker<'_> {
                     let at = self.at(range.span());
                     self.diags.error(
                         at,
-                        format!("in column `{name}`, this row's areas overlap an earlier row's"),
+                        format!(
+                            "in column {}, this row's areas overlap an earlier row's",
+                            quoted(name)
+                        ),
                         "each row starts above the previous row's last area (3,601 after 3,600)",
                     );
                 }
