@@ -29,20 +29,33 @@ impl fmt::Display for Severity {
 /// Input text quoted in a message: between backticks, with a backtick inside shown as `'` and
 /// control characters escaped (`\u{0}`), so that where the quoted text ends stays plain and no
 /// raw control byte reaches the terminal (a header cell held both; found by coverage-guided
-/// fuzzing).
+/// fuzzing). Text longer than [`QUOTED_MAX_CHARS`] is cut there and marked with `…`: a message
+/// is one line, and a stray quote in a file can make a "value" of thousands of characters.
 pub fn quoted(text: &str) -> String {
-    let mut out = String::with_capacity(text.len() + 2);
+    let mut out = String::with_capacity(text.len().min(4 * QUOTED_MAX_CHARS) + 4);
     out.push('`');
-    for c in text.chars() {
+    let long = text.chars().nth(QUOTED_MAX_CHARS).is_some();
+    let kept = if long {
+        QUOTED_MAX_CHARS - 1
+    } else {
+        QUOTED_MAX_CHARS
+    };
+    for c in text.chars().take(kept) {
         match c {
             '`' => out.push('\''),
             c if c.is_control() => out.extend(c.escape_default()),
             c => out.push(c),
         }
     }
+    if long {
+        out.push('…');
+    }
     out.push('`');
     out
 }
+
+/// The most characters of input text a message quotes (see [`quoted`]).
+pub const QUOTED_MAX_CHARS: usize = 80;
 
 /// Where a finding is: a file, and where known a line and a column (1-based; the column is the
 /// field number in a CSV row, or the character column in a TOML file).
@@ -221,5 +234,11 @@ mod tests {
         assert_eq!(quoted("a`b"), "`a'b`");
         assert_eq!(quoted("a\u{0}b\n"), "`a\\u{0}b\\n`");
         assert_eq!(quoted("水 é"), "`水 é`");
+        // Long text is cut to 80 characters, the last an ellipsis (common practice, no source).
+        let long = "x".repeat(500);
+        let q = quoted(&long);
+        assert_eq!(q.chars().count(), 82);
+        assert!(q.ends_with("x…`"));
+        assert_eq!(quoted(&"y".repeat(80)), format!("`{}`", "y".repeat(80)));
     }
 }
