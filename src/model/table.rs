@@ -178,7 +178,10 @@ impl<'a, 'd> Cells<'a, 'd> {
                 let loc = cell.location(self.file());
                 self.diags.error(
                     loc,
-                    format!("`{}` is not a finite number (column `{name}`)", cell.text),
+                    format!(
+                        "{} is not a finite number (column `{name}`)",
+                        quoted(cell.text)
+                    ),
                     "write a plain decimal number such as 12.5 or 1.25e1",
                 );
                 None
@@ -220,7 +223,10 @@ impl<'a, 'd> Cells<'a, 'd> {
                 let loc = cell.location(self.file());
                 self.diags.error(
                     loc,
-                    format!("`{}` is not a positive number (column `{name}`)", cell.text),
+                    format!(
+                        "{} is not a positive number (column `{name}`)",
+                        quoted(cell.text)
+                    ),
                     fix,
                 );
                 None
@@ -318,7 +324,7 @@ impl<'a, 'd> Cells<'a, 'd> {
         let words: Vec<&str> = options.iter().map(|(w, _)| *w).collect();
         self.diags.error(
             loc,
-            format!("unknown {name} `{}`", cell.text),
+            format!("unknown {name} {}", quoted(cell.text)),
             format!("write one of: {}", words.join(", ")),
         );
         None
