@@ -102,12 +102,13 @@ fn rows() -> Vec<Row> {
     rows
 }
 
-/// Strips one pair of backticks and turns `\n` into line breaks.
+/// Strips one pair of backticks and turns `\n` into line breaks and `\t` into tabs.
 fn code(cell: &str) -> String {
     cell.strip_prefix('`')
         .and_then(|c| c.strip_suffix('`'))
         .unwrap_or(cell)
         .replace("\\n", "\n")
+        .replace("\\t", "\t")
 }
 
 /// Applies a row's edit to the file's text; `None` when the file is to be removed.

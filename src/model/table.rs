@@ -163,6 +163,20 @@ impl<'a, 'd> Cells<'a, 'd> {
                 .error(loc, "the id is empty", "give every element an id");
             return None;
         }
+        // Messages quote ids between backticks: an id that holds one, or a control character,
+        // could not be told apart from the message around it.
+        if cell.text.chars().any(|c| c == '`' || c.is_control()) {
+            let loc = cell.location(self.file());
+            self.diags.error(
+                loc,
+                format!(
+                    "the id {} holds a backtick or a control character",
+                    quoted(cell.text)
+                ),
+                "write ids without ` and control characters (letters, digits and - _ . / are safe)",
+            );
+            return None;
+        }
         Some(cell)
     }
 
