@@ -634,7 +634,7 @@ fn read_needed_method(
                     format!(
                         "the method file {} (resolved as {}) cannot be used",
                         quoted(name),
-                        method_path.display()
+                        quoted(&method_path.display().to_string())
                     ),
                     format!("give the path of a method file relative to {}, or method = \"{CRITERIA_METHOD}\"; the problems in it follow", of.file),
                 );

@@ -117,7 +117,10 @@ pub fn check_diagnostics(diags: &Diagnostics, csv: bool) -> Result<(), String> {
         {
             return Err(format!("error without a line: {text}"));
         }
-        if let Some(why) = bad_number(&text) {
+        // The location is a path the user chose (a method file named in the criteria, say):
+        // only the message and the fix are the program's words.
+        let words = format!("{} {}", d.message, d.fix.as_deref().unwrap_or(""));
+        if let Some(why) = bad_number(&words) {
             return Err(format!("{why} in: {text}"));
         }
     }
