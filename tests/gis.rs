@@ -379,6 +379,26 @@ fn import_refuses_bad_input_with_a_located_message() {
         err.contains("geographic") && err.contains("project the data first"),
         "{err}"
     );
+    // A mapping value checked after parsing is reported at its line and column (common
+    // practice, no source): the optional split tolerance, line 14 of SMALL_MAPPING.
+    let bad = SMALL_MAPPING.replacen("split_tolerance = 10", "split_tolerance = -1", 1);
+    std::fs::write(dir.join("bad-mapping.toml"), bad).expect("written");
+    let o = firemain(&[
+        "import",
+        "geojson",
+        "--pipes",
+        &s("pipes.geojson"),
+        "--mapping",
+        &s("bad-mapping.toml"),
+        "--out",
+        &s("n4"),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains("bad-mapping.toml:14:19: error: [coordinates] split_tolerance is -1"),
+        "{err}"
+    );
     // A missing diameter names the file, the feature and its id.
     let text = read(&dir.join("pipes.geojson")).replacen("\"DIAM_IN\":6", "\"DIAM_IN\":null", 1);
     std::fs::write(dir.join("nodiam.geojson"), text).expect("written");

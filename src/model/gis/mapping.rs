@@ -6,9 +6,10 @@ use std::collections::BTreeMap;
 use std::path::Path;
 
 use serde::Deserialize;
+use toml::Spanned;
 
-use crate::model::diagnostic::Diagnostics;
-use crate::model::toml_input::read_toml;
+use crate::model::diagnostic::{Diagnostics, Location};
+use crate::model::toml_input::{read_toml, span_location};
 use crate::units::{UnitSystem, L_PER_US_GAL, M_PER_FT};
 
 /// The whole mapping file.
@@ -35,9 +36,9 @@ pub struct NetworkSection {
     pub name: String,
     pub units: UnitSystem,
     pub headloss: HeadlossWord,
-    pub max_day_factor: f64,
-    pub peak_hour_factor: f64,
-    pub min_hour_factor: Option<f64>,
+    pub max_day_factor: Spanned<f64>,
+    pub peak_hour_factor: Spanned<f64>,
+    pub min_hour_factor: Option<Spanned<f64>>,
     /// Prefix of the junction ids the import makes (`J-` by default).
     pub junction_prefix: Option<String>,
 }
@@ -63,16 +64,16 @@ impl HeadlossWord {
 #[serde(deny_unknown_fields)]
 pub struct CoordinatesSection {
     /// The CRS when the files name none: `EPSG:NNNN`, or `local` for coordinates in no named CRS.
-    pub crs: Option<String>,
+    pub crs: Option<Spanned<String>>,
     /// The unit of the coordinates; needed when the CRS is `local` or unknown to firemain.
-    pub unit: Option<LengthUnit>,
+    pub unit: Option<Spanned<LengthUnit>>,
     /// Line ends at most this far apart become one junction.
-    pub snap_tolerance: f64,
+    pub snap_tolerance: Spanned<f64>,
     /// A hydrant or source point at most this far from a junction is attached to it.
-    pub attach_tolerance: f64,
+    pub attach_tolerance: Spanned<f64>,
     /// Otherwise a point at most this far from a pipe splits the pipe there (default: the
     /// attach tolerance).
-    pub split_tolerance: Option<f64>,
+    pub split_tolerance: Option<Spanned<f64>>,
 }
 
 /// A unit of length, for coordinates, lengths, elevations and diameters.
@@ -185,7 +186,7 @@ pub struct SourcesSection {
     /// Attribute with `reservoir` or `tank`.
     pub kind: Option<String>,
     /// The kind where the attribute is absent.
-    pub default_kind: Option<String>,
+    pub default_kind: Option<Spanned<String>>,
     pub grade: Option<String>,
     pub grade_unit: Option<LengthUnit>,
 }
@@ -195,7 +196,7 @@ pub struct SourcesSection {
 #[serde(deny_unknown_fields)]
 pub struct ElevationsSection {
     /// `attributes` (of the pipes' ends) or `points` (the `--elevations` CSV file).
-    pub from: Option<ElevationSource>,
+    pub from: Option<Spanned<ElevationSource>>,
     /// Pipe attribute with the elevation at the line's first position.
     pub start: Option<String>,
     /// Pipe attribute with the elevation at the line's last position.
@@ -250,14 +251,33 @@ pub fn default_flow(units: UnitSystem) -> FlowUnit {
     }
 }
 
+/// The mapping file's name and text: findings about a value made after parsing point at the
+/// value's line and column, as the parser's own errors do.
+pub struct MappingFile {
+    pub name: String,
+    text: String,
+}
+
+impl MappingFile {
+    /// The location of the value read with span `span`.
+    pub fn at(&self, span: std::ops::Range<usize>) -> Location {
+        span_location(&self.name, &self.text, span)
+    }
+
+    /// The whole file, for a finding about a value the file does not give.
+    pub fn whole(&self) -> Location {
+        Location::file(&self.name)
+    }
+}
+
 /// Reads the mapping file; problems (with line and column) go to `diags`.
-pub fn read_mapping(path: &Path, diags: &mut Diagnostics) -> Option<Mapping> {
-    let file = path.display().to_string();
+pub fn read_mapping(path: &Path, diags: &mut Diagnostics) -> Option<(Mapping, MappingFile)> {
+    let name = path.display().to_string();
     read_toml::<Mapping>(
         path,
-        &file,
+        &name,
         "see docs/gis.md for the mapping file's sections and keys",
         diags,
     )
-    .map(|(m, _)| m)
+    .map(|(m, text)| (m, MappingFile { name, text }))
 }

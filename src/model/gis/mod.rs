@@ -16,13 +16,13 @@ use std::path::Path;
 
 use geojson::GeometryValue;
 
-use crate::model::diagnostic::{Diagnostics, Location};
+use crate::model::diagnostic::{quoted, Diagnostics, Location};
 use crate::model::table::{read_table, TableSpec};
 use crate::units::display_value;
 use build::{event, short, Action, AttributeUnits, BHydrant, BSource, Builder, Event};
 use mapping::{
     default_diameter, default_flow, default_length, ElevationMethod, ElevationSource, HeadlossWord,
-    Mapping,
+    Mapping, MappingFile,
 };
 use read::{attribute_number, attribute_text, feature_label, read_layer, InFeature, Layer};
 
@@ -66,7 +66,7 @@ pub const DEFAULT_IDW_NEIGHBOURS: usize = 6;
 /// The mapping and the layers as read.
 struct Inputs {
     mapping: Mapping,
-    mapping_file: String,
+    mapping_file: MappingFile,
     pipes: Layer,
     hydrants: Option<Layer>,
     sources: Option<Layer>,
@@ -74,8 +74,7 @@ struct Inputs {
 
 /// Reads the mapping and the layers; `None` after any error.
 fn read_inputs(inputs: &ImportInputs<'_>, diags: &mut Diagnostics) -> Option<Inputs> {
-    let mapping = mapping::read_mapping(inputs.mapping, diags)?;
-    let mapping_file = inputs.mapping.display().to_string();
+    let (mapping, mapping_file) = mapping::read_mapping(inputs.mapping, diags)?;
     check_mapping(&mapping, &mapping_file, diags);
     let pipes = read_layer(inputs.pipes, diags);
     let hydrants = inputs.hydrants.and_then(|p| read_layer(p, diags));
@@ -159,16 +158,21 @@ fn build_network(
         return Builder::default();
     }
     let c = &mapping.coordinates;
-    let split_tolerance = c.split_tolerance.unwrap_or(c.attach_tolerance);
-    let mut b = Builder::from_lines(&lines, c.snap_tolerance, metres_per_unit);
+    let snap_tolerance = *c.snap_tolerance.get_ref();
+    let attach_tolerance = *c.attach_tolerance.get_ref();
+    let split_tolerance = c
+        .split_tolerance
+        .as_ref()
+        .map_or(attach_tolerance, |s| *s.get_ref());
+    let mut b = Builder::from_lines(&lines, snap_tolerance, metres_per_unit);
     b.events.splice(0..0, events);
-    b.report_not_joined(c.snap_tolerance);
+    b.report_not_joined(snap_tolerance);
     if let Some(layer) = &read.sources {
         place_sources(
             &mut b,
             layer,
             mapping,
-            c.attach_tolerance,
+            attach_tolerance,
             split_tolerance,
             diags,
         );
@@ -178,7 +182,7 @@ fn build_network(
             &mut b,
             layer,
             mapping,
-            c.attach_tolerance,
+            attach_tolerance,
             split_tolerance,
             diags,
         );
@@ -216,64 +220,70 @@ fn coordinate_unit_text(metres_per_unit: f64) -> String {
     format!("{} m", short(metres_per_unit))
 }
 
-/// Values of the mapping that TOML's types do not bound.
-fn check_mapping(m: &Mapping, file: &str, diags: &mut Diagnostics) {
+/// Values of the mapping that TOML's types do not bound, each reported at its line and column.
+fn check_mapping(m: &Mapping, file: &MappingFile, diags: &mut Diagnostics) {
     let c = &m.coordinates;
     for (name, v) in [
-        ("[coordinates] snap_tolerance", Some(c.snap_tolerance)),
-        ("[coordinates] attach_tolerance", Some(c.attach_tolerance)),
-        ("[coordinates] split_tolerance", c.split_tolerance),
+        ("[coordinates] snap_tolerance", Some(&c.snap_tolerance)),
+        ("[coordinates] attach_tolerance", Some(&c.attach_tolerance)),
+        ("[coordinates] split_tolerance", c.split_tolerance.as_ref()),
     ] {
-        if let Some(v) = v {
-            if !(v.is_finite() && v >= 0.0) {
-                diags.error(
-                    Location::file(file),
-                    format!(
-                        "{name} is {}, not a distance of 0 or more",
-                        display_value(v)
-                    ),
-                    "give the tolerance in the data's coordinate units",
-                );
-            }
+        let Some(v) = v else { continue };
+        let x = *v.get_ref();
+        if !(x.is_finite() && x >= 0.0) {
+            diags.error(
+                file.at(v.span()),
+                format!(
+                    "{name} is {}, not a distance of 0 or more",
+                    display_value(x)
+                ),
+                "give the tolerance in the data's coordinate units",
+            );
         }
     }
     let n = &m.network;
     for (name, v) in [
-        ("max_day_factor", Some(n.max_day_factor)),
-        ("peak_hour_factor", Some(n.peak_hour_factor)),
-        ("min_hour_factor", n.min_hour_factor),
+        ("max_day_factor", Some(&n.max_day_factor)),
+        ("peak_hour_factor", Some(&n.peak_hour_factor)),
+        ("min_hour_factor", n.min_hour_factor.as_ref()),
     ] {
-        if let Some(v) = v {
-            if !(v.is_finite() && v > 0.0 && v <= 100.0) {
-                diags.error(
-                    Location::file(file),
-                    format!(
-                        "[network] {name} is {}, not a ratio above 0 and at most 100",
-                        display_value(v)
-                    ),
-                    "give the ratio of the condition's demand to average-day demand (e.g. 1.5)",
-                );
-            }
+        let Some(v) = v else { continue };
+        let x = *v.get_ref();
+        if !(x.is_finite() && x > 0.0 && x <= 100.0) {
+            diags.error(
+                file.at(v.span()),
+                format!(
+                    "[network] {name} is {}, not a ratio above 0 and at most 100",
+                    display_value(x)
+                ),
+                "give the ratio of the condition's demand to average-day demand (e.g. 1.5)",
+            );
         }
     }
     if let Some(k) = &m.sources.default_kind {
-        if k != "reservoir" && k != "tank" {
+        let kind = k.get_ref();
+        if kind != "reservoir" && kind != "tank" {
             diags.error(
-                Location::file(file),
-                format!("[sources] default_kind is `{k}`, not reservoir or tank"),
+                file.at(k.span()),
+                format!(
+                    "[sources] default_kind is {}, not reservoir or tank",
+                    quoted(kind)
+                ),
                 "write reservoir or tank",
             );
         }
     }
-    if m.elevations.from == Some(ElevationSource::Attributes)
-        && m.elevations.start.is_none()
-        && m.elevations.end.is_none()
-    {
-        diags.error(
-            Location::file(file),
-            "[elevations] from = \"attributes\" names neither `start` nor `end`",
-            "name the pipe attributes with the elevations at the line's first and last positions",
-        );
+    if let Some(from) = &m.elevations.from {
+        if *from.get_ref() == ElevationSource::Attributes
+            && m.elevations.start.is_none()
+            && m.elevations.end.is_none()
+        {
+            diags.error(
+                file.at(from.span()),
+                "[elevations] from = \"attributes\" names neither `start` nor `end`",
+                "name the pipe attributes with the elevations at the line's first and last positions",
+            );
+        }
     }
 }
 
@@ -282,26 +292,43 @@ fn check_mapping(m: &Mapping, file: &str, diags: &mut Diagnostics) {
 fn resolve_crs(
     layers: &[&Layer],
     mapping: &Mapping,
-    mapping_file: &str,
+    mapping_file: &MappingFile,
     diags: &mut Diagnostics,
 ) -> Option<(Option<String>, f64)> {
     let c = &mapping.coordinates;
+    // Where a missing coordinate unit is reported: at the mapping's `crs` when it decided the
+    // CRS, else the whole mapping file (the CRS came from a layer).
+    let mut unit_missing_at = mapping_file.whole();
     let crs = match named_crs(layers, diags)? {
         Some(crs) => crs,
-        None => match c.crs.as_deref() {
-            Some(text) if text.eq_ignore_ascii_case("local") => None,
-            Some(text) => Some(crs::normalize(text)),
+        None => match &c.crs {
+            Some(text) => {
+                unit_missing_at = mapping_file.at(text.span());
+                let text = text.get_ref();
+                if text.eq_ignore_ascii_case("local") {
+                    None
+                } else {
+                    Some(crs::normalize(text))
+                }
+            }
             None => {
                 diags.error(
                     Location::file(layers[0].file.clone()),
                     "the file names no CRS, and RFC 7946 reads coordinates without one as WGS 84 longitude/latitude in degrees",
-                    format!("state the data's projected CRS in {mapping_file} ([coordinates] crs = \"EPSG:NNNN\"), or crs = \"local\" for coordinates in no named CRS"),
+                    format!("state the data's projected CRS in {} ([coordinates] crs = \"EPSG:NNNN\"), or crs = \"local\" for coordinates in no named CRS", mapping_file.name),
                 );
                 return None;
             }
         },
     };
-    let metres = metres_per_unit(crs.as_deref(), c.unit, &layers[0].file, mapping_file, diags)?;
+    let metres = metres_per_unit(
+        crs.as_deref(),
+        c.unit.as_ref(),
+        &layers[0].file,
+        mapping_file,
+        unit_missing_at,
+        diags,
+    )?;
     Some((crs, metres))
 }
 
@@ -334,15 +361,17 @@ fn named_crs(layers: &[&Layer], diags: &mut Diagnostics) -> Option<Option<Option
 }
 
 /// Metres per coordinate unit: the CRS's own unit when firemain knows the CRS (a contradicting
-/// `[coordinates] unit` is an error), else the mapping's; a geographic CRS is refused.
+/// `[coordinates] unit` is an error, at the unit), else the mapping's; a geographic CRS is
+/// refused. A missing unit is reported at `unit_missing_at`.
 fn metres_per_unit(
     crs: Option<&str>,
-    unit: Option<mapping::LengthUnit>,
+    unit: Option<&toml::Spanned<mapping::LengthUnit>>,
     layer_file: &str,
-    mapping_file: &str,
+    mapping_file: &MappingFile,
+    unit_missing_at: Location,
     diags: &mut Diagnostics,
 ) -> Option<f64> {
-    let stated = unit.map(|u| u.metres());
+    let stated = unit.map(|u| u.get_ref().metres());
     match crs.map_or(crs::CrsKind::Unknown, crs::kind) {
         crs::CrsKind::Geographic => {
             diags.error(
@@ -355,10 +384,10 @@ fn metres_per_unit(
             );
             None
         }
-        crs::CrsKind::Projected { metres_per_unit } => match stated {
-            Some(s) if (s - metres_per_unit).abs() > 1e-9 * metres_per_unit => {
+        crs::CrsKind::Projected { metres_per_unit } => match (unit, stated) {
+            (Some(u), Some(s)) if (s - metres_per_unit).abs() > 1e-9 * metres_per_unit => {
                 diags.error(
-                    Location::file(mapping_file),
+                    mapping_file.at(u.span()),
                     format!(
                         "[coordinates] unit gives {} m per unit, but {} is in units of {} m",
                         ten_decimals(s),
@@ -374,7 +403,7 @@ fn metres_per_unit(
         crs::CrsKind::Unknown => {
             if stated.is_none() {
                 diags.error(
-                    Location::file(mapping_file),
+                    unit_missing_at,
                     format!(
                         "the unit of the coordinates is not known ({})",
                         match crs {
@@ -463,7 +492,7 @@ fn place_sources(
         let id = attribute_text(f, m.id.as_deref()).or_else(|| f.feature_id.clone());
         let kind = attribute_text(f, m.kind.as_deref())
             .map(|k| k.to_ascii_lowercase())
-            .or_else(|| m.default_kind.clone());
+            .or_else(|| m.default_kind.as_ref().map(|k| k.get_ref().clone()));
         let grade = m
             .grade
             .as_deref()
@@ -652,7 +681,7 @@ fn unique_hydrant_id(
 fn elevations(
     b: &mut Builder,
     mapping: &Mapping,
-    mapping_file: &str,
+    mapping_file: &MappingFile,
     points: Option<&Path>,
     diags: &mut Diagnostics,
 ) {
@@ -668,12 +697,18 @@ fn elevations(
         }
     }
     let e = &mapping.elevations;
-    match e.from {
+    let from = e.from.as_ref().map(|f| *f.get_ref());
+    // A finding about the elevations is at the `from` that chose their source.
+    let from_at = e
+        .from
+        .as_ref()
+        .map_or_else(|| mapping_file.whole(), |f| mapping_file.at(f.span()));
+    match from {
         Some(ElevationSource::Attributes) => elevations_from_samples(b),
         Some(ElevationSource::Points) => {
             let Some(path) = points else {
                 diags.error(
-                    Location::file(mapping_file),
+                    from_at,
                     "[elevations] from = \"points\" but no --elevations file was given",
                     "give --elevations FILE (a CSV with columns x, y, elevation)",
                 );
@@ -717,7 +752,10 @@ fn elevations(
             String::new()
         };
         diags.error(
-            Location::file(points.map_or_else(|| mapping_file.to_string(), |p| p.display().to_string())),
+            match (from, points) {
+                (Some(ElevationSource::Points), Some(p)) => Location::file(p.display().to_string()),
+                _ => from_at,
+            },
             format!(
                 "{} junction(s) have no elevation, at {shown}{more}",
                 missing.len()
@@ -805,7 +843,7 @@ fn demands(b: &mut Builder, mapping: &Mapping, path: &Path, diags: &mut Diagnost
         .unit
         .unwrap_or(default_flow(mapping.network.units))
         .m3s();
-    let far = mapping.coordinates.attach_tolerance;
+    let far = *mapping.coordinates.attach_tolerance.get_ref();
     for (i, &(x, y, q)) in pts.iter().enumerate() {
         let Some((node, d)) = b.nearest_junction([x, y], f64::INFINITY) else {
             continue;

@@ -105,10 +105,13 @@ fn model_toml(mapping: &Mapping, crs: Option<&str>) -> String {
         s += &format!("crs = {}\n", toml_string(crs));
     }
     s += "\n[demand]\n";
-    s += &format!("max_day_factor = {}\n", plain(n.max_day_factor));
-    s += &format!("peak_hour_factor = {}\n", plain(n.peak_hour_factor));
-    if let Some(m) = n.min_hour_factor {
-        s += &format!("min_hour_factor = {}\n", plain(m));
+    s += &format!("max_day_factor = {}\n", plain(*n.max_day_factor.get_ref()));
+    s += &format!(
+        "peak_hour_factor = {}\n",
+        plain(*n.peak_hour_factor.get_ref())
+    );
+    if let Some(m) = &n.min_hour_factor {
+        s += &format!("min_hour_factor = {}\n", plain(*m.get_ref()));
     }
     s
 }
