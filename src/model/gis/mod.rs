@@ -118,8 +118,17 @@ pub fn import_geojson(inputs: &ImportInputs<'_>) -> Result<Imported, Diagnostics
     }
     let mut b = b;
     let pipe_ids = b.pipe_ids();
-    let (network_files, junctions) =
-        write::network_files(&b, &pipe_ids, mapping, crs.as_deref(), &mut diags);
+    let sources_at = sources
+        .as_ref()
+        .map_or_else(|| mapping_file.whole(), |l| Location::file(l.file.clone()));
+    let (network_files, junctions) = write::network_files(
+        &b,
+        &pipe_ids,
+        mapping,
+        crs.as_deref(),
+        sources_at,
+        &mut diags,
+    );
     if diags.has_errors() {
         return Err(diags);
     }

@@ -40,12 +40,14 @@ fn toml_string(s: &str) -> String {
 
 /// model.toml, junctions.csv, sources.csv, pipes.csv and (with hydrants) hydrants.csv; and the
 /// number of junctions. Junction ids are `prefix` + a number in the order the junctions were
-/// made (line ends in file order, then the splits).
+/// made (line ends in file order, then the splits). A node id used twice is reported at
+/// `sources_at` (the sources layer, whose ids are the ones that can collide).
 pub fn network_files(
     b: &Builder,
     pipe_ids: &[String],
     mapping: &Mapping,
     crs: Option<&str>,
+    sources_at: Location,
     diags: &mut Diagnostics,
 ) -> (Vec<(String, Vec<u8>)>, usize) {
     let u = mapping.network.units;
@@ -67,8 +69,11 @@ pub fn network_files(
     for id in &ids {
         if !seen.insert(id.as_str()) {
             diags.error(
-                Location::file("mapping"),
-                format!("node id `{id}` is used twice (a source's id, or two sources with one id)"),
+                sources_at,
+                format!(
+                    "node id {} is used twice (a source's id, or two sources with one id)",
+                    crate::model::diagnostic::quoted(id)
+                ),
                 "give every source its own id, or choose another [network] junction_prefix",
             );
             return (Vec::new(), 0);
