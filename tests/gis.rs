@@ -21,6 +21,20 @@ fn firemain(args: &[&str]) -> Output {
         .expect("firemain runs")
 }
 
+/// `firemain import geojson` with each option's file (or folder) taken inside `dir`.
+fn import(dir: &Path, options: &[(&str, &str)]) -> Output {
+    let paths: Vec<String> = options
+        .iter()
+        .map(|(_, name)| dir.join(name).display().to_string())
+        .collect();
+    let mut args = vec!["import", "geojson"];
+    for ((flag, _), path) in options.iter().zip(&paths) {
+        args.push(flag);
+        args.push(path);
+    }
+    firemain(&args)
+}
+
 fn ok(out: &Output) {
     assert!(
         out.status.success(),
@@ -342,16 +356,14 @@ fn import_refuses_bad_input_with_a_located_message() {
     )
     .expect("written");
     let s = |p: &str| dir.join(p).display().to_string();
-    let o = firemain(&[
-        "import",
-        "geojson",
-        "--pipes",
-        &s("bad.geojson"),
-        "--mapping",
-        &s("mapping.toml"),
-        "--out",
-        &s("n1"),
-    ]);
+    let o = import(
+        dir,
+        &[
+            ("--pipes", "bad.geojson"),
+            ("--mapping", "mapping.toml"),
+            ("--out", "n1"),
+        ],
+    );
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(err.contains("bad.geojson:2:"), "{err}");
@@ -363,16 +375,14 @@ fn import_refuses_bad_input_with_a_located_message() {
         1,
     );
     std::fs::write(dir.join("geo.geojson"), text).expect("written");
-    let o = firemain(&[
-        "import",
-        "geojson",
-        "--pipes",
-        &s("geo.geojson"),
-        "--mapping",
-        &s("mapping.toml"),
-        "--out",
-        &s("n2"),
-    ]);
+    let o = import(
+        dir,
+        &[
+            ("--pipes", "geo.geojson"),
+            ("--mapping", "mapping.toml"),
+            ("--out", "n2"),
+        ],
+    );
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(
@@ -383,16 +393,14 @@ fn import_refuses_bad_input_with_a_located_message() {
     // practice, no source): the optional split tolerance, line 14 of SMALL_MAPPING.
     let bad = SMALL_MAPPING.replacen("split_tolerance = 10", "split_tolerance = -1", 1);
     std::fs::write(dir.join("bad-mapping.toml"), bad).expect("written");
-    let o = firemain(&[
-        "import",
-        "geojson",
-        "--pipes",
-        &s("pipes.geojson"),
-        "--mapping",
-        &s("bad-mapping.toml"),
-        "--out",
-        &s("n4"),
-    ]);
+    let o = import(
+        dir,
+        &[
+            ("--pipes", "pipes.geojson"),
+            ("--mapping", "bad-mapping.toml"),
+            ("--out", "n4"),
+        ],
+    );
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(
@@ -402,16 +410,14 @@ fn import_refuses_bad_input_with_a_located_message() {
     // A missing diameter names the file, the feature and its id.
     let text = read(&dir.join("pipes.geojson")).replacen("\"DIAM_IN\":6", "\"DIAM_IN\":null", 1);
     std::fs::write(dir.join("nodiam.geojson"), text).expect("written");
-    let o = firemain(&[
-        "import",
-        "geojson",
-        "--pipes",
-        &s("nodiam.geojson"),
-        "--mapping",
-        &s("mapping.toml"),
-        "--out",
-        &s("n3"),
-    ]);
+    let o = import(
+        dir,
+        &[
+            ("--pipes", "nodiam.geojson"),
+            ("--mapping", "mapping.toml"),
+            ("--out", "n3"),
+        ],
+    );
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(
         err.contains("nodiam.geojson: error: feature 3 (id `D`)"),
@@ -961,22 +967,18 @@ fn junctions_without_elevation_are_named_and_duplicate_hydrants_renamed() {
     let tmp = tempfile::tempdir().expect("tempdir");
     let dir = tmp.path();
     small_layers(dir);
-    let s = |p: &str| dir.join(p).display().to_string();
     // Without an elevation source every junction lacks one: the error lists their positions.
     let mapping = SMALL_MAPPING.replace("from = \"attributes\"", "");
     std::fs::write(dir.join("noelev.toml"), mapping).expect("written");
-    let o = firemain(&[
-        "import",
-        "geojson",
-        "--pipes",
-        &s("pipes.geojson"),
-        "--sources",
-        &s("sources.geojson"),
-        "--mapping",
-        &s("noelev.toml"),
-        "--out",
-        &s("n1"),
-    ]);
+    let o = import(
+        dir,
+        &[
+            ("--pipes", "pipes.geojson"),
+            ("--sources", "sources.geojson"),
+            ("--mapping", "noelev.toml"),
+            ("--out", "n1"),
+        ],
+    );
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(
@@ -992,20 +994,16 @@ fn junctions_without_elevation_are_named_and_duplicate_hydrants_renamed() {
             point([200.0, 2.0], props(&[("HYD", json!("H1"))])),
         ],
     );
-    ok(&firemain(&[
-        "import",
-        "geojson",
-        "--pipes",
-        &s("pipes.geojson"),
-        "--sources",
-        &s("sources.geojson"),
-        "--hydrants",
-        &s("hydrants2.geojson"),
-        "--mapping",
-        &s("mapping.toml"),
-        "--out",
-        &s("n2"),
-    ]));
+    ok(&import(
+        dir,
+        &[
+            ("--pipes", "pipes.geojson"),
+            ("--sources", "sources.geojson"),
+            ("--hydrants", "hydrants2.geojson"),
+            ("--mapping", "mapping.toml"),
+            ("--out", "n2"),
+        ],
+    ));
     let hyd = data_lines(&dir.join("n2/hydrants.csv"));
     assert_eq!(
         hyd[1..],
