@@ -776,7 +776,14 @@ impl ClassCheck<'_> {
         let suggestion = match nearest_class(class, self.classes) {
             Some(near) => format!(" (did you mean `{near}`?)"),
             None if self.classes.is_empty() => " (it lists no classes)".to_string(),
-            None => format!(" (it lists: {})", self.classes.join(", ")),
+            None => format!(
+                " (it lists: {})",
+                self.classes
+                    .iter()
+                    .map(|c| quoted(c))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
         };
         let message = format!(
             "hydrant `{}` has class {}, which {file} does not list under [fire.required_flow]{suggestion}",

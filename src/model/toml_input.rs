@@ -86,6 +86,20 @@ pub fn parse_toml<T: DeserializeOwned>(
 /// quote early (found by coverage-guided fuzzing). The name runs to the last "`, " before the
 /// parser's own text, which never holds that sequence.
 fn requote(message: &str) -> String {
+    // "duplicate key `K` in table `T`" (or without the table): K and T from the input.
+    if let Some(rest) = message
+        .strip_prefix("duplicate key `")
+        .and_then(|r| r.strip_suffix('`'))
+    {
+        return match rest.rfind("` in table `") {
+            Some(i) => format!(
+                "duplicate key {} in table {}",
+                quoted(&rest[..i]),
+                quoted(&rest[i + "` in table `".len()..])
+            ),
+            None => format!("duplicate key {}", quoted(rest)),
+        };
+    }
     for prefix in ["unknown variant `", "unknown field `"] {
         let Some(rest) = message.strip_prefix(prefix) else {
             continue;
@@ -142,6 +156,10 @@ mod tests {
         assert_eq!(
             requote("unknown field `x`, expected one of `name`, `units`"),
             "unknown field `x`, expected one of `name`, `units`"
+        );
+        assert_eq!(
+            requote("duplicate key `low` in table `a`b`"),
+            "duplicate key `low` in table `a'b`"
         );
         assert_eq!(
             requote("invalid type: integer `5`"),
