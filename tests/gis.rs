@@ -21,6 +21,13 @@ fn firemain(args: &[&str]) -> Output {
         .expect("firemain runs")
 }
 
+/// Asserts that `o` is an input error (exit code 2) whose standard error says `says`.
+fn assert_refused(o: &Output, says: &str) {
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains(says), "{err}");
+}
+
 /// `firemain import geojson` with each option's file (or folder) taken inside `dir`.
 fn import(dir: &Path, options: &[(&str, &str)]) -> Output {
     let paths: Vec<String> = options
@@ -364,9 +371,7 @@ fn import_refuses_bad_input_with_a_located_message() {
             ("--out", "n1"),
         ],
     );
-    assert_eq!(o.status.code(), Some(2));
-    let err = String::from_utf8_lossy(&o.stderr);
-    assert!(err.contains("bad.geojson:2:"), "{err}");
+    assert_refused(&o, "bad.geojson:2:");
     assert!(!dir.join("n1").exists());
     // A geographic CRS is refused with the advice to project the data.
     let text = read(&dir.join("pipes.geojson")).replacen(
@@ -401,11 +406,9 @@ fn import_refuses_bad_input_with_a_located_message() {
             ("--out", "n4"),
         ],
     );
-    assert_eq!(o.status.code(), Some(2));
-    let err = String::from_utf8_lossy(&o.stderr);
-    assert!(
-        err.contains("bad-mapping.toml:14:19: error: [coordinates] split_tolerance is -1"),
-        "{err}"
+    assert_refused(
+        &o,
+        "bad-mapping.toml:14:19: error: [coordinates] split_tolerance is -1",
     );
     // A missing diameter names the file, the feature and its id.
     let text = read(&dir.join("pipes.geojson")).replacen("\"DIAM_IN\":6", "\"DIAM_IN\":null", 1);
@@ -979,11 +982,9 @@ fn junctions_without_elevation_are_named_and_duplicate_hydrants_renamed() {
             ("--out", "n1"),
         ],
     );
-    assert_eq!(o.status.code(), Some(2));
-    let err = String::from_utf8_lossy(&o.stderr);
-    assert!(
-        err.contains("5 junction(s) have no elevation, at (100, 0), (100, 100)"),
-        "{err}"
+    assert_refused(
+        &o,
+        "5 junction(s) have no elevation, at (100, 0), (100, 100)",
     );
     // Two hydrants with one id: the second is renamed, and the report says so.
     use serde_json::json;
