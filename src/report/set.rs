@@ -189,11 +189,7 @@ enum Done {
 /// Creates the output folder `dir` (and its parents) if it does not exist; a file at `dir` is
 /// refused by name rather than with the system's terse "File exists".
 pub fn create_output_folder(dir: &Path) -> Result<(), ReportError> {
-    if dir.exists() && !dir.is_dir() {
-        return Err(ReportError::OutIsFile {
-            path: dir.to_path_buf(),
-        });
-    }
+    check_output_path(dir)?;
     std::fs::create_dir_all(dir).map_err(|source| ReportError::CreateDir {
         path: dir.to_path_buf(),
         source,
