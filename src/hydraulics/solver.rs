@@ -30,6 +30,8 @@ use super::SolveError;
 use crate::model::{LinkKind, Network, ValveKind};
 use crate::units::head_m_from_pressure_kpa;
 
+mod local;
+
 /// When a solve has converged: the largest head and flow changes of the last step.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Tolerance {

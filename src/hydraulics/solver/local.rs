@@ -1,0 +1,233 @@
+//! A start for a fire-flow solve from a nonlinear solve of the hydrant's surroundings.
+//!
+//! A fire flow changes the network's state strongly only near the hydrant: there the max-day
+//! state carries little flow, its linearization is far from the fire-flow state, and Newton's
+//! first steps from the max-day state's linear response overshoot by metres. Solving the
+//! junctions nearest the hydrant alone, with every other node held at its head in the linear
+//! response, is a small nonlinear problem whose answer is close to the whole network's near the
+//! hydrant (measurements in docs/performance.md). It only gives a start: the whole network's
+//! solve from it decides every figure.
+
+use super::{Hydraulics, Role, Solution};
+use crate::hydraulics::factor::{
+    OrderedPattern, SparseCholesky, SpdFactorization, SymbolicAnalysis,
+};
+
+/// Newton steps allowed in the region's solve.
+const REGION_ITERATIONS: u32 = 12;
+/// The region's solve stops when no head moves by more than this, m: a start needs no more.
+const REGION_TOLERANCE_M: f64 = 0.01;
+/// Marks a node outside the region.
+const OUTSIDE: u32 = u32::MAX;
+
+/// One link of the region: its index and the region indices of its ends (`OUTSIDE` for a
+/// node held at its head).
+struct RegionLink {
+    link: usize,
+    from: u32,
+    to: u32,
+}
+
+impl Hydraulics<'_> {
+    /// Replaces the heads and flows of `start` around junction `at` by a solve of the `size`
+    /// junctions nearest to it (breadth first over conducting links) with every other node held
+    /// at its head in `start`; the junctions draw their demand at `demand_factor` plus `extra`
+    /// (m³/s) at `at`. Returns whether it did: `start` is left as it was when the region
+    /// holds a link whose state is ruled by a control (a pump, a check valve, a regulating
+    /// valve), or when the region's Newton iteration does not settle within its steps.
+    pub fn refine_around(
+        &self,
+        start: &mut Solution,
+        at: usize,
+        demand_factor: f64,
+        extra: f64,
+        size: usize,
+    ) -> bool {
+        let Some((region, local)) = self.region_around(start, at, size) else {
+            return false;
+        };
+        let Some(links) = self.region_links(start, &region, &local) else {
+            return false;
+        };
+        let demand: Vec<f64> = region
+            .iter()
+            .map(|&j| {
+                self.net.nodes[j].base_demand_m3s * demand_factor
+                    + if j == at { extra } else { 0.0 }
+            })
+            .collect();
+        self.solve_region(start, &region, &links, &demand)
+    }
+
+    /// The region: up to `size` junctions, breadth first from `at`, and each node's index in
+    /// it (`OUTSIDE` elsewhere); `None` when a controlled link touches it.
+    fn region_around(
+        &self,
+        start: &Solution,
+        at: usize,
+        size: usize,
+    ) -> Option<(Vec<usize>, Vec<u32>)> {
+        let nj = self.n_junctions;
+        if at >= nj || size == 0 {
+            return None;
+        }
+        let mut local = vec![OUTSIDE; self.net.nodes.len()];
+        let mut region = Vec::with_capacity(size);
+        local[at] = 0;
+        region.push(at);
+        let mut next = 0;
+        while next < region.len() && region.len() < size {
+            let n = region[next];
+            next += 1;
+            for &i in self.links_at(n) {
+                if self.roles[i] != Role::Plain {
+                    return None;
+                }
+                let (a, b) = self.ends[i];
+                let m = if a == n { b } else { a };
+                if m < nj
+                    && local[m] == OUTSIDE
+                    && start.states[i].conducts()
+                    && region.len() < size
+                {
+                    local[m] = region.len() as u32;
+                    region.push(m);
+                }
+            }
+        }
+        Some((region, local))
+    }
+
+    /// The conducting links with an end in the region, once each; `None` when one is
+    /// controlled.
+    fn region_links(
+        &self,
+        start: &Solution,
+        region: &[usize],
+        local: &[u32],
+    ) -> Option<Vec<RegionLink>> {
+        let mut links = Vec::new();
+        for (k, &j) in region.iter().enumerate() {
+            for &i in self.links_at(j) {
+                if self.roles[i] != Role::Plain {
+                    return None;
+                }
+                let (a, b) = self.ends[i];
+                if a == b || !start.states[i].conducts() {
+                    continue;
+                }
+                let other = if a == j { b } else { a };
+                // A link inside the region is taken from the end with the smaller index.
+                if local[other] != OUTSIDE && (local[other] as usize) < k {
+                    continue;
+                }
+                links.push(RegionLink {
+                    link: i,
+                    from: local[a],
+                    to: local[b],
+                });
+            }
+        }
+        Some(links)
+    }
+
+    /// Newton's method (the global gradient algorithm of Todini & Pilati, 1988) on the region
+    /// alone; writes its heads and flows into `start` when it settles.
+    fn solve_region(
+        &self,
+        start: &mut Solution,
+        region: &[usize],
+        links: &[RegionLink],
+        demand: &[f64],
+    ) -> bool {
+        let n = region.len();
+        let pairs: Vec<(usize, usize)> = links
+            .iter()
+            .filter(|l| l.from != OUTSIDE && l.to != OUTSIDE)
+            .map(|l| (l.from as usize, l.to as usize))
+            .collect();
+        let Ok(pattern) = OrderedPattern::new(n, &pairs) else {
+            return false;
+        };
+        let Ok(analysis) = SymbolicAnalysis::new(&pattern) else {
+            return false;
+        };
+        let mut factor = SparseCholesky::new(analysis);
+        let end_head = |node: usize, end: u32, heads: &[f64]| -> f64 {
+            if end == OUTSIDE {
+                start.heads_m[node]
+            } else {
+                heads[end as usize]
+            }
+        };
+        let mut heads: Vec<f64> = region.iter().map(|&j| start.heads_m[j]).collect();
+        let free = |end: u32| end != OUTSIDE;
+        let mut flows: Vec<f64> = links.iter().map(|l| start.flows_m3s[l.link]).collect();
+        let mut values = vec![0.0; pattern.nnz()];
+        let mut rhs = vec![0.0; n];
+        let mut g = vec![0.0; links.len()];
+        let mut known = vec![0.0; links.len()];
+        for _ in 0..REGION_ITERATIONS {
+            values.iter_mut().for_each(|v| *v = 0.0);
+            for (k, d) in demand.iter().enumerate() {
+                rhs[pattern.position(k)] = -d;
+            }
+            for (p, l) in links.iter().enumerate() {
+                let (a, b) = self.ends[l.link];
+                let (phi, slope) = self.laws[l.link].evaluate(flows[p]);
+                g[p] = 1.0 / slope;
+                let loss = end_head(a, l.from, &heads) - end_head(b, l.to, &heads);
+                known[p] = -g[p] * (phi - loss);
+                let carried = flows[p] + known[p];
+                if free(l.from) {
+                    let k = l.from as usize;
+                    rhs[pattern.position(k)] -= carried;
+                    values[pattern.diagonal_slot(k)] += g[p];
+                }
+                if free(l.to) {
+                    let k = l.to as usize;
+                    rhs[pattern.position(k)] += carried;
+                    values[pattern.diagonal_slot(k)] += g[p];
+                }
+                if free(l.from) && free(l.to) {
+                    if let Some(s) = pattern.slot(l.from as usize, l.to as usize) {
+                        values[s] -= g[p];
+                    }
+                }
+            }
+            if factor.refactor(&values).is_err() {
+                return false;
+            }
+            factor.solve_in_place(&mut rhs);
+            let step = |end: u32| -> f64 {
+                if free(end) {
+                    rhs[pattern.position(end as usize)]
+                } else {
+                    0.0
+                }
+            };
+            let mut largest = 0.0_f64;
+            for (k, h) in heads.iter_mut().enumerate() {
+                let d = rhs[pattern.position(k)];
+                if !d.is_finite() {
+                    return false;
+                }
+                *h += d;
+                largest = largest.max(d.abs());
+            }
+            for (p, l) in links.iter().enumerate() {
+                flows[p] += known[p] + g[p] * (step(l.from) - step(l.to));
+            }
+            if largest < REGION_TOLERANCE_M {
+                for (k, &j) in region.iter().enumerate() {
+                    start.heads_m[j] = heads[k];
+                }
+                for (p, l) in links.iter().enumerate() {
+                    start.flows_m3s[l.link] = flows[p];
+                }
+                return true;
+            }
+        }
+        false
+    }
+}

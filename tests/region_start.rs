@@ -1,0 +1,118 @@
+//! The start of a required-flow solve: the junctions around a hydrant solved alone, every other
+//! node held at its head (`Hydraulics::refine_around`), against closed forms.
+
+mod netkit;
+
+use firemain::hydraulics::Hydraulics;
+use firemain::model::Network;
+use netkit::{hw_resistance, solve, NetFiles};
+
+/// The region's solve stops when its Newton step is below 0.01 m; Newton's quadratic
+/// convergence leaves far less than that. 1 mm is what a start needs.
+const REGION_HEAD_TOL_M: f64 = 1e-3;
+
+fn index(net: &Network, id: &str) -> usize {
+    net.nodes
+        .iter()
+        .position(|n| n.id == id)
+        .unwrap_or_else(|| panic!("no node {id}"))
+}
+
+#[test]
+fn region_of_a_series_path_matches_hazen_williams_with_its_boundary_held() {
+    // Closed form: the same flow passes each pipe of a series path, so below a node held at
+    // head H_A the heads are H_A − r_2 Q^1.852 and then − r_3 Q^1.852 (continuity plus the
+    // Hazen-Williams law, Williams & Hazen, Hydraulic Tables, 1920; SI constants 10.67 / 1.852
+    // / 4.8704 as in docs/network-format.md).
+    let q: f64 = 0.035;
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 120.0)
+        .junction("A", 30.0, 0.0)
+        .junction("B", 25.0, 0.0)
+        .junction("C", 20.0, 0.0)
+        .pipe("P1", "R", "A", 400.0, 300.0, 120.0)
+        .pipe("P2", "A", "B", 650.0, 250.0, 110.0)
+        .pipe("P3", "B", "C", 300.0, 150.0, 95.0);
+    let net = f.load();
+    let (a, b, c) = (index(&net, "A"), index(&net, "B"), index(&net, "C"));
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    // The start: the state without the fire flow (no flow, every head at the grade), with A
+    // moved to its head at fire flow q, which the region takes as its boundary.
+    let mut start = solve(&net, 1.0, &[]);
+    let r = |l: f64, d: f64, c: f64| hw_resistance(l, d / 1000.0, c) * q.powf(1.852);
+    let head_a = 120.0 - r(400.0, 300.0, 120.0);
+    start.heads_m[a] = head_a;
+    let before = start.clone();
+    assert!(hydraulics.refine_around(&mut start, c, 1.0, q, 2));
+    let head_b = head_a - r(650.0, 250.0, 110.0);
+    let head_c = head_b - r(300.0, 150.0, 95.0);
+    assert!(
+        (start.heads_m[b] - head_b).abs() < REGION_HEAD_TOL_M,
+        "{}",
+        start.heads_m[b]
+    );
+    assert!(
+        (start.heads_m[c] - head_c).abs() < REGION_HEAD_TOL_M,
+        "{}",
+        start.heads_m[c]
+    );
+    // Both pipes touching the region carry the fire flow; the one outside it is as it was.
+    assert!((start.flows_m3s[1] - q).abs() < 1e-9);
+    assert!((start.flows_m3s[2] - q).abs() < 1e-9);
+    assert_eq!(start.flows_m3s[0], before.flows_m3s[0]);
+    assert_eq!(start.heads_m[a], before.heads_m[a]);
+}
+
+#[test]
+fn region_with_a_loop_splits_flow_as_r_to_the_minus_0_54() {
+    // Closed form: pipes in parallel share one head loss h, so Q_A/Q_B = (r_B/r_A)^(1/1.852)
+    // and Q_A + Q_B = Q (equivalent-pipe relation for Hazen-Williams, Williams & Hazen 1920).
+    let q: f64 = 0.060;
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 100.0)
+        .junction("J", 50.0, 0.0)
+        .pipe("PA", "R", "J", 1000.0, 200.0, 130.0)
+        .pipe("PB", "R", "J", 1000.0, 150.0, 130.0);
+    let net = f.load();
+    let j = index(&net, "J");
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let mut start = solve(&net, 1.0, &[]);
+    assert!(hydraulics.refine_around(&mut start, j, 1.0, q, 1));
+    let ra = hw_resistance(1000.0, 0.2, 130.0);
+    let rb = hw_resistance(1000.0, 0.15, 130.0);
+    let qa = q / (1.0 + (ra / rb).powf(1.0 / 1.852));
+    let head = 100.0 - ra * qa.powf(1.852);
+    assert!(
+        (start.heads_m[j] - head).abs() < REGION_HEAD_TOL_M,
+        "{}",
+        start.heads_m[j]
+    );
+    // A head error e moves a flow by about Q·e/(1.852·h): 1e-5 m³/s for 1 mm here.
+    assert!(
+        (start.flows_m3s[0] - qa).abs() < 1e-5,
+        "{} vs {qa}",
+        start.flows_m3s[0]
+    );
+    assert!((start.flows_m3s[0] + start.flows_m3s[1] - q).abs() < 1e-9);
+}
+
+#[test]
+fn region_touching_a_pump_is_left_to_the_whole_solve() {
+    // Common practice, no source: a pump's state follows rules (off, on, closed by its check
+    // valve) that only the whole network's solve applies, so a region that reaches one gives no
+    // start and leaves the state as it was.
+    let mut f = NetFiles::si_hw();
+    f.reservoir("LOW", 100.0)
+        .junction("J", 95.0, 0.0)
+        .junction("K", 95.0, 0.0)
+        .pump("PU1", "LOW", "J", 40.0, (50.0, 30.0), (90.0, 15.0), 1.0)
+        .pipe("P", "J", "K", 100.0, 150.0, 120.0);
+    let net = f.load();
+    let k = index(&net, "K");
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let mut start = solve(&net, 1.0, &[]);
+    let before = start.clone();
+    assert!(!hydraulics.refine_around(&mut start, k, 1.0, 0.02, 2));
+    assert_eq!(start.heads_m, before.heads_m);
+    assert_eq!(start.flows_m3s, before.flows_m3s);
+}
