@@ -140,94 +140,138 @@ impl Hydraulics<'_> {
         links: &[RegionLink],
         demand: &[f64],
     ) -> bool {
+        let Some(mut system) = RegionSystem::new(start, region, links) else {
+            return false;
+        };
+        for _ in 0..REGION_ITERATIONS {
+            system.assemble(self, start, links, demand);
+            let Some(largest) = system.step(links) else {
+                return false;
+            };
+            if largest < REGION_TOLERANCE_M {
+                for (k, &j) in region.iter().enumerate() {
+                    start.heads_m[j] = system.heads[k];
+                }
+                for (p, l) in links.iter().enumerate() {
+                    start.flows_m3s[l.link] = system.flows[p];
+                }
+                return true;
+            }
+        }
+        false
+    }
+}
+
+/// The region's Newton system: its ordered pattern and factorization, and per step the matrix
+/// values, right-hand side, each link's conductance and known flow change, and the iterate.
+struct RegionSystem {
+    pattern: OrderedPattern,
+    factor: SparseCholesky,
+    values: Vec<f64>,
+    rhs: Vec<f64>,
+    conductance: Vec<f64>,
+    known: Vec<f64>,
+    heads: Vec<f64>,
+    flows: Vec<f64>,
+}
+
+impl RegionSystem {
+    /// The system of `region` and its `links`, the iterate taken from `start`; `None` when its
+    /// pattern cannot be ordered or analysed.
+    fn new(start: &Solution, region: &[usize], links: &[RegionLink]) -> Option<Self> {
         let n = region.len();
         let pairs: Vec<(usize, usize)> = links
             .iter()
             .filter(|l| l.from != OUTSIDE && l.to != OUTSIDE)
             .map(|l| (l.from as usize, l.to as usize))
             .collect();
-        let Ok(pattern) = OrderedPattern::new(n, &pairs) else {
-            return false;
-        };
-        let Ok(analysis) = SymbolicAnalysis::new(&pattern) else {
-            return false;
-        };
-        let mut factor = SparseCholesky::new(analysis);
-        let end_head = |node: usize, end: u32, heads: &[f64]| -> f64 {
+        let pattern = OrderedPattern::new(n, &pairs).ok()?;
+        let analysis = SymbolicAnalysis::new(&pattern).ok()?;
+        Some(RegionSystem {
+            factor: SparseCholesky::new(analysis),
+            values: vec![0.0; pattern.nnz()],
+            rhs: vec![0.0; n],
+            conductance: vec![0.0; links.len()],
+            known: vec![0.0; links.len()],
+            heads: region.iter().map(|&j| start.heads_m[j]).collect(),
+            flows: links.iter().map(|l| start.flows_m3s[l.link]).collect(),
+            pattern,
+        })
+    }
+
+    /// Assembles the step's matrix and right-hand side at the current iterate (the solver's
+    /// `assemble_step`, on the region; nodes outside it at their heads in `start`).
+    fn assemble(
+        &mut self,
+        hydraulics: &Hydraulics<'_>,
+        start: &Solution,
+        links: &[RegionLink],
+        demand: &[f64],
+    ) {
+        let pattern = &self.pattern;
+        self.values.iter_mut().for_each(|v| *v = 0.0);
+        for (k, d) in demand.iter().enumerate() {
+            self.rhs[pattern.position(k)] = -d;
+        }
+        let heads = &self.heads;
+        let end_head = |node: usize, end: u32| -> f64 {
             if end == OUTSIDE {
                 start.heads_m[node]
             } else {
                 heads[end as usize]
             }
         };
-        let mut heads: Vec<f64> = region.iter().map(|&j| start.heads_m[j]).collect();
-        let free = |end: u32| end != OUTSIDE;
-        let mut flows: Vec<f64> = links.iter().map(|l| start.flows_m3s[l.link]).collect();
-        let mut values = vec![0.0; pattern.nnz()];
-        let mut rhs = vec![0.0; n];
-        let mut g = vec![0.0; links.len()];
-        let mut known = vec![0.0; links.len()];
-        for _ in 0..REGION_ITERATIONS {
-            values.iter_mut().for_each(|v| *v = 0.0);
-            for (k, d) in demand.iter().enumerate() {
-                rhs[pattern.position(k)] = -d;
+        for (p, l) in links.iter().enumerate() {
+            let (a, b) = hydraulics.ends[l.link];
+            let (phi, slope) = hydraulics.laws[l.link].evaluate(self.flows[p]);
+            let g = 1.0 / slope;
+            self.conductance[p] = g;
+            self.known[p] = -g * (phi - (end_head(a, l.from) - end_head(b, l.to)));
+            let carried = self.flows[p] + self.known[p];
+            if l.from != OUTSIDE {
+                let k = l.from as usize;
+                self.rhs[pattern.position(k)] -= carried;
+                self.values[pattern.diagonal_slot(k)] += g;
             }
-            for (p, l) in links.iter().enumerate() {
-                let (a, b) = self.ends[l.link];
-                let (phi, slope) = self.laws[l.link].evaluate(flows[p]);
-                g[p] = 1.0 / slope;
-                let loss = end_head(a, l.from, &heads) - end_head(b, l.to, &heads);
-                known[p] = -g[p] * (phi - loss);
-                let carried = flows[p] + known[p];
-                if free(l.from) {
-                    let k = l.from as usize;
-                    rhs[pattern.position(k)] -= carried;
-                    values[pattern.diagonal_slot(k)] += g[p];
-                }
-                if free(l.to) {
-                    let k = l.to as usize;
-                    rhs[pattern.position(k)] += carried;
-                    values[pattern.diagonal_slot(k)] += g[p];
-                }
-                if free(l.from) && free(l.to) {
-                    if let Some(s) = pattern.slot(l.from as usize, l.to as usize) {
-                        values[s] -= g[p];
-                    }
-                }
+            if l.to != OUTSIDE {
+                let k = l.to as usize;
+                self.rhs[pattern.position(k)] += carried;
+                self.values[pattern.diagonal_slot(k)] += g;
             }
-            if factor.refactor(&values).is_err() {
-                return false;
-            }
-            factor.solve_in_place(&mut rhs);
-            let step = |end: u32| -> f64 {
-                if free(end) {
-                    rhs[pattern.position(end as usize)]
-                } else {
-                    0.0
+            if l.from != OUTSIDE && l.to != OUTSIDE {
+                if let Some(s) = pattern.slot(l.from as usize, l.to as usize) {
+                    self.values[s] -= g;
                 }
-            };
-            let mut largest = 0.0_f64;
-            for (k, h) in heads.iter_mut().enumerate() {
-                let d = rhs[pattern.position(k)];
-                if !d.is_finite() {
-                    return false;
-                }
-                *h += d;
-                largest = largest.max(d.abs());
-            }
-            for (p, l) in links.iter().enumerate() {
-                flows[p] += known[p] + g[p] * (step(l.from) - step(l.to));
-            }
-            if largest < REGION_TOLERANCE_M {
-                for (k, &j) in region.iter().enumerate() {
-                    start.heads_m[j] = heads[k];
-                }
-                for (p, l) in links.iter().enumerate() {
-                    start.flows_m3s[l.link] = flows[p];
-                }
-                return true;
             }
         }
-        false
+    }
+
+    /// Factorizes, solves and applies the step; returns the largest head change, m, or `None`
+    /// when the matrix is singular or the step not finite.
+    fn step(&mut self, links: &[RegionLink]) -> Option<f64> {
+        self.factor.refactor(&self.values).ok()?;
+        self.factor.solve_in_place(&mut self.rhs);
+        let pattern = &self.pattern;
+        let rhs = &self.rhs;
+        let step = |end: u32| -> f64 {
+            if end == OUTSIDE {
+                0.0
+            } else {
+                rhs[pattern.position(end as usize)]
+            }
+        };
+        let mut largest = 0.0_f64;
+        for (k, h) in self.heads.iter_mut().enumerate() {
+            let d = rhs[pattern.position(k)];
+            if !d.is_finite() {
+                return None;
+            }
+            *h += d;
+            largest = largest.max(d.abs());
+        }
+        for (p, l) in links.iter().enumerate() {
+            self.flows[p] += self.known[p] + self.conductance[p] * (step(l.from) - step(l.to));
+        }
+        Some(largest)
     }
 }
