@@ -30,10 +30,7 @@ use firemain::criteria::load_criteria;
 use firemain::fireflow::{sweep, FireFlowSetup, HydrantResult, Outcome};
 use firemain::hydraulics::Hydraulics;
 use firemain::model::{load_network, Network};
-use firemain::units::M3S_PER_GPM;
-
-/// psi per kPa (NIST SP 811, 2008, appendix B: 1 psi = 6.894757 kPa).
-const PSI_PER_KPA: f64 = 1.0 / 6.894_757;
+use firemain::units::{KPA_PER_PSI, M3S_PER_GPM};
 
 fn repo(relative: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join(relative)
@@ -65,7 +62,7 @@ fn recorded_of(net: &Network, results: &[HydrantResult]) -> BTreeMap<String, Rec
                 net.hydrants[r.hydrant].id.clone(),
                 Recorded {
                     available_gpm: r.available_m3s.map(|q| q / M3S_PER_GPM),
-                    residual_psi: r.residual_kpa.map(|p| p * PSI_PER_KPA),
+                    residual_psi: r.residual_kpa.map(|p| p / KPA_PER_PSI),
                     required_gpm: r.required_m3s / M3S_PER_GPM,
                     outcome: outcome_name(r.outcome).to_string(),
                 },

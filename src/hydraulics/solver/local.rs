@@ -60,7 +60,8 @@ impl Hydraulics<'_> {
     }
 
     /// The region: up to `size` junctions, breadth first from `at`, and each node's index in
-    /// it (`OUTSIDE` elsewhere); `None` when a controlled link touches it.
+    /// it (`OUTSIDE` elsewhere); `None` when `at` is not a junction or `size` is 0. Controlled links are
+    /// refused afterwards, by [`Hydraulics::region_links`].
     fn region_around(
         &self,
         start: &Solution,
@@ -80,9 +81,6 @@ impl Hydraulics<'_> {
             let n = region[next];
             next += 1;
             for &i in self.links_at(n) {
-                if self.roles[i] != Role::Plain {
-                    return None;
-                }
                 let (a, b) = self.ends[i];
                 let m = if a == n { b } else { a };
                 if m < nj
