@@ -402,10 +402,36 @@ impl Search<'_, '_> {
                 return Some(found);
             }
         }
-        let start = predicted(estimate.as_ref().map_or(0.0, |e| e.flow.min(cap)));
+        let start = match (at_required, &estimate) {
+            (Some(p), Some(e)) => self.held_region_start(p, e, e.flow.min(cap)),
+            _ => None,
+        }
+        .unwrap_or_else(|| predicted(estimate.as_ref().map_or(0.0, |e| e.flow.min(cap))));
         // A held state that cannot be solved leaves the ordinary search to take over.
         let (q_held, held) = self.held_solve(&start).ok()?;
         self.settle_held(b, at_required, q_held, held)
+    }
+
+    /// A start for the held solve: the required-flow state plus its linear response to the
+    /// flow `q` the supply curve places, with the hydrant's surroundings solved alone and the
+    /// hydrant held at the floor (`Hydraulics::refine_held_around`); `None` where that region
+    /// cannot be solved.
+    fn held_region_start(
+        &self,
+        at_required: &Point,
+        curve: &SupplyCurve,
+        q: f64,
+    ) -> Option<Solution> {
+        let setup = self.setup;
+        let mut start = curve.linear(at_required, q);
+        setup.hydraulics.refine_held_around(
+            &mut start,
+            self.at,
+            setup.demand_factor,
+            setup.floor_head_m(self.at),
+            REGION_JUNCTIONS,
+        )?;
+        Some(start)
     }
 
     /// The verdict of a solve at the cap: a passing one is the answer (`cap`), a failing or
@@ -502,6 +528,7 @@ impl Search<'_, '_> {
             flow: at_required.q * (to_floor / drop).powf(1.0 / n),
             exponent: n,
             flow_response: dq,
+            head_response: dh,
         })
     }
 
@@ -883,9 +910,24 @@ struct SupplyCurve {
     exponent: f64,
     /// Linear response of every link flow to the fire flow, at the required flow.
     flow_response: Vec<f64>,
+    /// Linear response of every head to the fire flow, at the required flow.
+    head_response: Vec<f64>,
 }
 
 impl SupplyCurve {
+    /// The required-flow state plus its linear response to the change of fire flow to `q`.
+    fn linear(&self, at_required: &Point, q: f64) -> Solution {
+        let change = q - at_required.q;
+        let mut sol = at_required.sol.clone();
+        for (h, d) in sol.heads_m.iter_mut().zip(&self.head_response) {
+            *h += d * change;
+        }
+        for (f, d) in sol.flows_m3s.iter_mut().zip(&self.flow_response) {
+            *f += d * change;
+        }
+        sol
+    }
+
     /// A start for a solve at flow q: the required-flow state extended along the curve, each
     /// head's fire-induced drop scaled by (Q/Q_t)^n, flows by their linear response.
     fn extend(&self, base: &Solution, at_required: &Point, q: f64) -> Solution {

@@ -59,6 +59,51 @@ impl Hydraulics<'_> {
         self.solve_region(start, &region, &links, &demand)
     }
 
+    /// [`Hydraulics::refine_around`] with junction `at` held at `held_head` (m) instead of
+    /// drawing a given flow, its other junctions drawing their demand at `demand_factor`:
+    /// returns the flow `at` then draws beyond its own demand, m³/s, or `None` (with `start`
+    /// as it was) where the region cannot be solved or draws nothing.
+    pub fn refine_held_around(
+        &self,
+        start: &mut Solution,
+        at: usize,
+        demand_factor: f64,
+        held_head: f64,
+        size: usize,
+    ) -> Option<f64> {
+        let (around, _) = self.region_around(start, at, size)?;
+        // The held junction is a node held at its head like those outside.
+        let region: Vec<usize> = around.into_iter().filter(|&j| j != at).collect();
+        let mut local = vec![OUTSIDE; self.net.nodes.len()];
+        for (k, &j) in region.iter().enumerate() {
+            local[j] = k as u32;
+        }
+        let links = self.region_links(start, &region, &local)?;
+        let demand: Vec<f64> = region
+            .iter()
+            .map(|&j| self.net.nodes[j].base_demand_m3s * demand_factor)
+            .collect();
+        let mut trial = start.clone();
+        trial.heads_m[at] = held_head;
+        if !self.solve_region(&mut trial, &region, &links, &demand) {
+            return None;
+        }
+        let inflow: f64 = self
+            .links_at(at)
+            .iter()
+            .map(|&i| match self.ends[i] {
+                (a, b) if a == b => 0.0,
+                (_, b) if b == at => trial.flows_m3s[i],
+                _ => -trial.flows_m3s[i],
+            })
+            .sum();
+        let drawn = inflow - self.net.nodes[at].base_demand_m3s * demand_factor;
+        (drawn > 0.0 && drawn.is_finite()).then(|| {
+            *start = trial;
+            drawn
+        })
+    }
+
     /// The region: up to `size` junctions, breadth first from `at`, and each node's index in
     /// it (`OUTSIDE` elsewhere); `None` when `at` is not a junction or `size` is 0. Controlled links are
     /// refused afterwards, by [`Hydraulics::region_links`].
@@ -138,7 +183,7 @@ impl Hydraulics<'_> {
         links: &[RegionLink],
         demand: &[f64],
     ) -> bool {
-        let Some(mut system) = RegionSystem::new(start, region, links) else {
+        let Some(mut system) = RegionSystem::new(start, region, links, &self.row_of) else {
             return false;
         };
         for _ in 0..REGION_ITERATIONS {
@@ -174,16 +219,23 @@ struct RegionSystem {
 }
 
 impl RegionSystem {
-    /// The system of `region` and its `links`, the iterate taken from `start`; `None` when its
-    /// pattern cannot be ordered or analysed.
-    fn new(start: &Solution, region: &[usize], links: &[RegionLink]) -> Option<Self> {
+    /// The system of `region` and its `links`, the iterate taken from `start`, ordered as the
+    /// whole network's matrix (`row_of`); `None` when its pattern cannot be analysed.
+    fn new(
+        start: &Solution,
+        region: &[usize],
+        links: &[RegionLink],
+        row_of: &[usize],
+    ) -> Option<Self> {
         let n = region.len();
         let pairs: Vec<(usize, usize)> = links
             .iter()
             .filter(|l| l.from != OUTSIDE && l.to != OUTSIDE)
             .map(|l| (l.from as usize, l.to as usize))
             .collect();
-        let pattern = OrderedPattern::new(n, &pairs).ok()?;
+        // The whole network's fill-reducing order, restricted to the region.
+        let rank: Vec<usize> = region.iter().map(|&j| row_of[j]).collect();
+        let pattern = OrderedPattern::in_rank_order(n, &pairs, &rank);
         let analysis = SymbolicAnalysis::new(&pattern).ok()?;
         Some(RegionSystem {
             factor: SparseCholesky::new(analysis),
