@@ -1,5 +1,6 @@
-//! The start of a required-flow solve: the junctions around a hydrant solved alone, every other
-//! node held at its head (`Hydraulics::refine_around`), against closed forms.
+//! The starts of the required-flow and held solves: the junctions around a hydrant solved
+//! alone, every other node held at its head (`Hydraulics::refine_around`,
+//! `Hydraulics::refine_held_around`), against closed forms.
 
 mod netkit;
 
@@ -115,4 +116,52 @@ fn region_touching_a_pump_is_left_to_the_whole_solve() {
     assert!(!hydraulics.refine_around(&mut start, k, 1.0, 0.02, 2));
     assert_eq!(start.heads_m, before.heads_m);
     assert_eq!(start.flows_m3s, before.flows_m3s);
+}
+
+#[test]
+fn region_held_at_a_head_draws_the_series_path_flow() {
+    // Closed form: with the hydrant's junction C held at head H_C below a node A held at H_A,
+    // the series path A-B-C carries Q with H_A − H_C = (r_2 + r_3) Q^1.852 (continuity plus the
+    // Hazen-Williams law, Williams & Hazen, Hydraulic Tables, 1920), and C draws Q less its own
+    // demand. The held start of a fire-flow search (`Hydraulics::refine_held_around`).
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 120.0)
+        .junction("A", 30.0, 0.0)
+        .junction("B", 25.0, 2.0)
+        .junction("C", 20.0, 3.0)
+        .pipe("P1", "R", "A", 400.0, 300.0, 120.0)
+        .pipe("P2", "A", "B", 650.0, 250.0, 110.0)
+        .pipe("P3", "B", "C", 300.0, 150.0, 95.0);
+    let net = f.load();
+    let (a, c) = (index(&net, "A"), index(&net, "C"));
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let mut start = solve(&net, 1.0, &[]);
+    let (head_a, head_c) = (110.0, 80.0);
+    start.heads_m[a] = head_a;
+    let (r2, r3) = (
+        hw_resistance(650.0, 0.25, 110.0),
+        hw_resistance(300.0, 0.15, 95.0),
+    );
+    // B draws 2 L/s on the way, so P2 carries Q and P3 carries Q − 0.002: solve
+    // r_2 Q^1.852 + r_3 (Q − 0.002)^1.852 = H_A − H_C by bisection.
+    let drop = |q: f64| r2 * q.powf(1.852) + r3 * (q - 0.002).powf(1.852);
+    let (mut lo, mut hi) = (0.002, 1.0);
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if drop(mid) < head_a - head_c {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    let expected = 0.5 * (lo + hi) - 0.002 - 0.003;
+    let drawn = hydraulics
+        .refine_held_around(&mut start, c, 1.0, head_c, 2)
+        .expect("the region settles");
+    assert!(
+        (drawn - expected).abs() < 1e-4 * expected,
+        "drawn {drawn} m³/s, closed form {expected}"
+    );
+    assert_eq!(start.heads_m[c], head_c);
+    assert_eq!(start.heads_m[a], head_a);
 }
