@@ -19,6 +19,19 @@ fn index(net: &Network, id: &str) -> usize {
         .unwrap_or_else(|| panic!("no node {id}"))
 }
 
+/// R (grade 120 m) - P1 - A - P2 - B - P3 - C, with B and C drawing `b_lps` and `c_lps`.
+fn series_path(b_lps: f64, c_lps: f64) -> Network {
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 120.0)
+        .junction("A", 30.0, 0.0)
+        .junction("B", 25.0, b_lps)
+        .junction("C", 20.0, c_lps)
+        .pipe("P1", "R", "A", 400.0, 300.0, 120.0)
+        .pipe("P2", "A", "B", 650.0, 250.0, 110.0)
+        .pipe("P3", "B", "C", 300.0, 150.0, 95.0);
+    f.load()
+}
+
 #[test]
 fn region_of_a_series_path_matches_hazen_williams_with_its_boundary_held() {
     // Closed form: the same flow passes each pipe of a series path, so below a node held at
@@ -26,15 +39,7 @@ fn region_of_a_series_path_matches_hazen_williams_with_its_boundary_held() {
     // Hazen-Williams law, Williams & Hazen, Hydraulic Tables, 1920; SI constants 10.67 / 1.852
     // / 4.8704 as in docs/network-format.md).
     let q: f64 = 0.035;
-    let mut f = NetFiles::si_hw();
-    f.reservoir("R", 120.0)
-        .junction("A", 30.0, 0.0)
-        .junction("B", 25.0, 0.0)
-        .junction("C", 20.0, 0.0)
-        .pipe("P1", "R", "A", 400.0, 300.0, 120.0)
-        .pipe("P2", "A", "B", 650.0, 250.0, 110.0)
-        .pipe("P3", "B", "C", 300.0, 150.0, 95.0);
-    let net = f.load();
+    let net = series_path(0.0, 0.0);
     let (a, b, c) = (index(&net, "A"), index(&net, "B"), index(&net, "C"));
     let hydraulics = Hydraulics::new(&net).expect("prepare");
     // The start: the state without the fire flow (no flow, every head at the grade), with A
@@ -124,15 +129,7 @@ fn region_held_at_a_head_draws_the_series_path_flow() {
     // the series path A-B-C carries Q with H_A − H_C = (r_2 + r_3) Q^1.852 (continuity plus the
     // Hazen-Williams law, Williams & Hazen, Hydraulic Tables, 1920), and C draws Q less its own
     // demand. The held start of a fire-flow search (`Hydraulics::refine_held_around`).
-    let mut f = NetFiles::si_hw();
-    f.reservoir("R", 120.0)
-        .junction("A", 30.0, 0.0)
-        .junction("B", 25.0, 2.0)
-        .junction("C", 20.0, 3.0)
-        .pipe("P1", "R", "A", 400.0, 300.0, 120.0)
-        .pipe("P2", "A", "B", 650.0, 250.0, 110.0)
-        .pipe("P3", "B", "C", 300.0, 150.0, 95.0);
-    let net = f.load();
+    let net = series_path(2.0, 3.0);
     let (a, c) = (index(&net, "A"), index(&net, "C"));
     let hydraulics = Hydraulics::new(&net).expect("prepare");
     let mut start = solve(&net, 1.0, &[]);
