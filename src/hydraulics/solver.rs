@@ -147,9 +147,6 @@ pub struct Hydraulics<'n> {
     source_grade: Vec<f64>,
     /// From and to node of each link (kept apart from the links for the hot loops).
     ends: Vec<(usize, usize)>,
-    /// Least slope of each link's entry in the iteration matrix, s/m² (see
-    /// [`SLOPE_FLOOR_FLOW_M3S`]); 0 for links whose state a control rules.
-    slope_floor: Vec<f64>,
     /// Regulating role of each link, for the hot loops.
     valve_kinds: Vec<Option<ValveKind>>,
     /// The PRVs and PSVs (links that may hold a junction's head).
@@ -382,7 +379,6 @@ pub fn junction_pairs(net: &Network) -> Vec<(usize, usize)> {
 struct Elements {
     laws: Vec<LinkLaw>,
     roles: Vec<Role>,
-    slope_floor: Vec<f64>,
     settings: Vec<f64>,
     source_grade: Vec<f64>,
     valve_kinds: Vec<Option<ValveKind>>,
@@ -405,14 +401,6 @@ impl Elements {
                 } else {
                     Role::Controlled
                 }
-            })
-            .collect::<Vec<Role>>();
-        let slope_floor = laws
-            .iter()
-            .zip(&roles)
-            .map(|(law, role)| match role {
-                Role::Plain => law.evaluate(SLOPE_FLOOR_FLOW_M3S).1,
-                Role::Controlled => 0.0,
             })
             .collect();
         let settings = net
@@ -450,7 +438,6 @@ impl Elements {
         Elements {
             laws,
             roles,
-            slope_floor,
             settings,
             source_grade,
             valve_kinds,
@@ -528,7 +515,6 @@ impl<'n> Hydraulics<'n> {
             n_junctions: nj,
             laws: elements.laws,
             roles: elements.roles,
-            slope_floor: elements.slope_floor,
             settings: elements.settings,
             source_grade: elements.source_grade,
             ends,
@@ -569,7 +555,6 @@ impl<'n> Hydraulics<'n> {
             n_junctions: self.n_junctions,
             laws: elements.laws,
             roles: elements.roles,
-            slope_floor: elements.slope_floor,
             settings: elements.settings,
             source_grade: elements.source_grade,
             ends: self.ends.clone(),
@@ -984,22 +969,13 @@ impl<'n> Hydraulics<'n> {
                     st if st.conducts() => {
                         let (phi, slope) = self.laws[i].evaluate_with(q, &mut ws.memo[i]);
                         let g = if need_factor {
-                            // Not in a pressure-dependent solve, whose damped step needs
-                            // Newton's own direction.
-                            let floor_flow = ws.flow_step[i].abs().min(SLOPE_FLOOR_FLOW_M3S);
-                            if floor_slopes
-                                && self.slope_floor[i] > 0.0
-                                && floor_flow > ZERO_FLOW_M3S
-                                && q.abs() < floor_flow
-                            {
-                                let floor = self.laws[i].evaluate(floor_flow).1;
-                                if slope < floor {
-                                    ws.floored = true;
-                                }
-                                1.0 / slope.max(floor)
+                            let matrix_slope = if floor_slopes {
+                                self.floored_slope(i, q, slope, ws.flow_step[i])
                             } else {
-                                1.0 / slope
-                            }
+                                slope
+                            };
+                            ws.floored |= matrix_slope > slope;
+                            1.0 / matrix_slope
                         } else {
                             ws.g_factored[i]
                         };
@@ -1054,6 +1030,19 @@ impl<'n> Hydraulics<'n> {
                     ws.values[self.diag_slot[j]] = 1.0;
                 }
             }
+        }
+    }
+
+    /// The slope with which link `i`, at flow `q` with slope `slope` and last flow step
+    /// `last_step`, enters the iteration matrix of a fire-flow search's solve: a pipe below
+    /// the smaller of [`SLOPE_FLOOR_FLOW_M3S`] and its last step, when that step exceeds the
+    /// law's smoothing flow, takes the slope at that flow.
+    fn floored_slope(&self, i: usize, q: f64, slope: f64, last_step: f64) -> f64 {
+        let floor_flow = last_step.abs().min(SLOPE_FLOOR_FLOW_M3S);
+        if self.roles[i] == Role::Plain && floor_flow > ZERO_FLOW_M3S && q.abs() < floor_flow {
+            slope.max(self.laws[i].evaluate(floor_flow).1)
+        } else {
+            slope
         }
     }
 
