@@ -52,12 +52,21 @@ const VERDICT_TOLERANCE: Tolerance = Tolerance {
 const CLEAR_MARGIN_KPA: f64 = 10.0;
 /// Relative accuracy of the available flow (0.5 %).
 const RELATIVE_ACCURACY: f64 = 0.005;
-/// Junctions solved alone around the hydrant for the required-flow solve's start
-/// ([`Search::region_start`]). Measured on 250 hydrants of the 10k synthetic network
-/// (docs/performance.md): 200 junctions take the whole-network factorizations per hydrant from
-/// 5.24 to 4.72, 800 to 4.24, 1,600 to 3.98 and 3,000 to 3.70, while the region's own solve
-/// grows with its size; 800 gave the least time.
-const REGION_JUNCTIONS: usize = 800;
+/// Junctions solved alone around the hydrant for the starts of the required-flow and held
+/// solves ([`Search::region_start`], [`Search::held_region_start`]): a sixteenth of the
+/// network's junctions ([`REGION_SHARE`]), at least [`REGION_MIN_JUNCTIONS`] and at most
+/// [`REGION_MAX_JUNCTIONS`]. Measured (docs/performance.md): on 250 hydrants of the 10k
+/// synthetic network, 200 junctions took the whole-network factorizations per hydrant from 5.24
+/// to 4.72, 800 to 4.24, 1,600 to 3.98 and 3,000 to 3.70 while the region's own solve grows
+/// with its size, and 800 gave the least time (again with the held region start: 1,600 and
+/// 2,500 junctions, 3.15 and 2.99 factorizations per hydrant against 3.44, took 1.03 and 1.13
+/// of the time); on 200 hydrants of the 100k network, 800, 6,000 and 12,000 junctions gave
+/// 3.22, 2.69 and 2.56 factorizations per hydrant, and 6,000 the least time (0.91 of 800's).
+const REGION_MIN_JUNCTIONS: usize = 800;
+/// See [`REGION_MIN_JUNCTIONS`].
+const REGION_MAX_JUNCTIONS: usize = 6000;
+/// See [`REGION_MIN_JUNCTIONS`]: the region is this share of the network's junctions.
+const REGION_SHARE: f64 = 1.0 / 16.0;
 /// Offset of a probe from the estimated root, as a fraction of the accuracy: two probes at
 /// ± this offset close the bracket to half the accuracy when the estimate is good.
 const PROBE_OFFSET: f64 = 0.25;
@@ -362,9 +371,16 @@ impl Search<'_, '_> {
                 self.at,
                 setup.demand_factor,
                 q,
-                REGION_JUNCTIONS,
+                self.region_junctions(),
             )
             .then_some(start)
+    }
+
+    /// Junctions in the region solved alone for a start (see [`REGION_MIN_JUNCTIONS`]).
+    fn region_junctions(&self) -> usize {
+        let junctions = self.setup.network().junctions().len();
+        ((junctions as f64 * REGION_SHARE) as usize)
+            .clamp(REGION_MIN_JUNCTIONS, REGION_MAX_JUNCTIONS)
     }
 
     /// Step 3: the hydrant-limited flow placed by a held solve and verified by an ordinary
@@ -429,7 +445,7 @@ impl Search<'_, '_> {
             self.at,
             setup.demand_factor,
             setup.floor_head_m(self.at),
-            REGION_JUNCTIONS,
+            self.region_junctions(),
         )?;
         Some(start)
     }
