@@ -7,7 +7,8 @@
 //!    linear response to the fire flow, with the hydrant's surroundings solved alone
 //!    ([`Search::region_start`]); that start only saves Newton steps.
 //! 3. **Held solve** ([`Search::hydrant_limited_or_cap`]): one solve with the hydrant's junction
-//!    held at the floor places the hydrant-limited flow; an ordinary solve just below it
+//!    held at the floor places the hydrant-limited flow (started from the surroundings solved
+//!    alone with the hydrant held, [`Search::held_region_start`]); an ordinary solve just below it
 //!    verifies it. When the supply curve fitted at the required flow reaches the floor well
 //!    beyond the search cap (by [`CAP_FIRST_RATIO`]), the cap is verified first instead.
 //! 4. **Failing point** ([`Search::find_failing_point`]): with no failing flow known yet, the
@@ -357,13 +358,7 @@ impl Search<'_, '_> {
     fn region_start(&mut self, q: f64) -> Option<Solution> {
         let setup = self.setup;
         let (dh, dq) = setup.hydraulics.demand_response(self.ws, self.at)?;
-        let mut start = setup.base.clone();
-        for (h, d) in start.heads_m.iter_mut().zip(&dh) {
-            *h += q * d;
-        }
-        for (f, d) in start.flows_m3s.iter_mut().zip(&dq) {
-            *f += q * d;
-        }
+        let mut start = shifted(&setup.base, &dh, &dq, q);
         setup
             .hydraulics
             .refine_around(
@@ -933,15 +928,12 @@ struct SupplyCurve {
 impl SupplyCurve {
     /// The required-flow state plus its linear response to the change of fire flow to `q`.
     fn linear(&self, at_required: &Point, q: f64) -> Solution {
-        let change = q - at_required.q;
-        let mut sol = at_required.sol.clone();
-        for (h, d) in sol.heads_m.iter_mut().zip(&self.head_response) {
-            *h += d * change;
-        }
-        for (f, d) in sol.flows_m3s.iter_mut().zip(&self.flow_response) {
-            *f += d * change;
-        }
-        sol
+        shifted(
+            &at_required.sol,
+            &self.head_response,
+            &self.flow_response,
+            q - at_required.q,
+        )
     }
 
     /// A start for a solve at flow q: the required-flow state extended along the curve, each
@@ -961,6 +953,19 @@ impl SupplyCurve {
         }
         sol
     }
+}
+
+/// `sol` plus `change` times a linear response of its heads (`dh`) and flows (`dq`) to the
+/// fire flow.
+fn shifted(sol: &Solution, dh: &[f64], dq: &[f64], change: f64) -> Solution {
+    let mut shifted = sol.clone();
+    for (h, d) in shifted.heads_m.iter_mut().zip(dh) {
+        *h += d * change;
+    }
+    for (f, d) in shifted.flows_m3s.iter_mut().zip(dq) {
+        *f += d * change;
+    }
+    shifted
 }
 
 /// Smallest flow difference the search resolves: 1 gpm or 0.1 L/s.

@@ -648,7 +648,12 @@ impl<'n> Hydraulics<'n> {
 
     /// Net inflow minus demand at junction `j` (zero when continuity holds), m³/s.
     fn imbalance(&self, j: usize, flows: &[f64], demand: &[f64]) -> f64 {
-        let mut sum = -demand[j];
+        self.net_inflow(j, flows) - demand[j]
+    }
+
+    /// The flow into node `j` from its links, m³/s.
+    fn net_inflow(&self, j: usize, flows: &[f64]) -> f64 {
+        let mut sum = 0.0;
         for &i in self.links_at(j) {
             let l = &self.net.links[i];
             if l.from == l.to {

@@ -88,16 +88,8 @@ impl Hydraulics<'_> {
         if !self.solve_region(&mut trial, &region, &links, &demand) {
             return None;
         }
-        let inflow: f64 = self
-            .links_at(at)
-            .iter()
-            .map(|&i| match self.ends[i] {
-                (a, b) if a == b => 0.0,
-                (_, b) if b == at => trial.flows_m3s[i],
-                _ => -trial.flows_m3s[i],
-            })
-            .sum();
-        let drawn = inflow - self.net.nodes[at].base_demand_m3s * demand_factor;
+        let drawn = self.net_inflow(at, &trial.flows_m3s)
+            - self.net.nodes[at].base_demand_m3s * demand_factor;
         (drawn > 0.0 && drawn.is_finite()).then(|| {
             *start = trial;
             drawn
@@ -105,8 +97,8 @@ impl Hydraulics<'_> {
     }
 
     /// The region: up to `size` junctions, breadth first from `at`, and each node's index in
-    /// it (`OUTSIDE` elsewhere); `None` when `at` is not a junction or `size` is 0. Controlled links are
-    /// refused afterwards, by [`Hydraulics::region_links`].
+    /// it (`OUTSIDE` elsewhere); `None` when `at` is not a junction or `size` is 0. Controlled
+    /// links are refused afterwards, by [`Hydraulics::region_links`].
     fn region_around(
         &self,
         start: &Solution,
