@@ -8,7 +8,9 @@ use std::time::{Duration, Instant};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
 use firemain::cli::{available_cores, check_threads, select_hydrants, CliError};
-use firemain::fireflow::{supply_curves, sweep, FireFlowSetup, HydrantResult, SweepStats};
+use firemain::fireflow::{
+    supply_curves, sweep, FireFlowSetup, HydrantResult, SolveRole, SweepStats,
+};
 use firemain::hydraulics::Hydraulics;
 use firemain::journal::Shard;
 use firemain::model::project::load_project;
@@ -294,8 +296,40 @@ fn field_test_summary(
     })
 }
 
-/// The `--stats` line.
+/// The `--stats` lines: the sweep's work, then its work by the role of each solve.
 pub(super) fn stats_line(stats: &SweepStats) -> String {
+    let mut text = sweep_line(stats);
+    if stats.hydrants_by_role > 0 {
+        text.push('\n');
+        text.push_str(&by_role_line(stats));
+    }
+    text
+}
+
+/// The work by role of the hydrants analysed in this run: solves / iterations / factorizations.
+fn by_role_line(stats: &SweepStats) -> String {
+    let roles: Vec<String> = SolveRole::ALL
+        .iter()
+        .map(|&role| {
+            let w = stats.by_role.of(role);
+            format!(
+                "{} {} / {} / {}",
+                role.label(),
+                w.solves,
+                w.iterations,
+                w.factorizations
+            )
+        })
+        .collect();
+    format!(
+        "by role ({} hydrants; solves / iterations / factorizations): {}",
+        stats.hydrants_by_role,
+        roles.join(", ")
+    )
+}
+
+/// The `--stats` line of the whole sweep.
+fn sweep_line(stats: &SweepStats) -> String {
     format!(
         "sweep: {} hydrants, {} solves, {} iterations, {} numeric factorizations ({:.2} per hydrant on average, {} at most), {:.2} s wall, {} thread(s)",
         stats.hydrants,

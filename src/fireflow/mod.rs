@@ -15,6 +15,7 @@ mod group;
 mod search;
 pub mod supply_paths;
 mod sweep;
+mod work;
 
 pub use curve::{supply_curve, supply_curves, CurvePoint, SupplyCurve, CHART_FLOW_EXPONENT};
 pub use group::{
@@ -23,6 +24,7 @@ pub use group::{
 };
 pub use search::analyse_hydrant;
 pub use sweep::{sweep, sweep_each, SweepError, SweepStats};
+pub use work::{SolveRole, SolveWork, WorkByRole};
 
 use crate::criteria::{Criteria, RequiredSource, Scope};
 use crate::hydraulics::{
@@ -153,6 +155,9 @@ pub struct HydrantResult {
     pub solves: u32,
     pub iterations: u32,
     pub factorizations: u32,
+    /// The same work by the role of each solve (for `--stats`); not kept in the sweep's
+    /// journal, so zero for a hydrant read back from one.
+    pub work_by_role: WorkByRole,
 }
 
 impl HydrantResult {

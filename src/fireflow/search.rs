@@ -26,6 +26,7 @@
 //! a flow, it never is the answer. A solve whose controls do not settle makes the hydrant an
 //! `error` row.
 
+use super::work::{SolveRole, SolveWork, WorkByRole};
 use super::{
     ConstraintCheck, FireFlowSetup, HydrantNote, HydrantResult, LimitedBy, Outcome,
     FLOOR_TOLERANCE_KPA,
@@ -156,9 +157,20 @@ struct Search<'s, 'a> {
     solves: u32,
     iterations: u32,
     factorizations: u32,
+    /// The role of the solves now made, and the work by role so far.
+    role: SolveRole,
+    work: WorkByRole,
 }
 
 impl Search<'_, '_> {
+    /// Runs `step` with its solves counted under `role`.
+    fn in_role<T>(&mut self, role: SolveRole, step: impl FnOnce(&mut Self) -> T) -> T {
+        let outer = std::mem::replace(&mut self.role, role);
+        let out = step(self);
+        self.role = outer;
+        out
+    }
+
     /// An ordinary solve at fire flow `q` (taken onto the reporting grid) to `tolerance`.
     fn solve_at(
         &mut self,
@@ -195,6 +207,18 @@ impl Search<'_, '_> {
     ) -> Result<Solution, ProbeError> {
         let (outcome, attempts) = solve_or_from_base(self.setup, self.ws, request, start);
         self.solves += attempts;
+        let (iterations, factorizations) = match &outcome {
+            Ok(sol) => (sol.iterations, sol.factorizations),
+            Err(_) => (0, 0),
+        };
+        self.work.add(
+            self.role,
+            SolveWork {
+                solves: u64::from(attempts),
+                iterations: u64::from(iterations),
+                factorizations: u64::from(factorizations),
+            },
+        );
         let sol = outcome.map_err(ProbeError::Solve)?;
         self.factorizations += sol.factorizations;
         self.iterations += sol.iterations;
@@ -319,14 +343,14 @@ impl Search<'_, '_> {
         let setup = self.setup;
         let net = setup.network();
         let region_start = self.region_start(required);
-        let outcome = match &region_start {
+        let outcome = self.in_role(SolveRole::Required, |s| match &region_start {
             Some(start) => {
                 // The max-day factorization is far from the state near the hydrant: start afresh.
-                self.ws.forget_factor();
-                self.evaluate(required, start)
+                s.ws.forget_factor();
+                s.evaluate(required, start)
             }
-            None => self.evaluate(required, &setup.base),
-        };
+            None => s.evaluate(required, &setup.base),
+        });
         match outcome {
             Ok(p) => {
                 result.residual_kpa = Some(p.sol.pressure_kpa(net, self.at));
@@ -408,7 +432,7 @@ impl Search<'_, '_> {
             // The required-flow factorization is far from the cap's state: start afresh.
             self.ws.forget_factor();
             let start = predicted(cap);
-            let verdict = self.verify_cap(&start);
+            let verdict = self.in_role(SolveRole::CapFirst, |s| s.verify_cap(&start));
             if let Some(found) = self.accept_cap(b, verdict) {
                 return Some(found);
             }
@@ -419,7 +443,9 @@ impl Search<'_, '_> {
         }
         .unwrap_or_else(|| predicted(estimate.as_ref().map_or(0.0, |e| e.flow.min(cap))));
         // A held state that cannot be solved leaves the ordinary search to take over.
-        let (q_held, held) = self.held_solve(&start).ok()?;
+        let (q_held, held) = self
+            .in_role(SolveRole::Held, |s| s.held_solve(&start))
+            .ok()?;
         self.settle_held(b, at_required, q_held, held)
     }
 
@@ -501,7 +527,7 @@ impl Search<'_, '_> {
         if q <= b.lo.q || b.hi.as_ref().is_some_and(|h| q >= h.q()) {
             return None;
         }
-        match self.evaluate(q, &held.sol) {
+        match self.in_role(SolveRole::Verification, |s| s.evaluate(q, &held.sol)) {
             Ok(p) if p.passes => {
                 b.lo = p;
                 // Above the held flow the hydrant itself is below the floor.
@@ -1184,6 +1210,7 @@ pub fn analyse_hydrant(
         solves: 0,
         iterations: 0,
         factorizations: 0,
+        work_by_role: WorkByRole::default(),
     };
     let Some((required, source)) = setup.criteria.required_flow(hydrant) else {
         result.notes.push(HydrantNote::Error {
@@ -1209,6 +1236,8 @@ pub fn analyse_hydrant(
         solves: 0,
         iterations: 0,
         factorizations: 0,
+        role: SolveRole::Other,
+        work: WorkByRole::default(),
     };
     if required > cap {
         // The search must reach the required flow for pass/fail to be decided.
@@ -1222,14 +1251,31 @@ pub fn analyse_hydrant(
     }
     if result.outcome == Outcome::Fail {
         // The physical state at the required flow (criteria `[fire] pressure_dependent`).
-        search.solves += u32::from(setup.criteria.pressure_dependent.is_some());
+        let pressure_dependent = u32::from(setup.criteria.pressure_dependent.is_some());
+        search.solves += pressure_dependent;
+        search.work.add(
+            SolveRole::Other,
+            SolveWork {
+                solves: u64::from(pressure_dependent),
+                ..SolveWork::default()
+            },
+        );
         let start = answer_state.as_ref().unwrap_or(&setup.base);
         match super::delivered::delivered_state(setup, search.ws, at, required, start) {
             Ok(state) => {
-                if let Some(d) = &state {
-                    search.iterations += d.iterations;
-                    search.factorizations += d.factorizations;
-                }
+                let (iterations, factorizations) = state
+                    .as_ref()
+                    .map_or((0, 0), |d| (d.iterations, d.factorizations));
+                search.iterations += iterations;
+                search.factorizations += factorizations;
+                search.work.add(
+                    SolveRole::Other,
+                    SolveWork {
+                        solves: 0,
+                        iterations: u64::from(iterations),
+                        factorizations: u64::from(factorizations),
+                    },
+                );
                 result.delivered = state;
             }
             Err(reason) => result
@@ -1240,6 +1286,7 @@ pub fn analyse_hydrant(
     result.solves = search.solves;
     result.iterations = search.iterations;
     result.factorizations = search.factorizations;
+    result.work_by_role = search.work;
     result
 }
 

@@ -8,7 +8,7 @@ use std::time::{Duration, Instant};
 use rayon::prelude::*;
 use thiserror::Error;
 
-use super::{analyse_hydrant, FireFlowSetup, HydrantResult};
+use super::{analyse_hydrant, FireFlowSetup, HydrantResult, WorkByRole};
 
 /// Work done by a sweep, for `--stats`.
 #[derive(Clone, Debug)]
@@ -21,6 +21,10 @@ pub struct SweepStats {
     pub factorizations_per_hydrant_max: u32,
     pub wall_time: Duration,
     pub threads: usize,
+    /// The work by the role of each solve, summed over the `hydrants_by_role` hydrants that
+    /// carry it (those analysed in this run: a journal does not keep it).
+    pub by_role: WorkByRole,
+    pub hydrants_by_role: usize,
 }
 
 impl SweepStats {
@@ -45,6 +49,14 @@ impl SweepStats {
                 .unwrap_or(0),
             wall_time,
             threads,
+            by_role: results.iter().fold(WorkByRole::default(), |mut sum, r| {
+                sum.add_all(&r.work_by_role);
+                sum
+            }),
+            hydrants_by_role: results
+                .iter()
+                .filter(|r| r.work_by_role.total().solves > 0)
+                .count(),
         }
     }
 }

@@ -11,7 +11,7 @@ use serde::{Deserialize, Serialize};
 use crate::criteria::RequiredSource;
 use crate::fireflow::delivered::{DeliveredState, ShortJunction};
 use crate::fireflow::supply_paths::PipeShare;
-use crate::fireflow::{HydrantNote, HydrantResult, LimitedBy, Outcome};
+use crate::fireflow::{HydrantNote, HydrantResult, LimitedBy, Outcome, WorkByRole};
 use crate::hydraulics::LinkState;
 use crate::model::diagnostic::quoted;
 
@@ -320,6 +320,9 @@ impl Record {
             solves: self.solves,
             iterations: self.iterations,
             factorizations: self.factorizations,
+            // Not journalled: `--stats` gives the work by role of the hydrants analysed in
+            // the run that prints it.
+            work_by_role: WorkByRole::default(),
         })
     }
 }
@@ -536,6 +539,7 @@ mod tests {
             solves: 11,
             iterations: 40,
             factorizations: 12,
+            work_by_role: WorkByRole::default(),
         }
     }
 

@@ -26,6 +26,7 @@ fn result(hydrant: usize) -> HydrantResult {
         solves: 1,
         iterations: 2,
         factorizations: 3,
+        work_by_role: crate::fireflow::WorkByRole::default(),
     }
 }
 
