@@ -154,10 +154,8 @@ struct Search<'s, 'a> {
     /// Whether any solve of this hydrant found an element in another state than the static
     /// state's.
     states_changed: bool,
-    solves: u32,
-    iterations: u32,
-    factorizations: u32,
-    /// The role of the solves now made, and the work by role so far.
+    /// The role of the solves now made, and the work (solves, iterations, factorizations) by
+    /// role so far: the hydrant's counters are its total.
     role: SolveRole,
     work: WorkByRole,
 }
@@ -206,22 +204,15 @@ impl Search<'_, '_> {
         start: &Solution,
     ) -> Result<Solution, ProbeError> {
         let (outcome, attempts) = solve_or_from_base(self.setup, self.ws, request, start);
-        self.solves += attempts;
         let (iterations, factorizations) = match &outcome {
             Ok(sol) => (sol.iterations, sol.factorizations),
             Err(_) => (0, 0),
         };
         self.work.add(
             self.role,
-            SolveWork {
-                solves: u64::from(attempts),
-                iterations: u64::from(iterations),
-                factorizations: u64::from(factorizations),
-            },
+            SolveWork::of(attempts, iterations, factorizations),
         );
         let sol = outcome.map_err(ProbeError::Solve)?;
-        self.factorizations += sol.factorizations;
-        self.iterations += sol.iterations;
         if sol.states != self.setup.base.states {
             self.states_changed = true;
         }
@@ -1233,9 +1224,6 @@ pub fn analyse_hydrant(
         },
         unsettled: Vec::new(),
         states_changed: false,
-        solves: 0,
-        iterations: 0,
-        factorizations: 0,
         role: SolveRole::Other,
         work: WorkByRole::default(),
     };
@@ -1251,41 +1239,30 @@ pub fn analyse_hydrant(
     }
     if result.outcome == Outcome::Fail {
         // The physical state at the required flow (criteria `[fire] pressure_dependent`).
-        let pressure_dependent = u32::from(setup.criteria.pressure_dependent.is_some());
-        search.solves += pressure_dependent;
+        let start = answer_state.as_ref().unwrap_or(&setup.base);
+        let delivered = super::delivered::delivered_state(setup, search.ws, at, required, start);
+        let (iterations, factorizations) = match &delivered {
+            Ok(Some(d)) => (d.iterations, d.factorizations),
+            _ => (0, 0),
+        };
+        let solves = u32::from(setup.criteria.pressure_dependent.is_some());
         search.work.add(
             SolveRole::Other,
-            SolveWork {
-                solves: u64::from(pressure_dependent),
-                ..SolveWork::default()
-            },
+            SolveWork::of(solves, iterations, factorizations),
         );
-        let start = answer_state.as_ref().unwrap_or(&setup.base);
-        match super::delivered::delivered_state(setup, search.ws, at, required, start) {
-            Ok(state) => {
-                let (iterations, factorizations) = state
-                    .as_ref()
-                    .map_or((0, 0), |d| (d.iterations, d.factorizations));
-                search.iterations += iterations;
-                search.factorizations += factorizations;
-                search.work.add(
-                    SolveRole::Other,
-                    SolveWork {
-                        solves: 0,
-                        iterations: u64::from(iterations),
-                        factorizations: u64::from(factorizations),
-                    },
-                );
-                result.delivered = state;
-            }
+        match delivered {
+            Ok(state) => result.delivered = state,
             Err(reason) => result
                 .notes
                 .push(HydrantNote::DeliveredUnavailable { reason }),
         }
     }
-    result.solves = search.solves;
-    result.iterations = search.iterations;
-    result.factorizations = search.factorizations;
+    let total = search.work.total();
+    // A hydrant's own counters are far below u32::MAX (a few hundred solves at most).
+    let narrow = |n: u64| u32::try_from(n).unwrap_or(u32::MAX);
+    result.solves = narrow(total.solves);
+    result.iterations = narrow(total.iterations);
+    result.factorizations = narrow(total.factorizations);
     result.work_by_role = search.work;
     result
 }

@@ -59,6 +59,16 @@ pub struct SolveWork {
 }
 
 impl SolveWork {
+    /// The work of `solves` solves that took `iterations` iterations and `factorizations`
+    /// factorizations.
+    pub fn of(solves: u32, iterations: u32, factorizations: u32) -> Self {
+        SolveWork {
+            solves: u64::from(solves),
+            iterations: u64::from(iterations),
+            factorizations: u64::from(factorizations),
+        }
+    }
+
     fn add(&mut self, other: SolveWork) {
         self.solves += other.solves;
         self.iterations += other.iterations;
