@@ -128,7 +128,8 @@ fn region_held_at_a_head_draws_the_series_path_flow() {
     // Closed form: with the hydrant's junction C held at head H_C below a node A held at H_A,
     // the series path A-B-C carries Q in P2 and Q − q_B in P3, with
     // H_A − H_C = r_2 Q^1.852 + r_3 (Q − q_B)^1.852 (continuity plus the Hazen-Williams law,
-    // Williams & Hazen, Hydraulic Tables, 1920), and C draws Q − q_B less its own demand. The held start of a fire-flow search (`Hydraulics::refine_held_around`).
+    // Williams & Hazen, Hydraulic Tables, 1920), and C draws Q − q_B less its own demand.
+    // This is the held start of a fire-flow search (`Hydraulics::refine_held_around`).
     let net = series_path(2.0, 3.0);
     let (a, c) = (index(&net, "A"), index(&net, "C"));
     let hydraulics = Hydraulics::new(&net).expect("prepare");

@@ -39,14 +39,9 @@ impl SolveRole {
         }
     }
 
+    /// The role's slot in [`WorkByRole`]: its place in [`SolveRole::ALL`].
     fn index(self) -> usize {
-        match self {
-            SolveRole::Required => 0,
-            SolveRole::CapFirst => 1,
-            SolveRole::Held => 2,
-            SolveRole::Verification => 3,
-            SolveRole::Other => 4,
-        }
+        self as usize
     }
 }
 
@@ -78,7 +73,7 @@ impl SolveWork {
 
 /// [`SolveWork`] for each [`SolveRole`].
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-pub struct WorkByRole([SolveWork; 5]);
+pub struct WorkByRole([SolveWork; SolveRole::ALL.len()]);
 
 impl WorkByRole {
     /// Adds one solve's (or one group of solves') work to `role`.
@@ -134,6 +129,10 @@ mod tests {
                 factorizations: 6
             }
         );
+        // Each role has its own slot, in the order `--stats` prints them.
+        for (i, role) in SolveRole::ALL.into_iter().enumerate() {
+            assert_eq!(role.index(), i);
+        }
         let mut sum = WorkByRole::default();
         sum.add_all(&w);
         sum.add_all(&w);

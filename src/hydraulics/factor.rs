@@ -12,7 +12,7 @@ use std::sync::Arc;
 
 use thiserror::Error;
 
-use faer::dyn_stack::{MemBuffer, MemStack, StackReq};
+use faer::dyn_stack::{MemBuffer, MemStack};
 use faer::linalg::cholesky::llt::factor::{
     cholesky_in_place, cholesky_in_place_scratch, LltRegularization,
 };
@@ -328,20 +328,18 @@ pub struct SparseCholesky {
     work: Vec<f64>,
     /// The trailing block's Schur complement, then its dense factor (column-major, lower).
     dense: Vec<f64>,
+    /// Scratch of faer's dense Cholesky of the trailing block.
     mem: MemBuffer,
 }
 
 impl SparseCholesky {
     pub fn new(analysis: Arc<SymbolicAnalysis>) -> Self {
-        let s = &analysis.symbolic;
         let n = analysis.n;
         let m = n - analysis.dense_start;
-        let req = StackReq::any_of(&[
-            s.solve_in_place_scratch::<f64>(1, Par::Seq),
-            cholesky_in_place_scratch::<f64>(m, Par::Seq, Default::default()),
-        ]);
+        // Scratch for the dense block's Cholesky only: the triangular solves are ours.
+        let req = cholesky_in_place_scratch::<f64>(m, Par::Seq, Default::default());
         SparseCholesky {
-            l_values: vec![0.0; s.len_val()],
+            l_values: vec![0.0; analysis.symbolic.len_val()],
             inverse_diagonal: vec![0.0; n],
             work: vec![0.0; n],
             dense: vec![0.0; m * m],
