@@ -117,6 +117,15 @@ fn refactorization(c: &mut Criterion) {
         g.bench_with_input(BenchmarkId::from_parameter(n), &values, |b, values| {
             b.iter(|| factor.refactor(values).expect("positive definite"))
         });
+        // A pair of triangular solves on that factorization (one per Newton step).
+        let rhs: Vec<f64> = (0..nj).map(|k| 1.0 + (k % 11) as f64).collect();
+        let mut x = rhs.clone();
+        g.bench_with_input(BenchmarkId::new("solve", n), &rhs, |b, rhs| {
+            b.iter(|| {
+                x.copy_from_slice(rhs);
+                factor.solve_in_place(&mut x)
+            })
+        });
     }
     g.finish();
 }
