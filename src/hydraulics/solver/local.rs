@@ -197,10 +197,21 @@ impl Hydraulics<'_> {
     }
 }
 
+/// Where one link of the region enters its system (see [`RegionSystem`]).
+struct LinkPlaces {
+    rows: [u32; 2],
+    diagonals: [u32; 2],
+    joining: u32,
+}
+
 /// The region's Newton system: its ordered pattern and factorization, and per step the matrix
 /// values, right-hand side, each link's conductance and known flow change, and the iterate.
 struct RegionSystem {
     pattern: OrderedPattern,
+    /// Per link, the ordered rows of its ends and the slots of their diagonal entries and of
+    /// the entry joining them (`OUTSIDE` where an end, or the entry, is not in the system):
+    /// found once, used at every step.
+    places: Vec<LinkPlaces>,
     factor: SparseCholesky,
     values: Vec<f64>,
     rhs: Vec<f64>,
@@ -229,7 +240,35 @@ impl RegionSystem {
         let rank: Vec<usize> = region.iter().map(|&j| row_of[j]).collect();
         let pattern = OrderedPattern::in_rank_order(n, &pairs, &rank);
         let analysis = SymbolicAnalysis::new(&pattern).ok()?;
+        let place = |end: u32, of: &dyn Fn(usize) -> usize| -> u32 {
+            if end == OUTSIDE {
+                OUTSIDE
+            } else {
+                of(end as usize) as u32
+            }
+        };
+        let places = links
+            .iter()
+            .map(|l| LinkPlaces {
+                rows: [
+                    place(l.from, &|k| pattern.position(k)),
+                    place(l.to, &|k| pattern.position(k)),
+                ],
+                diagonals: [
+                    place(l.from, &|k| pattern.diagonal_slot(k)),
+                    place(l.to, &|k| pattern.diagonal_slot(k)),
+                ],
+                joining: if l.from != OUTSIDE && l.to != OUTSIDE {
+                    pattern
+                        .slot(l.from as usize, l.to as usize)
+                        .map_or(OUTSIDE, |s| s as u32)
+                } else {
+                    OUTSIDE
+                },
+            })
+            .collect();
         Some(RegionSystem {
+            places,
             factor: SparseCholesky::new(analysis),
             values: vec![0.0; pattern.nnz()],
             rhs: vec![0.0; n],
@@ -270,20 +309,15 @@ impl RegionSystem {
             self.conductance[p] = g;
             self.known[p] = -g * (phi - (end_head(a, l.from) - end_head(b, l.to)));
             let carried = self.flows[p] + self.known[p];
-            if l.from != OUTSIDE {
-                let k = l.from as usize;
-                self.rhs[pattern.position(k)] -= carried;
-                self.values[pattern.diagonal_slot(k)] += g;
-            }
-            if l.to != OUTSIDE {
-                let k = l.to as usize;
-                self.rhs[pattern.position(k)] += carried;
-                self.values[pattern.diagonal_slot(k)] += g;
-            }
-            if l.from != OUTSIDE && l.to != OUTSIDE {
-                if let Some(s) = pattern.slot(l.from as usize, l.to as usize) {
-                    self.values[s] -= g;
+            let place = &self.places[p];
+            for (end, sign) in [(0, -1.0), (1, 1.0)] {
+                if place.rows[end] != OUTSIDE {
+                    self.rhs[place.rows[end] as usize] += sign * carried;
+                    self.values[place.diagonals[end] as usize] += g;
                 }
+            }
+            if place.joining != OUTSIDE {
+                self.values[place.joining as usize] -= g;
             }
         }
     }
