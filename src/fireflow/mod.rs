@@ -32,7 +32,7 @@ use crate::hydraulics::{
 };
 use crate::model::{LinkKind, Network};
 use crate::steady::Condition;
-use crate::units::head_m_from_pressure_kpa;
+use crate::units::{head_m_from_pressure_kpa, pressure_kpa_from_head_m};
 
 /// The binding constraint at the available flow.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -178,6 +178,9 @@ pub struct FireFlowSetup<'a> {
     base_factor: Option<FactorSnapshot>,
     pub demand_factor: f64,
     exempt: Vec<bool>,
+    /// Each junction's elevation, m, copied out of the network's node records: the constraint
+    /// check reads it for every junction after every solve, and the records are large.
+    elevation_m: Vec<f64>,
     /// Whether any element can change state (check valves, pumps, regulating valves): then the
     /// available flow is checked for an earlier crossing.
     has_controls: bool,
@@ -208,8 +211,13 @@ impl<'a> FireFlowSetup<'a> {
             .links
             .iter()
             .any(|l| !crate::hydraulics::controls::is_fixed(l));
+        let elevation_m = net.nodes[..net.n_junctions]
+            .iter()
+            .map(|n| n.elevation_m)
+            .collect();
         Ok(FireFlowSetup {
             hydraulics,
+            elevation_m,
             criteria,
             base,
             base_factor,
@@ -267,14 +275,15 @@ impl<'a> FireFlowSetup<'a> {
             }
         }
         let mut worst_pressure = (f64::INFINITY, first);
-        for j in 0..net.n_junctions {
+        for (j, &elevation) in self.elevation_m.iter().enumerate() {
             if !isolated.is_empty() && isolated[j] {
                 continue;
             }
             if !at.iter().any(|&a| self.is_constrained(j, a)) {
                 continue;
             }
-            let margin = sol.pressure_kpa(net, j) - floor;
+            // As `Solution::pressure_kpa`, on the copied elevation.
+            let margin = pressure_kpa_from_head_m(sol.heads_m[j] - elevation) - floor;
             // Ties go to a flowing hydrant's own junction, then the lowest index:
             // deterministic.
             if margin < worst_pressure.0 || (margin == worst_pressure.0 && at.contains(&j)) {
