@@ -151,6 +151,10 @@ pub struct Hydraulics<'n> {
     valve_kinds: Vec<Option<ValveKind>>,
     /// The PRVs and PSVs (links that may hold a junction's head).
     pressure_valves: Vec<usize>,
+    /// The links whose state is ruled by a control (pumps, check and regulating valves).
+    controlled: Vec<usize>,
+    /// Each node's base demand, m³/s, copied out of the node records for the per-solve loops.
+    base_demand_m3s: Vec<f64>,
     pattern: OrderedPattern,
     /// Matrix row of each junction.
     row_of: Vec<usize>,
@@ -383,6 +387,8 @@ struct Elements {
     source_grade: Vec<f64>,
     valve_kinds: Vec<Option<ValveKind>>,
     pressure_valves: Vec<usize>,
+    controlled: Vec<usize>,
+    base_demand_m3s: Vec<f64>,
 }
 
 impl Elements {
@@ -392,7 +398,7 @@ impl Elements {
             .iter()
             .map(|l| LinkLaw::of(l, net.headloss))
             .collect();
-        let roles = net
+        let roles: Vec<Role> = net
             .links
             .iter()
             .map(|l| {
@@ -403,6 +409,10 @@ impl Elements {
                 }
             })
             .collect();
+        let controlled = (0..roles.len())
+            .filter(|&i| roles[i] == Role::Controlled)
+            .collect();
+        let base_demand_m3s = net.nodes.iter().map(|n| n.base_demand_m3s).collect();
         let settings = net
             .links
             .iter()
@@ -442,6 +452,8 @@ impl Elements {
             source_grade,
             valve_kinds,
             pressure_valves,
+            controlled,
+            base_demand_m3s,
         }
     }
 }
@@ -520,6 +532,8 @@ impl<'n> Hydraulics<'n> {
             ends,
             valve_kinds: elements.valve_kinds,
             pressure_valves: elements.pressure_valves,
+            controlled: elements.controlled,
+            base_demand_m3s: elements.base_demand_m3s,
             link_rows,
             link_slots,
             pattern,
@@ -560,6 +574,8 @@ impl<'n> Hydraulics<'n> {
             ends: self.ends.clone(),
             valve_kinds: elements.valve_kinds,
             pressure_valves: elements.pressure_valves,
+            controlled: elements.controlled,
+            base_demand_m3s: elements.base_demand_m3s,
             link_rows: self.link_rows.clone(),
             link_slots: self.link_slots.clone(),
             pattern: self.pattern.clone(),
@@ -740,7 +756,7 @@ impl<'n> Hydraulics<'n> {
         let mut asked: Vec<(f64, f64)> = (0..self.n_junctions)
             .map(|j| {
                 (
-                    self.net.nodes[j].base_demand_m3s * request.demand_factor,
+                    self.base_demand_m3s[j] * request.demand_factor,
                     0.0,
                 )
             })
@@ -846,8 +862,8 @@ impl<'n> Hydraulics<'n> {
         let net = self.net;
         let nj = self.n_junctions;
         let nl = net.links.len();
-        for (j, d) in ws.demand.iter_mut().enumerate() {
-            *d = net.nodes[j].base_demand_m3s * request.demand_factor;
+        for (d, base) in ws.demand.iter_mut().zip(&self.base_demand_m3s) {
+            *d = base * request.demand_factor;
         }
         for &(j, q) in request.extra_demand {
             ws.demand[j] += q;
@@ -1334,10 +1350,7 @@ impl<'n> Hydraulics<'n> {
     /// keeps its state and is listed as unsettled.
     fn switch_controls(&self, request: &SolveRequest<'_>, it: &mut Iterate) -> bool {
         let mut changed = false;
-        for i in 0..self.ends.len() {
-            if self.roles[i] != Role::Controlled {
-                continue;
-            }
+        for &i in &self.controlled {
             let l = &self.net.links[i];
             let view = LinkView {
                 state: it.states[i],
@@ -1628,8 +1641,7 @@ impl<'n> Hydraulics<'n> {
         let nj = self.n_junctions;
         // When every element that can change state conducts, the conducting links are the
         // links that validation found joining every junction to a source: nothing is cut off.
-        let all_controls_conduct =
-            (0..states.len()).all(|i| self.roles[i] != Role::Controlled || states[i].conducts());
+        let all_controls_conduct = self.controlled.iter().all(|&i| states[i].conducts());
         if all_controls_conduct {
             return Ok(Isolation::Cut(Vec::new()));
         }

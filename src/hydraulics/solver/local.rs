@@ -52,7 +52,7 @@ impl Hydraulics<'_> {
         let demand: Vec<f64> = region
             .iter()
             .map(|&j| {
-                self.net.nodes[j].base_demand_m3s * demand_factor
+                self.base_demand_m3s[j] * demand_factor
                     + if j == at { extra } else { 0.0 }
             })
             .collect();
@@ -81,7 +81,7 @@ impl Hydraulics<'_> {
         let links = self.region_links(start, &region, &local)?;
         let demand: Vec<f64> = region
             .iter()
-            .map(|&j| self.net.nodes[j].base_demand_m3s * demand_factor)
+            .map(|&j| self.base_demand_m3s[j] * demand_factor)
             .collect();
         let mut trial = start.clone();
         trial.heads_m[at] = held_head;
@@ -89,7 +89,7 @@ impl Hydraulics<'_> {
             return None;
         }
         let drawn = self.net_inflow(at, &trial.flows_m3s)
-            - self.net.nodes[at].base_demand_m3s * demand_factor;
+            - self.base_demand_m3s[at] * demand_factor;
         (drawn > 0.0 && drawn.is_finite()).then(|| {
             *start = trial;
             drawn
