@@ -955,9 +955,14 @@ impl<'n> Hydraulics<'n> {
         // The step of every fixed node: a pinned junction moves to its target in this step,
         // sources stay where they are.
         let pdd = ws.pdd;
+        // Most solves pin nothing: then the pinned rows need no pass of their own.
+        let mut any_pinned = false;
         for j in 0..nj {
             ws.node_step[j] = match ws.pinned[j] {
-                Some(target) => target - heads[j],
+                Some(target) => {
+                    any_pinned = true;
+                    target - heads[j]
+                }
                 None => 0.0,
             };
             if let Some(pdd) = &pdd {
@@ -1034,7 +1039,9 @@ impl<'n> Hydraulics<'n> {
                 if diag_b != NO_ROW {
                     ws.values[diag_b as usize] += g;
                 }
-                if off != NO_ROW && ws.pinned[a].is_none() && ws.pinned[b].is_none() {
+                if off != NO_ROW
+                    && !(any_pinned && (ws.pinned[a].is_some() || ws.pinned[b].is_some()))
+                {
                     ws.values[off as usize] -= g;
                 }
             }
@@ -1043,6 +1050,9 @@ impl<'n> Hydraulics<'n> {
             for j in 0..nj {
                 ws.values[self.diag_slot[j]] += ws.outflow_slope[j];
             }
+        }
+        if !any_pinned {
+            return;
         }
         for j in 0..nj {
             if ws.pinned[j].is_some() {
