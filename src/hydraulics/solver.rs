@@ -754,12 +754,7 @@ impl<'n> Hydraulics<'n> {
     /// Each junction's customer demand and extra demand asked by `request`, m³/s.
     fn asked_demands(&self, request: &SolveRequest<'_>) -> Vec<(f64, f64)> {
         let mut asked: Vec<(f64, f64)> = (0..self.n_junctions)
-            .map(|j| {
-                (
-                    self.base_demand_m3s[j] * request.demand_factor,
-                    0.0,
-                )
-            })
+            .map(|j| (self.base_demand_m3s[j] * request.demand_factor, 0.0))
             .collect();
         for &(j, q) in request.extra_demand {
             if j < self.n_junctions {

@@ -51,10 +51,7 @@ impl Hydraulics<'_> {
         };
         let demand: Vec<f64> = region
             .iter()
-            .map(|&j| {
-                self.base_demand_m3s[j] * demand_factor
-                    + if j == at { extra } else { 0.0 }
-            })
+            .map(|&j| self.base_demand_m3s[j] * demand_factor + if j == at { extra } else { 0.0 })
             .collect();
         self.solve_region(start, &region, &links, &demand)
     }
@@ -88,8 +85,8 @@ impl Hydraulics<'_> {
         if !self.solve_region(&mut trial, &region, &links, &demand) {
             return None;
         }
-        let drawn = self.net_inflow(at, &trial.flows_m3s)
-            - self.base_demand_m3s[at] * demand_factor;
+        let drawn =
+            self.net_inflow(at, &trial.flows_m3s) - self.base_demand_m3s[at] * demand_factor;
         (drawn > 0.0 && drawn.is_finite()).then(|| {
             *start = trial;
             drawn
