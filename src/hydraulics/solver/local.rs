@@ -237,24 +237,19 @@ impl RegionSystem {
         let rank: Vec<usize> = region.iter().map(|&j| row_of[j]).collect();
         let pattern = OrderedPattern::in_rank_order(n, &pairs, &rank);
         let analysis = SymbolicAnalysis::new(&pattern).ok()?;
-        let place = |end: u32, of: &dyn Fn(usize) -> usize| -> u32 {
+        // A region index's place under `of`, or `OUTSIDE` for a node held at its head.
+        let place = |end: u32, of: fn(&OrderedPattern, usize) -> usize| -> u32 {
             if end == OUTSIDE {
                 OUTSIDE
             } else {
-                of(end as usize) as u32
+                of(&pattern, end as usize) as u32
             }
         };
         let places = links
             .iter()
             .map(|l| LinkPlaces {
-                rows: [
-                    place(l.from, &|k| pattern.position(k)),
-                    place(l.to, &|k| pattern.position(k)),
-                ],
-                diagonals: [
-                    place(l.from, &|k| pattern.diagonal_slot(k)),
-                    place(l.to, &|k| pattern.diagonal_slot(k)),
-                ],
+                rows: [l.from, l.to].map(|end| place(end, OrderedPattern::position)),
+                diagonals: [l.from, l.to].map(|end| place(end, OrderedPattern::diagonal_slot)),
                 joining: if l.from != OUTSIDE && l.to != OUTSIDE {
                     pattern
                         .slot(l.from as usize, l.to as usize)
