@@ -233,8 +233,11 @@ fn hydrant_limit_above_the_cap_gives_the_cap() {
         assert_eq!(res.limited_by, Some(binds), "{res:#?}");
         let expected = if binds == LimitedBy::Cap { cap } else { limit };
         let available = res.available_m3s.unwrap();
+        // Never above the closed form, and below it by no more than the verification's 0.1 %
+        // offset under the held flow plus that flow's own tolerance (0.1 % of itself; see
+        // `DRAWN_FLOW_RELATIVE` in the solver).
         assert!(
-            (available - expected).abs() < 0.001 * expected,
+            available <= expected * (1.0 + 1e-9) && expected - available < 0.002 * expected,
             "{available} vs {expected}"
         );
     }

@@ -163,3 +163,36 @@ fn region_held_at_a_head_draws_the_series_path_flow() {
     assert_eq!(start.heads_m[c], head_c);
     assert_eq!(start.heads_m[a], head_a);
 }
+
+#[test]
+fn region_reused_for_the_held_start_draws_what_a_fresh_one_draws() {
+    // A search builds a hydrant's region once: solved first at the required flow, then again
+    // with the hydrant held (`Hydraulics::refine_in`, `Hydraulics::refine_held_in`). Held, the
+    // hydrant's junction is pinned in the region instead of left out of it, which poses the
+    // same equations: the held start must be the one a region built for it gives (common
+    // practice, no source: one system posed two ways), and the series-path closed form of
+    // `region_held_at_a_head_draws_the_series_path_flow` holds for both.
+    let net = series_path(2.0, 3.0);
+    let (a, c) = (index(&net, "A"), index(&net, "C"));
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let mut start = solve(&net, 1.0, &[]);
+    let (head_a, head_c) = (110.0, 80.0);
+    start.heads_m[a] = head_a;
+    let mut region = hydraulics
+        .region(&start, c, 2)
+        .expect("a region of plain pipes");
+    let mut at_required = start.clone();
+    assert!(hydraulics.refine_in(&mut region, &mut at_required, 1.0, 0.02));
+    let mut reused = start.clone();
+    let drawn_reused = hydraulics
+        .refine_held_in(&mut region, &mut reused, 1.0, head_c)
+        .expect("the region settles");
+    let mut fresh = start.clone();
+    let drawn_fresh = hydraulics
+        .refine_held_around(&mut fresh, c, 1.0, head_c, 2)
+        .expect("the region settles");
+    assert_eq!(drawn_reused, drawn_fresh);
+    assert_eq!(reused.heads_m, fresh.heads_m);
+    assert_eq!(reused.flows_m3s, fresh.flows_m3s);
+    assert_eq!(reused.heads_m[c], head_c);
+}

@@ -31,7 +31,9 @@ use super::{
     ConstraintCheck, FireFlowSetup, HydrantNote, HydrantResult, LimitedBy, Outcome,
     FLOOR_TOLERANCE_KPA,
 };
-use crate::hydraulics::{LinkState, Solution, SolveError, SolveRequest, Tolerance, Workspace};
+use crate::hydraulics::{
+    LinkState, Region, Solution, SolveError, SolveRequest, Tolerance, Workspace,
+};
 use crate::model::Network;
 use crate::units::{pressure_kpa_from_head_m, UnitSystem, M3S_PER_GPM};
 
@@ -158,6 +160,9 @@ struct Search<'s, 'a> {
     /// role so far: the hydrant's counters are its total.
     role: SolveRole,
     work: WorkByRole,
+    /// The hydrant's surroundings, built for the required flow's start and solved again for
+    /// the held start.
+    region: Option<Region>,
 }
 
 impl Search<'_, '_> {
@@ -369,20 +374,19 @@ impl Search<'_, '_> {
 
     /// A start for the solve at fire flow `q`: the max-day state plus its linear response to
     /// the fire flow (from the max-day factorization at hand), with the hydrant's surroundings
-    /// solved alone (`Hydraulics::refine_around`); `None` where that region cannot be solved.
+    /// solved alone (`Hydraulics::refine_in`, on the region kept for the held start); `None`
+    /// where that region cannot be solved.
     fn region_start(&mut self, q: f64) -> Option<Solution> {
         let setup = self.setup;
         let (dh, dq) = setup.hydraulics.demand_response(self.ws, self.at)?;
         let mut start = shifted(&setup.base, &dh, &dq, q);
+        self.region = setup
+            .hydraulics
+            .region(&start, self.at, self.region_junctions());
+        let region = self.region.as_mut()?;
         setup
             .hydraulics
-            .refine_around(
-                &mut start,
-                self.at,
-                setup.demand_factor,
-                q,
-                self.region_junctions(),
-            )
+            .refine_in(region, &mut start, setup.demand_factor, q)
             .then_some(start)
     }
 
@@ -442,23 +446,35 @@ impl Search<'_, '_> {
 
     /// A start for the held solve: the required-flow state plus its linear response to the
     /// flow `q` the supply curve places, with the hydrant's surroundings solved alone and the
-    /// hydrant held at the floor (`Hydraulics::refine_held_around`); `None` where that region
-    /// cannot be solved.
+    /// hydrant held at the floor (`Hydraulics::refine_held_in`, on the required flow's region
+    /// when there is one); `None` where that region cannot be solved.
     fn held_region_start(
-        &self,
+        &mut self,
         at_required: &Point,
         curve: &SupplyCurve,
         q: f64,
     ) -> Option<Solution> {
         let setup = self.setup;
         let mut start = curve.linear(at_required, q);
-        setup.hydraulics.refine_held_around(
-            &mut start,
-            self.at,
-            setup.demand_factor,
-            setup.floor_head_m(self.at),
-            self.region_junctions(),
-        )?;
+        let floor = setup.floor_head_m(self.at);
+        // The region's links are plain (`Hydraulics::region` refuses controlled ones), so it is
+        // the same around this start as around the required flow's.
+        match self.region.as_mut() {
+            Some(region) => {
+                setup
+                    .hydraulics
+                    .refine_held_in(region, &mut start, setup.demand_factor, floor)?;
+            }
+            None => {
+                setup.hydraulics.refine_held_around(
+                    &mut start,
+                    self.at,
+                    setup.demand_factor,
+                    floor,
+                    self.region_junctions(),
+                )?;
+            }
+        }
         Some(start)
     }
 
@@ -1226,6 +1242,7 @@ pub fn analyse_hydrant(
         states_changed: false,
         role: SolveRole::Other,
         work: WorkByRole::default(),
+        region: None,
     };
     if required > cap {
         // The search must reach the required flow for pass/fail to be decided.

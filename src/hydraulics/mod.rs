@@ -10,7 +10,9 @@ pub mod solver;
 
 pub use controls::LinkState;
 pub use demand::{DemandRelation, PressureDependence};
-pub use solver::{FactorSnapshot, Hydraulics, Solution, SolveRequest, Tolerance, Workspace};
+pub use solver::{
+    FactorSnapshot, Hydraulics, Region, Solution, SolveRequest, Tolerance, Workspace,
+};
 
 use thiserror::Error;
 

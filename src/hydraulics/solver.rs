@@ -31,6 +31,7 @@ use crate::model::{LinkKind, Network, ValveKind};
 use crate::units::head_m_from_pressure_kpa;
 
 mod local;
+pub use local::Region;
 
 /// When a solve has converged: the largest head and flow changes of the last step.
 #[derive(Clone, Copy, Debug, PartialEq)]

@@ -28,13 +28,39 @@ struct RegionLink {
     to: u32,
 }
 
+/// The junctions nearest a hydrant with their links and Newton system, built once for a
+/// hydrant and solved for each start its search asks for (the required flow, then the held
+/// start): the breadth-first search, the links and the system's ordering and symbolic analysis
+/// are the same for both.
+pub struct Region {
+    /// The region's junctions, the hydrant's first.
+    nodes: Vec<usize>,
+    links: Vec<RegionLink>,
+    system: RegionSystem,
+}
+
 impl Hydraulics<'_> {
+    /// The `size` junctions nearest to junction `at` (breadth first over the links that
+    /// conduct in `start`), their links and system; `None` when `at` is not a junction, `size`
+    /// is 0, the region holds a link whose state is ruled by a control (a pump, a check valve,
+    /// a regulating valve: only the whole network's solve applies those), or its pattern
+    /// cannot be analysed.
+    pub fn region(&self, start: &Solution, at: usize, size: usize) -> Option<Region> {
+        let (nodes, local) = self.region_around(start, at, size)?;
+        let links = self.region_links(start, &nodes, &local)?;
+        let system = RegionSystem::new(&nodes, &links, &self.row_of)?;
+        Some(Region {
+            nodes,
+            links,
+            system,
+        })
+    }
+
     /// Replaces the heads and flows of `start` around junction `at` by a solve of the `size`
-    /// junctions nearest to it (breadth first over conducting links) with every other node held
-    /// at its head in `start`; the junctions draw their demand at `demand_factor` plus `extra`
-    /// (m³/s) at `at`. Returns whether it did: `start` is left as it was when the region
-    /// holds a link whose state is ruled by a control (a pump, a check valve, a regulating
-    /// valve), or when the region's Newton iteration does not settle within its steps.
+    /// junctions nearest to it (see [`Hydraulics::region`]) with every other node held at its
+    /// head in `start`; the junctions draw their demand at `demand_factor` plus `extra` (m³/s)
+    /// at `at`. Returns whether it did: `start` is left as it was when there is no such region
+    /// or when its Newton iteration does not settle within its steps.
     pub fn refine_around(
         &self,
         start: &mut Solution,
@@ -43,17 +69,25 @@ impl Hydraulics<'_> {
         extra: f64,
         size: usize,
     ) -> bool {
-        let Some((region, local)) = self.region_around(start, at, size) else {
-            return false;
-        };
-        let Some(links) = self.region_links(start, &region, &local) else {
-            return false;
-        };
+        self.region(start, at, size)
+            .is_some_and(|mut region| self.refine_in(&mut region, start, demand_factor, extra))
+    }
+
+    /// [`Hydraulics::refine_around`] on a region already built around its hydrant.
+    pub fn refine_in(
+        &self,
+        region: &mut Region,
+        start: &mut Solution,
+        demand_factor: f64,
+        extra: f64,
+    ) -> bool {
+        let at = region.nodes[0];
         let demand: Vec<f64> = region
+            .nodes
             .iter()
             .map(|&j| self.base_demand_m3s[j] * demand_factor + if j == at { extra } else { 0.0 })
             .collect();
-        self.solve_region(start, &region, &links, &demand)
+        self.solve_region(start, region, &demand, false)
     }
 
     /// [`Hydraulics::refine_around`] with junction `at` held at `held_head` (m) instead of
@@ -68,21 +102,30 @@ impl Hydraulics<'_> {
         held_head: f64,
         size: usize,
     ) -> Option<f64> {
-        let (around, _) = self.region_around(start, at, size)?;
-        // The held junction is a node held at its head like those outside.
-        let region: Vec<usize> = around.into_iter().filter(|&j| j != at).collect();
-        let mut local = vec![OUTSIDE; self.net.nodes.len()];
-        for (k, &j) in region.iter().enumerate() {
-            local[j] = k as u32;
-        }
-        let links = self.region_links(start, &region, &local)?;
+        let mut region = self.region(start, at, size)?;
+        self.refine_held_in(&mut region, start, demand_factor, held_head)
+    }
+
+    /// [`Hydraulics::refine_held_around`] on a region already built around its hydrant: the
+    /// hydrant's junction is pinned at `held_head` (its row the identity, its links entering
+    /// only their other end's row), which is the region without it, that junction held at
+    /// its head like the nodes outside.
+    pub fn refine_held_in(
+        &self,
+        region: &mut Region,
+        start: &mut Solution,
+        demand_factor: f64,
+        held_head: f64,
+    ) -> Option<f64> {
+        let at = region.nodes[0];
         let demand: Vec<f64> = region
+            .nodes
             .iter()
             .map(|&j| self.base_demand_m3s[j] * demand_factor)
             .collect();
         let mut trial = start.clone();
         trial.heads_m[at] = held_head;
-        if !self.solve_region(&mut trial, &region, &links, &demand) {
+        if !self.solve_region(&mut trial, region, &demand, true) {
             return None;
         }
         let drawn =
@@ -164,24 +207,29 @@ impl Hydraulics<'_> {
     }
 
     /// Newton's method (the global gradient algorithm of Todini & Pilati, 1988) on the region
-    /// alone; writes its heads and flows into `start` when it settles.
+    /// alone, its hydrant's junction pinned at its head in `start` when `pin_hydrant`; writes
+    /// its heads and flows into `start` when it settles.
     fn solve_region(
         &self,
         start: &mut Solution,
-        region: &[usize],
-        links: &[RegionLink],
+        region: &mut Region,
         demand: &[f64],
+        pin_hydrant: bool,
     ) -> bool {
-        let Some(mut system) = RegionSystem::new(start, region, links, &self.row_of) else {
-            return false;
-        };
+        let Region {
+            nodes,
+            links,
+            system,
+        } = region;
+        system.load(start, nodes, links);
+        system.pinned = pin_hydrant.then_some(0);
         for _ in 0..REGION_ITERATIONS {
             system.assemble(self, start, links, demand);
             let Some(largest) = system.step(links) else {
                 return false;
             };
             if largest < REGION_TOLERANCE_M {
-                for (k, &j) in region.iter().enumerate() {
+                for (k, &j) in nodes.iter().enumerate() {
                     start.heads_m[j] = system.heads[k];
                 }
                 for (p, l) in links.iter().enumerate() {
@@ -216,17 +264,15 @@ struct RegionSystem {
     known: Vec<f64>,
     heads: Vec<f64>,
     flows: Vec<f64>,
+    /// A junction of the region held at its head (its row the identity, its step zero).
+    pinned: Option<u32>,
 }
 
 impl RegionSystem {
-    /// The system of `region` and its `links`, the iterate taken from `start`, ordered as the
-    /// whole network's matrix (`row_of`); `None` when its pattern cannot be analysed.
-    fn new(
-        start: &Solution,
-        region: &[usize],
-        links: &[RegionLink],
-        row_of: &[usize],
-    ) -> Option<Self> {
+    /// The system of `region` and its `links`, ordered as the whole network's matrix
+    /// (`row_of`); `None` when its pattern cannot be analysed. [`RegionSystem::load`] takes
+    /// an iterate.
+    fn new(region: &[usize], links: &[RegionLink], row_of: &[usize]) -> Option<Self> {
         let n = region.len();
         let pairs: Vec<(usize, usize)> = links
             .iter()
@@ -266,10 +312,21 @@ impl RegionSystem {
             rhs: vec![0.0; n],
             conductance: vec![0.0; links.len()],
             known: vec![0.0; links.len()],
-            heads: region.iter().map(|&j| start.heads_m[j]).collect(),
-            flows: links.iter().map(|l| start.flows_m3s[l.link]).collect(),
+            heads: vec![0.0; n],
+            flows: vec![0.0; links.len()],
+            pinned: None,
             pattern,
         })
+    }
+
+    /// Takes the iterate (heads of the region's junctions, flows of its links) from `start`.
+    fn load(&mut self, start: &Solution, region: &[usize], links: &[RegionLink]) {
+        for (h, &j) in self.heads.iter_mut().zip(region) {
+            *h = start.heads_m[j];
+        }
+        for (f, l) in self.flows.iter_mut().zip(links) {
+            *f = start.flows_m3s[l.link];
+        }
     }
 
     /// Assembles the step's matrix and right-hand side at the current iterate (the solver's
@@ -294,6 +351,9 @@ impl RegionSystem {
                 heads[end as usize]
             }
         };
+        // A pinned junction's links enter only their other end's row, as a node outside does
+        // (with no junction pinned, `pin` is `OUTSIDE`, whose rows are skipped anyway).
+        let pin = self.pinned.unwrap_or(OUTSIDE);
         for (p, l) in links.iter().enumerate() {
             let (a, b) = hydraulics.ends[l.link];
             let (phi, slope) = hydraulics.laws[l.link].evaluate(self.flows[p]);
@@ -302,15 +362,21 @@ impl RegionSystem {
             self.known[p] = -g * (phi - (end_head(a, l.from) - end_head(b, l.to)));
             let carried = self.flows[p] + self.known[p];
             let place = &self.places[p];
+            let ends = [l.from, l.to];
             for (end, sign) in [(0, -1.0), (1, 1.0)] {
-                if place.rows[end] != OUTSIDE {
+                if place.rows[end] != OUTSIDE && ends[end] != pin {
                     self.rhs[place.rows[end] as usize] += sign * carried;
                     self.values[place.diagonals[end] as usize] += g;
                 }
             }
-            if place.joining != OUTSIDE {
+            if place.joining != OUTSIDE && l.from != pin && l.to != pin {
                 self.values[place.joining as usize] -= g;
             }
+        }
+        if let Some(k) = self.pinned {
+            let k = k as usize;
+            self.rhs[pattern.position(k)] = 0.0;
+            self.values[pattern.diagonal_slot(k)] = 1.0;
         }
     }
 
