@@ -426,7 +426,20 @@ impl Search<'_, '_> {
         if cap_first {
             // The required-flow factorization is far from the cap's state: start afresh.
             self.ws.forget_factor();
-            let start = predicted(cap);
+            let mut start = predicted(cap);
+            // With the region already built for the required flow, solving it again at the cap
+            // costs less than the whole-network factorizations it saves on large networks
+            // (docs/performance.md, "The hydrant's region built once").
+            if let (Some(p), Some(e), Some(region)) = (at_required, &estimate, self.region.as_mut())
+            {
+                let mut refined = e.linear(p, cap);
+                if setup
+                    .hydraulics
+                    .refine_in(region, &mut refined, setup.demand_factor, cap)
+                {
+                    start = refined;
+                }
+            }
             let verdict = self.in_role(SolveRole::CapFirst, |s| s.verify_cap(&start));
             if let Some(found) = self.accept_cap(b, verdict) {
                 return Some(found);
