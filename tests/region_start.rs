@@ -123,19 +123,29 @@ fn region_touching_a_pump_is_left_to_the_whole_solve() {
     assert_eq!(start.flows_m3s, before.flows_m3s);
 }
 
-#[test]
-fn region_held_at_a_head_draws_the_series_path_flow() {
-    // Closed form: with the hydrant's junction C held at head H_C below a node A held at H_A,
-    // the series path A-B-C carries Q in P2 and Q − q_B in P3, with
-    // H_A − H_C = r_2 Q^1.852 + r_3 (Q − q_B)^1.852 (continuity plus the Hazen-Williams law,
-    // Williams & Hazen, Hydraulic Tables, 1920), and C draws Q − q_B less its own demand.
-    // This is the held start of a fire-flow search (`Hydraulics::refine_held_around`).
+/// Heads held at A and at the hydrant's junction C in the held series-path tests, m.
+const HELD_HEAD_A_M: f64 = 110.0;
+const HELD_HEAD_C_M: f64 = 80.0;
+
+/// The series path with B drawing 2 L/s and C 3 L/s, and its junctions A and C.
+fn held_series_path() -> (Network, usize, usize) {
     let net = series_path(2.0, 3.0);
     let (a, c) = (index(&net, "A"), index(&net, "C"));
-    let hydraulics = Hydraulics::new(&net).expect("prepare");
-    let mut start = solve(&net, 1.0, &[]);
-    let (head_a, head_c) = (110.0, 80.0);
-    start.heads_m[a] = head_a;
+    (net, a, c)
+}
+
+/// The state without fire flow, with A moved to `HELD_HEAD_A_M` (the region's boundary).
+fn start_with_a_held(net: &Network, a: usize) -> firemain::hydraulics::Solution {
+    let mut start = solve(net, 1.0, &[]);
+    start.heads_m[a] = HELD_HEAD_A_M;
+    start
+}
+
+/// Closed form: with the hydrant's junction C held at head H_C below a node A held at H_A,
+/// the series path A-B-C carries Q in P2 and Q − q_B in P3, with
+/// H_A − H_C = r_2 Q^1.852 + r_3 (Q − q_B)^1.852 (continuity plus the Hazen-Williams law,
+/// Williams & Hazen, Hydraulic Tables, 1920), and C draws Q − q_B less its own demand, m³/s.
+fn held_series_drawn() -> f64 {
     let (r2, r3) = (
         hw_resistance(650.0, 0.25, 110.0),
         hw_resistance(300.0, 0.15, 95.0),
@@ -146,38 +156,44 @@ fn region_held_at_a_head_draws_the_series_path_flow() {
     let (mut lo, mut hi) = (0.002, 1.0);
     for _ in 0..200 {
         let mid = 0.5 * (lo + hi);
-        if drop(mid) < head_a - head_c {
+        if drop(mid) < HELD_HEAD_A_M - HELD_HEAD_C_M {
             lo = mid;
         } else {
             hi = mid;
         }
     }
-    let expected = 0.5 * (lo + hi) - 0.002 - 0.003;
+    0.5 * (lo + hi) - 0.002 - 0.003
+}
+
+#[test]
+fn region_held_at_a_head_draws_the_series_path_flow() {
+    // The closed form of `held_series_drawn`; this is the held start of a fire-flow search
+    // (`Hydraulics::refine_held_around`).
+    let (net, a, c) = held_series_path();
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let mut start = start_with_a_held(&net, a);
+    let expected = held_series_drawn();
     let drawn = hydraulics
-        .refine_held_around(&mut start, c, 1.0, head_c, 2)
+        .refine_held_around(&mut start, c, 1.0, HELD_HEAD_C_M, 2)
         .expect("the region settles");
     assert!(
         (drawn - expected).abs() < 1e-4 * expected,
         "drawn {drawn} m³/s, closed form {expected}"
     );
-    assert_eq!(start.heads_m[c], head_c);
-    assert_eq!(start.heads_m[a], head_a);
+    assert_eq!(start.heads_m[c], HELD_HEAD_C_M);
+    assert_eq!(start.heads_m[a], HELD_HEAD_A_M);
 }
 
 #[test]
 fn region_reused_for_the_held_start_draws_what_a_fresh_one_draws() {
     // A search builds a hydrant's region once: solved first at the required flow, then again
     // with the hydrant held (`Hydraulics::refine_in`, `Hydraulics::refine_held_in`). Held, the
-    // hydrant's junction is pinned in the region instead of left out of it, which poses the
-    // same equations: the held start must be the one a region built for it gives (common
-    // practice, no source: one system posed two ways), and the series-path closed form of
-    // `region_held_at_a_head_draws_the_series_path_flow` holds for both.
-    let net = series_path(2.0, 3.0);
-    let (a, c) = (index(&net, "A"), index(&net, "C"));
+    // hydrant's junction is pinned in the region instead of left out of it. The reused region
+    // must give what a region built for the held start gives (common practice, no source: the
+    // same system solved twice), and the closed form of `held_series_drawn`.
+    let (net, a, c) = held_series_path();
     let hydraulics = Hydraulics::new(&net).expect("prepare");
-    let mut start = solve(&net, 1.0, &[]);
-    let (head_a, head_c) = (110.0, 80.0);
-    start.heads_m[a] = head_a;
+    let start = start_with_a_held(&net, a);
     let mut region = hydraulics
         .region(&start, c, 2)
         .expect("a region of plain pipes");
@@ -185,14 +201,18 @@ fn region_reused_for_the_held_start_draws_what_a_fresh_one_draws() {
     assert!(hydraulics.refine_in(&mut region, &mut at_required, 1.0, 0.02));
     let mut reused = start.clone();
     let drawn_reused = hydraulics
-        .refine_held_in(&mut region, &mut reused, 1.0, head_c)
+        .refine_held_in(&mut region, &mut reused, 1.0, HELD_HEAD_C_M)
         .expect("the region settles");
     let mut fresh = start.clone();
     let drawn_fresh = hydraulics
-        .refine_held_around(&mut fresh, c, 1.0, head_c, 2)
+        .refine_held_around(&mut fresh, c, 1.0, HELD_HEAD_C_M, 2)
         .expect("the region settles");
     assert_eq!(drawn_reused, drawn_fresh);
     assert_eq!(reused.heads_m, fresh.heads_m);
     assert_eq!(reused.flows_m3s, fresh.flows_m3s);
-    assert_eq!(reused.heads_m[c], head_c);
+    let expected = held_series_drawn();
+    assert!(
+        (drawn_reused - expected).abs() < 1e-4 * expected,
+        "drawn {drawn_reused} m³/s, closed form {expected}"
+    );
 }
