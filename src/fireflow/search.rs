@@ -10,7 +10,8 @@
 //!    held at the floor places the hydrant-limited flow (started from the surroundings solved
 //!    alone with the hydrant held, [`Search::held_region_start`]); an ordinary solve just below it
 //!    verifies it. When the supply curve fitted at the required flow reaches the floor well
-//!    beyond the search cap (by [`CAP_FIRST_RATIO`]), the cap is verified first instead.
+//!    beyond the search cap (by [`CAP_FIRST_RATIO`]), the cap is verified first instead
+//!    (started from the same surroundings solved at the cap, [`Search::cap_region_start`]).
 //! 4. **Failing point** ([`Search::find_failing_point`]): with no failing flow known yet, the
 //!    cap is probed, bisecting below flows that cannot be solved.
 //! 5. **Bracket** ([`bracket_search`]): a safeguarded secant search between the largest flow
@@ -426,20 +427,11 @@ impl Search<'_, '_> {
         if cap_first {
             // The required-flow factorization is far from the cap's state: start afresh.
             self.ws.forget_factor();
-            let mut start = predicted(cap);
-            // With the region already built for the required flow, solving it again at the cap
-            // costs less than the whole-network factorizations it saves on large networks
-            // (docs/performance.md, "The hydrant's region built once").
-            if let (Some(p), Some(e), Some(region)) = (at_required, &estimate, self.region.as_mut())
-            {
-                let mut refined = e.linear(p, cap);
-                if setup
-                    .hydraulics
-                    .refine_in(region, &mut refined, setup.demand_factor, cap)
-                {
-                    start = refined;
-                }
+            let start = match (at_required, &estimate) {
+                (Some(p), Some(e)) => self.cap_region_start(p, e),
+                _ => None,
             }
+            .unwrap_or_else(|| predicted(cap));
             let verdict = self.in_role(SolveRole::CapFirst, |s| s.verify_cap(&start));
             if let Some(found) = self.accept_cap(b, verdict) {
                 return Some(found);
@@ -455,6 +447,21 @@ impl Search<'_, '_> {
             .in_role(SolveRole::Held, |s| s.held_solve(&start))
             .ok()?;
         self.settle_held(b, at_required, q_held, held)
+    }
+
+    /// A start for the cap's verdict solve: the required-flow state plus its linear response
+    /// to the cap, with the region already built for the required flow solved again at the
+    /// cap (`Hydraulics::refine_in`): that costs less than the whole-network factorizations
+    /// it saves on large networks (docs/performance.md, "The hydrant's region built once").
+    /// `None` where no region was kept or it does not settle.
+    fn cap_region_start(&mut self, at_required: &Point, curve: &SupplyCurve) -> Option<Solution> {
+        let setup = self.setup;
+        let region = self.region.as_mut()?;
+        let mut start = curve.linear(at_required, self.cap);
+        setup
+            .hydraulics
+            .refine_in(region, &mut start, setup.demand_factor, self.cap)
+            .then_some(start)
     }
 
     /// A start for the held solve: the required-flow state plus its linear response to the
