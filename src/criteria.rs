@@ -206,10 +206,12 @@ impl Criteria {
 }
 
 /// Reads a criteria file and checks it against the network it will be applied to.
+///
+/// Each section is one named step of [`Reader`]; every problem is collected, in the order of
+/// the steps, before any is reported.
 pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics> {
     let file = path.display().to_string();
     let mut diags = Diagnostics::new();
-    let mut warnings = Diagnostics::new();
     let parsed: Option<(CriteriaFile, String)> = read_toml(
         path,
         &file,
@@ -219,14 +221,134 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
     let Some((c, text)) = parsed else {
         return Err(diags);
     };
-    let at = |span: std::ops::Range<usize>| span_location(&file, &text, span);
-    let units = *c.units.get_ref();
-    if units != net.units {
-        diags.error(
-            at(c.units.span()),
+    let mut r = Reader {
+        file: &file,
+        text: &text,
+        units: *c.units.get_ref(),
+        diags,
+        warnings: Diagnostics::new(),
+    };
+    r.units_match(&c.units, net);
+    let limits = r.pressure_limits(&c);
+    let fire = r.fire_settings(&c.fire, net);
+    let (new_pipe_roughness, min_main_diameter_m) = match &c.upsizing {
+        Some(u) => r.upsizing(u, net),
+        None => (None, None),
+    };
+    let calibration_bounds = c.calibration.as_ref().map(|t| r.calibration(t, net));
+    let needed_flow = c.needed_flow.as_ref().and_then(|t| {
+        let of = NeededFrom {
+            path,
+            file: &file,
+            reference: &c.reference,
+            units: r.units,
+        };
+        let (file, text) = (r.file, r.text);
+        let at = |span: std::ops::Range<usize>| span_location(file, text, span);
+        read_needed_flow(t, &of, &at, &mut r.diags)
+    });
+    let pressure_dependent = c
+        .fire
+        .pressure_dependent
+        .as_ref()
+        .map(|t| r.pressure_dependent(t));
+    r.hydrant_classes(&c.fire, &fire, limits.search_cap_m3s, net);
+    let Reader {
+        units,
+        diags,
+        warnings,
+        ..
+    } = r;
+    if diags.has_errors() {
+        return Err(diags);
+    }
+    Ok(Criteria {
+        name: c.name,
+        reference: c.reference,
+        units,
+        service_min_kpa: limits.service_min_kpa,
+        service_max_kpa: limits.service_max_kpa,
+        residual_floor_kpa: limits.residual_floor_kpa,
+        scope: fire.scope,
+        exempt: fire.exempt,
+        max_velocity_m_per_s: fire.max_velocity_m_per_s,
+        search_cap_m3s: limits.search_cap_m3s,
+        default_required_flow_m3s: fire.default_required_flow_m3s,
+        required_flow_by_class: fire.required_flow_by_class,
+        new_pipe_roughness,
+        min_main_diameter_m,
+        calibration_bounds,
+        needed_flow,
+        pressure_dependent,
+        file,
+        warnings,
+    })
+}
+
+/// A criteria file being read: where its values are, their units, and what they raise.
+struct Reader<'a> {
+    file: &'a str,
+    text: &'a str,
+    units: UnitSystem,
+    diags: Diagnostics,
+    warnings: Diagnostics,
+}
+
+/// The pressures and the flow that bound every check (SI).
+struct PressureLimits {
+    service_min_kpa: f64,
+    service_max_kpa: f64,
+    residual_floor_kpa: f64,
+    search_cap_m3s: f64,
+}
+
+/// What `[fire]` says besides its floor and cap (SI).
+struct FireSettings {
+    scope: Scope,
+    exempt: Vec<String>,
+    max_velocity_m_per_s: Option<f64>,
+    default_required_flow_m3s: Option<f64>,
+    required_flow_by_class: BTreeMap<String, f64>,
+}
+
+impl Reader<'_> {
+    fn at(&self, span: std::ops::Range<usize>) -> Location {
+        span_location(self.file, self.text, span)
+    }
+
+    /// A positive number within the limit of its quantity (magnitudes beyond any water system
+    /// are errors too), in SI.
+    fn positive(&mut self, v: &Spanned<f64>, what: &str, q: Quantity) -> f64 {
+        let units = self.units;
+        let x = *v.get_ref();
+        if !(x.is_finite() && x > 0.0) {
+            let at = self.at(v.span());
+            self.diags.error(
+                at,
+                format!("{what} must be a positive number, got {}", display_value(x)),
+                format!("give {what} in {}", units.symbol(q)),
+            );
+        } else if let Some(limit) = limit_of(q) {
+            if !limit.holds(units.to_si(q, x)) {
+                let at = self.at(v.span());
+                self.diags
+                    .error(at, limit.message(what, x, units), limit.fix(what, units));
+            }
+        }
+        units.to_si(q, x)
+    }
+
+    /// The criteria's units must be the network's: values are not converted between them.
+    fn units_match(&mut self, units: &Spanned<UnitSystem>, net: &Network) {
+        if *units.get_ref() == net.units {
+            return;
+        }
+        let at = self.at(units.span());
+        self.diags.error(
+            at,
             format!(
                 "the criteria are in units \"{}\" but the network is in \"{}\"",
-                units.name(),
+                self.units.name(),
                 net.units.name()
             ),
             format!(
@@ -235,251 +357,249 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
             ),
         );
     }
-    // A positive number within `limit` (magnitudes beyond any water system are errors too).
-    let positive = |v: &Spanned<f64>, what: &str, q: Quantity, diags: &mut Diagnostics| {
-        let x = *v.get_ref();
-        if !(x.is_finite() && x > 0.0) {
-            diags.error(
-                at(v.span()),
-                format!("{what} must be a positive number, got {}", display_value(x)),
-                format!("give {what} in {}", units.symbol(q)),
+
+    /// `[service]`'s two limits, `[fire]`'s floor and cap, and how the floor sits between the
+    /// service limits.
+    fn pressure_limits(&mut self, c: &CriteriaFile) -> PressureLimits {
+        let service_min_kpa = self.positive(
+            &c.service.min_pressure,
+            "[service] min_pressure",
+            Quantity::Pressure,
+        );
+        let service_max_kpa = self.positive(
+            &c.service.max_pressure,
+            "[service] max_pressure",
+            Quantity::Pressure,
+        );
+        if service_max_kpa <= service_min_kpa && service_min_kpa > 0.0 && service_max_kpa > 0.0 {
+            let at = self.at(c.service.max_pressure.span());
+            self.diags.error(
+                at,
+                "[service] max_pressure must be above min_pressure",
+                "check the two service limits",
             );
-        } else if let Some(limit) = limit_of(q) {
-            if !limit.holds(units.to_si(q, x)) {
-                diags.error(
-                    at(v.span()),
-                    limit.message(what, x, units),
-                    limit.fix(what, units),
+        }
+        let limits = PressureLimits {
+            service_min_kpa,
+            service_max_kpa,
+            residual_floor_kpa: self.positive(
+                &c.fire.residual_floor,
+                "[fire] residual_floor",
+                Quantity::Pressure,
+            ),
+            search_cap_m3s: self.positive(&c.fire.search_cap, "[fire] search_cap", Quantity::Flow),
+        };
+        self.floor_between_service_limits(c, &limits);
+        limits
+    }
+
+    /// The residual floor above the service maximum is an error (no junction that passes the
+    /// service check could keep it), at or above the service minimum a warning.
+    fn floor_between_service_limits(&mut self, c: &CriteriaFile, limits: &PressureLimits) {
+        let pressure = |v: &Spanned<f64>| display_value(*v.get_ref());
+        let psym = self.units.symbol(Quantity::Pressure);
+        // Compared only when both are in range (an out-of-range value is already an error).
+        let in_range = |kpa: f64| kpa > 0.0 && limits::PRESSURE.holds(kpa);
+        let floor = limits.residual_floor_kpa;
+        let compare = in_range(floor) && in_range(limits.service_max_kpa);
+        let at = self.at(c.fire.residual_floor.span());
+        if compare && floor > limits.service_max_kpa {
+            self.diags.error(
+                at,
+                format!(
+                    "[fire] residual_floor {} {psym} is above [service] max_pressure {} {psym}: no junction that passes the service check could keep it during a fire flow",
+                    pressure(&c.fire.residual_floor),
+                    pressure(&c.service.max_pressure),
+                ),
+                "check the two values and their unit; a residual floor is usually 20 psi (140 kPa)",
+            );
+        } else if compare && in_range(limits.service_min_kpa) && floor >= limits.service_min_kpa {
+            // Common practice, no source: the fire-flow floor (e.g. 20 psi) lies below the
+            // everyday service minimum (e.g. 35-40 psi).
+            self.warnings.warning(
+                at,
+                format!(
+                    "[fire] residual_floor {} {psym} is not below [service] min_pressure {} {psym} (usually the fire-flow floor is the lower one; common practice)",
+                    pressure(&c.fire.residual_floor),
+                    pressure(&c.service.min_pressure),
+                ),
+                "check the two values: a residual floor is usually 20 psi (140 kPa), a service minimum 35-40 psi",
+            );
+        }
+    }
+
+    /// `[fire]`'s scope, velocity limit, required flows and exempt junctions.
+    fn fire_settings(&mut self, fire: &FireTable, net: &Network) -> FireSettings {
+        let scope = match fire.scope.get_ref().as_str() {
+            "system" => Scope::System,
+            "zone" => Scope::Zone,
+            other => {
+                let at = self.at(fire.scope.span());
+                self.diags.error(
+                    at,
+                    format!("unknown scope \"{other}\""),
+                    "write scope = \"system\" (every junction) or \"zone\" (the hydrant's zone)",
+                );
+                Scope::System
+            }
+        };
+        let max_velocity_m_per_s = match &fire.max_velocity {
+            Some(v) if *v.get_ref() == 0.0 => None,
+            Some(v) => Some(self.positive(v, "[fire] max_velocity", Quantity::Velocity)),
+            None => None,
+        };
+        let default_required_flow_m3s = fire
+            .default_required_flow
+            .as_ref()
+            .map(|v| self.positive(v, "[fire] default_required_flow", Quantity::Flow));
+        let required_flow_by_class = self.required_flow_by_class(fire);
+        let exempt = self.exempt_junctions(fire, net);
+        FireSettings {
+            scope,
+            exempt,
+            max_velocity_m_per_s,
+            default_required_flow_m3s,
+            required_flow_by_class,
+        }
+    }
+
+    /// `[fire.required_flow]`, keyed by class without case; a class named twice is an error.
+    fn required_flow_by_class(&mut self, fire: &FireTable) -> BTreeMap<String, f64> {
+        let mut by_class = BTreeMap::new();
+        for (class, v) in &fire.required_flow {
+            let q = self.positive(v, &format!("[fire.required_flow] {class}"), Quantity::Flow);
+            if by_class.insert(class_key(class), q).is_some() {
+                let at = self.at(v.span());
+                self.diags.error(
+                    at,
+                    format!(
+                        "[fire.required_flow] names class {} twice (classes are compared without case)",
+                        quoted(class)
+                    ),
+                    "keep one value per class",
                 );
             }
         }
-        units.to_si(q, x)
-    };
-    let service_min_kpa = positive(
-        &c.service.min_pressure,
-        "[service] min_pressure",
-        Quantity::Pressure,
-        &mut diags,
-    );
-    let service_max_kpa = positive(
-        &c.service.max_pressure,
-        "[service] max_pressure",
-        Quantity::Pressure,
-        &mut diags,
-    );
-    if service_max_kpa <= service_min_kpa && service_min_kpa > 0.0 && service_max_kpa > 0.0 {
-        diags.error(
-            at(c.service.max_pressure.span()),
-            "[service] max_pressure must be above min_pressure",
-            "check the two service limits",
-        );
+        by_class
     }
-    let residual_floor_kpa = positive(
-        &c.fire.residual_floor,
-        "[fire] residual_floor",
-        Quantity::Pressure,
-        &mut diags,
-    );
-    let search_cap_m3s = positive(
-        &c.fire.search_cap,
-        "[fire] search_cap",
-        Quantity::Flow,
-        &mut diags,
-    );
-    let pressure = |v: &Spanned<f64>| display_value(*v.get_ref());
-    let psym = units.symbol(Quantity::Pressure);
-    // Compared only when both are in range (an out-of-range value is already an error).
-    let in_range = |kpa: f64| kpa > 0.0 && limits::PRESSURE.holds(kpa);
-    let compare = in_range(residual_floor_kpa) && in_range(service_max_kpa);
-    if compare && residual_floor_kpa > service_max_kpa {
-        diags.error(
-            at(c.fire.residual_floor.span()),
-            format!(
-                "[fire] residual_floor {} {psym} is above [service] max_pressure {} {psym}: no junction that passes the service check could keep it during a fire flow",
-                pressure(&c.fire.residual_floor),
-                pressure(&c.service.max_pressure),
-            ),
-            "check the two values and their unit; a residual floor is usually 20 psi (140 kPa)",
-        );
-    } else if compare && in_range(service_min_kpa) && residual_floor_kpa >= service_min_kpa {
-        // Common practice, no source: the fire-flow floor (e.g. 20 psi) lies below the
-        // everyday service minimum (e.g. 35-40 psi).
-        warnings.warning(
-            at(c.fire.residual_floor.span()),
-            format!(
-                "[fire] residual_floor {} {psym} is not below [service] min_pressure {} {psym} (usually the fire-flow floor is the lower one; common practice)",
-                pressure(&c.fire.residual_floor),
-                pressure(&c.service.min_pressure),
-            ),
-            "check the two values: a residual floor is usually 20 psi (140 kPa), a service minimum 35-40 psi",
-        );
-    }
-    let scope = match c.fire.scope.get_ref().as_str() {
-        "system" => Scope::System,
-        "zone" => Scope::Zone,
-        other => {
-            diags.error(
-                at(c.fire.scope.span()),
-                format!("unknown scope \"{other}\""),
-                "write scope = \"system\" (every junction) or \"zone\" (the hydrant's zone)",
-            );
-            Scope::System
-        }
-    };
-    let max_velocity_m_per_s = match &c.fire.max_velocity {
-        Some(v) if *v.get_ref() == 0.0 => None,
-        Some(v) => Some(positive(
-            v,
-            "[fire] max_velocity",
-            Quantity::Velocity,
-            &mut diags,
-        )),
-        None => None,
-    };
-    let default_required_flow_m3s = c.fire.default_required_flow.as_ref().map(|v| {
-        positive(
-            v,
-            "[fire] default_required_flow",
-            Quantity::Flow,
-            &mut diags,
-        )
-    });
-    let mut required_flow_by_class = BTreeMap::new();
-    for (class, v) in &c.fire.required_flow {
-        let q = positive(
-            v,
-            &format!("[fire.required_flow] {class}"),
-            Quantity::Flow,
-            &mut diags,
-        );
-        if required_flow_by_class.insert(class_key(class), q).is_some() {
-            diags.error(
-                at(v.span()),
-                format!(
-                    "[fire.required_flow] names class {} twice (classes are compared without case)",
-                    quoted(class)
-                ),
-                "keep one value per class",
-            );
-        }
-    }
-    let mut exempt = Vec::new();
-    for e in &c.fire.exempt {
-        match net.node_by_id(e.get_ref()) {
-            Some(j) if j < net.n_junctions => exempt.push(e.get_ref().clone()),
-            _ => diags.error(
-                at(e.span()),
-                format!(
-                    "exempt junction {} is not a junction of the network",
-                    quoted(e.get_ref())
-                ),
-                "list junction ids of the network (compared exactly)",
-            ),
-        }
-    }
-    let (new_pipe_roughness, min_main_diameter_m) = match &c.upsizing {
-        Some(u) => (
-            u.new_pipe_roughness.as_ref().map(|v| {
-                let q = match net.headloss {
-                    crate::model::HeadlossFormula::HazenWilliams => None,
-                    crate::model::HeadlossFormula::DarcyWeisbach => Some(Quantity::Diameter),
-                };
-                match q {
-                    Some(q) => positive(v, "[upsizing] new_pipe_roughness", q, &mut diags),
-                    None => {
-                        let x = *v.get_ref();
-                        if !(x.is_finite() && x > 0.0) {
-                            diags.error(
-                                at(v.span()),
-                                format!(
-                                    "[upsizing] new_pipe_roughness must be positive, got {}",
-                                    display_value(x)
-                                ),
-                                "give the Hazen-Williams C of new pipe (e.g. 130)",
-                            );
-                        } else if !limits::C_FACTOR.holds(x) {
-                            let what = "[upsizing] new_pipe_roughness";
-                            diags.error(
-                                at(v.span()),
-                                limits::C_FACTOR.message(what, x, units),
-                                "give the Hazen-Williams C of new pipe (e.g. 130)",
-                            );
-                        }
-                        x
-                    }
-                }
-            }),
-            u.min_main_diameter.as_ref().map(|v| {
-                positive(
-                    v,
-                    "[upsizing] min_main_diameter",
-                    Quantity::Diameter,
-                    &mut diags,
-                )
-            }),
-        ),
-        None => (None, None),
-    };
 
-    let calibration_bounds = c.calibration.as_ref().map(|t| {
-        // Hazen-Williams C has no unit; a Darcy-Weisbach roughness is a length in the
-        // diameter unit (mm or in), as in pipes.csv.
-        let read = |v: &Spanned<f64>, what: &str, diags: &mut Diagnostics| match net.headloss {
+    /// `[fire] exempt`: each must be a junction of the network.
+    fn exempt_junctions(&mut self, fire: &FireTable, net: &Network) -> Vec<String> {
+        let mut exempt = Vec::new();
+        for e in &fire.exempt {
+            match net.node_by_id(e.get_ref()) {
+                Some(j) if j < net.n_junctions => exempt.push(e.get_ref().clone()),
+                _ => {
+                    let at = self.at(e.span());
+                    self.diags.error(
+                        at,
+                        format!(
+                            "exempt junction {} is not a junction of the network",
+                            quoted(e.get_ref())
+                        ),
+                        "list junction ids of the network (compared exactly)",
+                    )
+                }
+            }
+        }
+        exempt
+    }
+
+    /// `[upsizing]`: the roughness of new pipe and the smallest main diameter.
+    fn upsizing(&mut self, u: &UpsizingTable, net: &Network) -> (Option<f64>, Option<f64>) {
+        let roughness = u.new_pipe_roughness.as_ref().map(|v| match net.headloss {
             crate::model::HeadlossFormula::DarcyWeisbach => {
-                positive(v, what, Quantity::Diameter, diags)
+                self.positive(v, "[upsizing] new_pipe_roughness", Quantity::Diameter)
+            }
+            crate::model::HeadlossFormula::HazenWilliams => self.new_pipe_c_factor(v),
+        });
+        let min_diameter = u
+            .min_main_diameter
+            .as_ref()
+            .map(|v| self.positive(v, "[upsizing] min_main_diameter", Quantity::Diameter));
+        (roughness, min_diameter)
+    }
+
+    /// A Hazen-Williams C of new pipe: positive, and within the C factors pipes have.
+    fn new_pipe_c_factor(&mut self, v: &Spanned<f64>) -> f64 {
+        let x = *v.get_ref();
+        let fix = "give the Hazen-Williams C of new pipe (e.g. 130)";
+        if !(x.is_finite() && x > 0.0) {
+            let at = self.at(v.span());
+            self.diags.error(
+                at,
+                format!(
+                    "[upsizing] new_pipe_roughness must be positive, got {}",
+                    display_value(x)
+                ),
+                fix,
+            );
+        } else if !limits::C_FACTOR.holds(x) {
+            let what = "[upsizing] new_pipe_roughness";
+            let at = self.at(v.span());
+            self.diags
+                .error(at, limits::C_FACTOR.message(what, x, self.units), fix);
+        }
+        x
+    }
+
+    /// `[calibration]`: the lowest and highest roughness a fit may reach. Hazen-Williams C has
+    /// no unit; a Darcy-Weisbach roughness is a length in the diameter unit (mm or in), as in
+    /// pipes.csv.
+    fn calibration(&mut self, t: &CalibrationTable, net: &Network) -> (f64, f64) {
+        let mut read = |v: &Spanned<f64>, what: &str| match net.headloss {
+            crate::model::HeadlossFormula::DarcyWeisbach => {
+                self.positive(v, what, Quantity::Diameter)
             }
             crate::model::HeadlossFormula::HazenWilliams => {
                 let x = *v.get_ref();
                 if !(x.is_finite() && limits::C_FACTOR.holds(x)) {
-                    diags.error(
-                        at(v.span()),
-                        limits::C_FACTOR.message(what, x, units),
+                    let at = self.at(v.span());
+                    self.diags.error(
+                        at,
+                        limits::C_FACTOR.message(what, x, self.units),
                         "give a Hazen-Williams C (e.g. 40 and 160)",
                     );
                 }
                 x
             }
         };
-        let lo = read(&t.roughness_min, "[calibration] roughness_min", &mut diags);
-        let hi = read(&t.roughness_max, "[calibration] roughness_max", &mut diags);
+        let lo = read(&t.roughness_min, "[calibration] roughness_min");
+        let hi = read(&t.roughness_max, "[calibration] roughness_max");
         if lo.partial_cmp(&hi) != Some(std::cmp::Ordering::Less) {
-            diags.error(
-                at(t.roughness_max.span()),
+            let at = self.at(t.roughness_max.span());
+            self.diags.error(
+                at,
                 "[calibration] roughness_max must be above roughness_min",
                 "give the lowest and the highest roughness a fit may reach",
             );
         }
         (lo, hi)
-    });
+    }
 
-    let needed_flow = c.needed_flow.as_ref().and_then(|t| {
-        let of = NeededFrom {
-            path,
-            file: &file,
-            reference: &c.reference,
-            units,
-        };
-        read_needed_flow(t, &of, &at, &mut diags)
-    });
-
-    let pressure_dependent = c.fire.pressure_dependent.as_ref().map(|t| {
-        let read = |v: &Spanned<f64>, what: &str, diags: &mut Diagnostics| {
+    /// `[fire] pressure_dependent`: the pressure below which customers get nothing and the one
+    /// from which they get their whole demand.
+    fn pressure_dependent(&mut self, t: &PressureDependentTable) -> PressureDependentSettings {
+        let units = self.units;
+        let psym = units.symbol(Quantity::Pressure);
+        let mut read = |v: &Spanned<f64>, what: &str| {
             let x = *v.get_ref();
             let kpa = units.to_si(Quantity::Pressure, x);
             if !(x.is_finite() && x >= 0.0 && limits::PRESSURE.holds(kpa.max(1e-9))) {
-                diags.error(
-                    at(v.span()),
+                let at = self.at(v.span());
+                self.diags.error(
+                    at,
                     format!(
                         "{what} must be a pressure of zero or more, got {}",
                         display_value(x)
                     ),
-                    format!("give {what} in {}", units.symbol(Quantity::Pressure)),
+                    format!("give {what} in {psym}"),
                 );
             }
             kpa
         };
-        let minimum_kpa = read(&t.minimum, "[fire] pressure_dependent minimum", &mut diags);
-        let service_kpa = read(&t.service, "[fire] pressure_dependent service", &mut diags);
+        let minimum_kpa = read(&t.minimum, "[fire] pressure_dependent minimum");
+        let service_kpa = read(&t.service, "[fire] pressure_dependent service");
         // The relation needs a range of at least 0.1 m of head (hydraulics::demand::MIN_RANGE_M).
         let min_range_kpa =
             crate::units::pressure_kpa_from_head_m(crate::hydraulics::demand::MIN_RANGE_M);
@@ -487,8 +607,10 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
             && minimum_kpa.is_finite()
             && service_kpa < minimum_kpa + min_range_kpa
         {
-            diags.error(
-                at(t.service.span()),
+            let pressure = |v: &Spanned<f64>| display_value(*v.get_ref());
+            let at = self.at(t.service.span());
+            self.diags.error(
+                at,
                 format!(
                     "[fire] pressure_dependent service {} {psym} must be above minimum {} {psym}",
                     pressure(&t.service),
@@ -501,43 +623,41 @@ pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics
             minimum_kpa,
             service_kpa,
         }
-    });
+    }
 
-    check_required_above_cap(&c.fire, units, search_cap_m3s, &at, &mut warnings);
-    let classes: Vec<&str> = c.fire.required_flow.keys().map(String::as_str).collect();
-    let resolution = ClassCheck {
-        file: &file,
-        classes: &classes,
-        by_class: &required_flow_by_class,
-        has_default: default_required_flow_m3s.is_some(),
-    };
-    for h in &net.hydrants {
-        resolution.check(h, &mut diags, &mut warnings);
+    /// Required flows above the search cap (warnings), and each hydrant's class resolved
+    /// against `[fire.required_flow]`.
+    fn hydrant_classes(
+        &mut self,
+        fire_table: &FireTable,
+        fire: &FireSettings,
+        search_cap_m3s: f64,
+        net: &Network,
+    ) {
+        let (file, text) = (self.file, self.text);
+        let at = |span: std::ops::Range<usize>| span_location(file, text, span);
+        check_required_above_cap(
+            fire_table,
+            self.units,
+            search_cap_m3s,
+            &at,
+            &mut self.warnings,
+        );
+        let classes: Vec<&str> = fire_table
+            .required_flow
+            .keys()
+            .map(String::as_str)
+            .collect();
+        let resolution = ClassCheck {
+            file,
+            classes: &classes,
+            by_class: &fire.required_flow_by_class,
+            has_default: fire.default_required_flow_m3s.is_some(),
+        };
+        for h in &net.hydrants {
+            resolution.check(h, &mut self.diags, &mut self.warnings);
+        }
     }
-    if diags.has_errors() {
-        return Err(diags);
-    }
-    Ok(Criteria {
-        name: c.name,
-        reference: c.reference,
-        units,
-        service_min_kpa,
-        service_max_kpa,
-        residual_floor_kpa,
-        scope,
-        exempt,
-        max_velocity_m_per_s,
-        search_cap_m3s,
-        default_required_flow_m3s,
-        required_flow_by_class,
-        new_pipe_roughness,
-        min_main_diameter_m,
-        calibration_bounds,
-        needed_flow,
-        pressure_dependent,
-        file,
-        warnings,
-    })
 }
 
 /// What `[needed_flow]` is read against: the criteria file and its units.
