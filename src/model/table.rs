@@ -402,6 +402,9 @@ fn read_bounded(path: &Path) -> Result<Vec<u8>, String> {
 }
 
 /// Parses CSV bytes; separate from [`read_table`] so that tests can feed bytes directly.
+///
+/// In steps: line ends and byte-order mark, the file's shape (delimiter, quotes), its records
+/// (header and rows, each row kept or refused whole), then the header's columns.
 pub fn parse_table(
     bytes: &[u8],
     file: &str,
@@ -423,6 +426,34 @@ pub fn parse_table(
     } else {
         bytes
     };
+    let lines = LineIndex::new(bytes);
+    if !shape_is_csv(bytes, &lines, file, diags) {
+        return None;
+    }
+    let records = read_records(bytes, &lines, file, diags)?;
+    let Some((header_line, names)) = records.header else {
+        diags.error(
+            Location::file(file),
+            "the file is empty",
+            format!(
+                "start the file with a header row naming its columns, at least: {}",
+                spec.required.join(", ")
+            ),
+        );
+        return None;
+    };
+    let columns = header_columns(&names, header_line, file, spec, diags)?;
+    Some(Table {
+        file: file.to_string(),
+        columns,
+        rows: records.rows,
+        refused: records.refused,
+    })
+}
+
+/// Whether the file is comma-separated and closes every quote it opens; otherwise the one
+/// finding that explains it (a reading of such a file would only add noise).
+fn shape_is_csv(bytes: &[u8], lines: &LineIndex, file: &str, diags: &mut Diagnostics) -> bool {
     if let Some((line, delimiter)) = foreign_delimiter(bytes) {
         diags.error(
             Location::line(file, line),
@@ -433,29 +464,47 @@ pub fn parse_table(
                 "save the file as comma-separated values (CSV with commas), or replace each {delimiter} between fields by a comma"
             ),
         );
-        return None;
+        return false;
     }
+    // The csv reader takes a quote left open as running to the end of the file; a file that
+    // does that is broken, and the finding belongs where the quote opened.
+    if let Some(line) = unclosed_quote_line(bytes, lines) {
+        diags.error(
+            Location::line(file, line),
+            "a quoted field that starts on this line is never closed",
+            "add the closing double quote (a quote inside a quoted field is written twice: \"\")",
+        );
+        return false;
+    }
+    true
+}
+
+/// A file's records: its header (the first non-blank record, with its line) and its rows.
+struct Records {
+    header: Option<(u64, Vec<String>)>,
+    rows: Vec<Row>,
+    refused: Vec<Row>,
+}
+
+/// Reads every record; a row with the wrong number of fields or a bad cell is refused whole
+/// (and reported). `None` when the csv reader itself fails (reported at its line).
+fn read_records(
+    bytes: &[u8],
+    lines: &LineIndex,
+    file: &str,
+    diags: &mut Diagnostics,
+) -> Option<Records> {
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(false)
         .comment(Some(b'#'))
         .flexible(true)
         .trim(csv::Trim::All)
         .from_reader(bytes);
-
-    let lines = LineIndex::new(bytes);
-    // The csv reader takes a quote left open as running to the end of the file; a file that
-    // does that is broken, and the finding belongs where the quote opened.
-    if let Some(line) = unclosed_quote_line(bytes, &lines) {
-        diags.error(
-            Location::line(file, line),
-            "a quoted field that starts on this line is never closed",
-            "add the closing double quote (a quote inside a quoted field is written twice: \"\")",
-        );
-        return None;
-    }
-    let mut header: Option<(u64, Vec<String>)> = None;
-    let mut rows = Vec::new();
-    let mut refused = Vec::new();
+    let mut records = Records {
+        header: None,
+        rows: Vec::new(),
+        refused: Vec::new(),
+    };
     let mut record = csv::ByteRecord::new();
     loop {
         match reader.read_byte_record(&mut record) {
@@ -475,74 +524,82 @@ pub fn parse_table(
             .position()
             .map(|p| lines.line_of(p.byte()))
             .unwrap_or(0);
-        let mut fields = Vec::with_capacity(record.len());
-        let mut utf8_ok = true;
-        for (i, raw) in record.iter().enumerate() {
-            if raw.iter().any(|&b| b == b'\n' || b == b'\r') {
-                diags.error(
-                    Location::cell(file, line, i as u64 + 1),
-                    "a quoted field runs over several lines",
-                    "close the quote on the line where it opens; network files keep one row per line",
-                );
-                utf8_ok = false;
-                fields.push(String::new());
-                continue;
-            }
-            match std::str::from_utf8(raw) {
-                Ok(text) => fields.push(text.to_string()),
-                Err(_) => {
-                    diags.error(
-                        Location::cell(file, line, i as u64 + 1),
-                        "the text is not valid UTF-8",
-                        "save the file with UTF-8 encoding",
-                    );
-                    utf8_ok = false;
-                    fields.push(String::new());
-                }
-            }
-        }
+        let (fields, cells_ok) = record_fields(&record, line, file, diags);
         if fields.iter().all(String::is_empty) {
             continue; // blank line
         }
-        match &header {
-            None => header = Some((line, fields)),
-            Some((_, names)) => {
-                let extra_filled = fields.iter().skip(names.len()).any(|f| !f.is_empty());
-                if fields.len() < names.len() || extra_filled {
-                    diags.error(
-                        Location::line(file, line),
-                        format!(
-                            "this row has {} fields but the header has {}",
-                            fields.len(),
-                            names.len()
-                        ),
-                        "give every row one field per header column (an empty field means the default); \
-                         quote fields that contain commas",
-                    );
-                    refused.push(Row { line, fields });
-                    continue;
-                }
-                if utf8_ok {
-                    rows.push(Row { line, fields });
-                } else {
-                    refused.push(Row { line, fields });
-                }
+        let Some((_, names)) = &records.header else {
+            records.header = Some((line, fields));
+            continue;
+        };
+        let extra_filled = fields.iter().skip(names.len()).any(|f| !f.is_empty());
+        if fields.len() < names.len() || extra_filled {
+            diags.error(
+                Location::line(file, line),
+                format!(
+                    "this row has {} fields but the header has {}",
+                    fields.len(),
+                    names.len()
+                ),
+                "give every row one field per header column (an empty field means the default); \
+                 quote fields that contain commas",
+            );
+            records.refused.push(Row { line, fields });
+        } else if cells_ok {
+            records.rows.push(Row { line, fields });
+        } else {
+            records.refused.push(Row { line, fields });
+        }
+    }
+    Some(records)
+}
+
+/// A record's fields as text, and whether every one was readable (a field over several lines
+/// or not UTF-8 is reported and read as empty).
+fn record_fields(
+    record: &csv::ByteRecord,
+    line: u64,
+    file: &str,
+    diags: &mut Diagnostics,
+) -> (Vec<String>, bool) {
+    let mut fields = Vec::with_capacity(record.len());
+    let mut cells_ok = true;
+    for (i, raw) in record.iter().enumerate() {
+        if raw.iter().any(|&b| b == b'\n' || b == b'\r') {
+            diags.error(
+                Location::cell(file, line, i as u64 + 1),
+                "a quoted field runs over several lines",
+                "close the quote on the line where it opens; network files keep one row per line",
+            );
+            cells_ok = false;
+            fields.push(String::new());
+            continue;
+        }
+        match std::str::from_utf8(raw) {
+            Ok(text) => fields.push(text.to_string()),
+            Err(_) => {
+                diags.error(
+                    Location::cell(file, line, i as u64 + 1),
+                    "the text is not valid UTF-8",
+                    "save the file with UTF-8 encoding",
+                );
+                cells_ok = false;
+                fields.push(String::new());
             }
         }
     }
+    (fields, cells_ok)
+}
 
-    let Some((header_line, names)) = header else {
-        diags.error(
-            Location::file(file),
-            "the file is empty",
-            format!(
-                "start the file with a header row naming its columns, at least: {}",
-                spec.required.join(", ")
-            ),
-        );
-        return None;
-    };
-
+/// The header's columns by lower-case name; a column named twice or a required one missing is
+/// an error (`None`), columns the reader does not use are noted as ignored.
+fn header_columns(
+    names: &[String],
+    header_line: u64,
+    file: &str,
+    spec: &TableSpec<'_>,
+    diags: &mut Diagnostics,
+) -> Option<HashMap<String, usize>> {
     let mut columns = HashMap::new();
     let mut unknown = Vec::new();
     let mut ok = true;
@@ -588,15 +645,7 @@ pub fn parse_table(
             ),
         );
     }
-    if !ok {
-        return None;
-    }
-    Some(Table {
-        file: file.to_string(),
-        columns,
-        rows,
-        refused,
-    })
+    ok.then_some(columns)
 }
 
 /// Whether the file's lines end with lone CRs: a CR not followed by LF, and no LF at all.
