@@ -942,18 +942,29 @@ impl<'n> Hydraulics<'n> {
 
     /// Assembles the junction system of the step: the right-hand side and, when a new
     /// factorization is needed, the matrix values; also each link's conductance and the
-    /// known part of its flow change.
+    /// known part of its flow change. In three passes: the junctions' own terms, the links',
+    /// then the rows of pinned junctions.
     fn assemble_step(&self, ws: &mut Workspace, it: &Iterate) {
-        let nj = self.n_junctions;
-        let nl = self.ends.len();
-        let (heads, flows, states) = (&it.heads, &it.flows, &it.states);
-        let need_factor = it.need_factor;
-        // The step of every fixed node: a pinned junction moves to its target in this step,
-        // sources stay where they are.
+        let any_pinned = self.junction_terms(ws, it);
+        if it.need_factor {
+            ws.values.iter_mut().for_each(|v| *v = 0.0);
+            ws.floored = false;
+        }
+        self.link_terms(ws, it, any_pinned);
+        self.fixed_rows(ws, it.need_factor, any_pinned);
+    }
+
+    /// Each junction's demand into the right-hand side (its pressure-dependent outflow and
+    /// slope at the current head, in such a solve), and the step of every fixed node: a pinned
+    /// junction moves to its target in this step, sources stay where they are. Returns whether
+    /// any junction is pinned (most solves pin nothing: then the pinned rows need no pass of
+    /// their own).
+    #[inline]
+    fn junction_terms(&self, ws: &mut Workspace, it: &Iterate) -> bool {
+        let heads = &it.heads;
         let pdd = ws.pdd;
-        // Most solves pin nothing: then the pinned rows need no pass of their own.
         let mut any_pinned = false;
-        for j in 0..nj {
+        for j in 0..self.n_junctions {
             ws.node_step[j] = match ws.pinned[j] {
                 Some(target) => {
                     any_pinned = true;
@@ -963,52 +974,33 @@ impl<'n> Hydraulics<'n> {
             };
             if let Some(pdd) = &pdd {
                 // Pressure-dependent outflow at the current head (see
-                // `solve_pressure_dependent`); its slope joins the diagonal below.
+                // `solve_pressure_dependent`); its slope joins the diagonal in `fixed_rows`.
                 let (q, slope) = self.delivered_at(pdd, ws.asked[j], j, heads[j]);
                 ws.demand[j] = q;
                 ws.outflow_slope[j] = slope;
             }
             ws.rhs[self.row_of[j]] = -ws.demand[j];
         }
-        if need_factor {
-            ws.values.iter_mut().for_each(|v| *v = 0.0);
-            ws.floored = false;
-        }
+        any_pinned
+    }
+
+    /// One pass over the links: conductance g, the known part k of the flow change, the
+    /// continuity residual and the known changes into the right-hand side, and (when
+    /// refactoring) the matrix values.
+    #[inline]
+    fn link_terms(&self, ws: &mut Workspace, it: &Iterate, any_pinned: bool) {
+        let need_factor = it.need_factor;
         // Slopes are floored in the solves of a fire-flow search only: a steady state reported
         // as such (tolerance STEADY) and a pressure-dependent one, whose damped step needs
         // Newton's own direction, keep Newton's matrix.
-        let floor_slopes = pdd.is_none() && ws.tolerance.head_m > Tolerance::STEADY.head_m;
-        // One pass over the links: conductance g, the known part k of the flow change, the
-        // continuity residual and the known changes into the right-hand side, and (when
-        // refactoring) the matrix values.
-        for i in 0..nl {
+        let floor_slopes = ws.pdd.is_none() && ws.tolerance.head_m > Tolerance::STEADY.head_m;
+        for i in 0..self.ends.len() {
             let (a, b) = self.ends[i];
-            let q = flows[i];
+            let q = it.flows[i];
             let (g, k) = if a == b {
                 (0.0, -q)
             } else {
-                match states[i] {
-                    st if st.conducts() => {
-                        let (phi, slope) = self.laws[i].evaluate_with(q, &mut ws.memo[i]);
-                        let g = if need_factor {
-                            let matrix_slope = if floor_slopes {
-                                self.floored_slope(i, q, slope, ws.flow_step[i])
-                            } else {
-                                slope
-                            };
-                            ws.floored |= matrix_slope > slope;
-                            1.0 / matrix_slope
-                        } else {
-                            ws.g_factored[i]
-                        };
-                        (g, -g * (phi - (heads[a] - heads[b])))
-                    }
-                    LinkState::Regulating => match self.valve_kinds[i] {
-                        Some(ValveKind::Fcv) => (0.0, self.settings[i] - q),
-                        _ => (0.0, 0.0),
-                    },
-                    _ => (0.0, -q),
-                }
+                self.conductance_and_known(ws, it, i, need_factor, floor_slopes)
             };
             if need_factor {
                 ws.g_factored[i] = g;
@@ -1042,15 +1034,59 @@ impl<'n> Hydraulics<'n> {
                 }
             }
         }
-        if need_factor && pdd.is_some() {
-            for j in 0..nj {
+    }
+
+    /// Link `i`'s conductance g in the step's matrix (a new one when refactoring, else the one
+    /// factorized) and the known part k of its flow change, by its state: a conducting link's
+    /// energy residual, a regulating FCV's distance to its setting, a closed link's flow.
+    #[inline(always)]
+    fn conductance_and_known(
+        &self,
+        ws: &mut Workspace,
+        it: &Iterate,
+        i: usize,
+        need_factor: bool,
+        floor_slopes: bool,
+    ) -> (f64, f64) {
+        let (a, b) = self.ends[i];
+        let q = it.flows[i];
+        match it.states[i] {
+            st if st.conducts() => {
+                let (phi, slope) = self.laws[i].evaluate_with(q, &mut ws.memo[i]);
+                let g = if need_factor {
+                    let matrix_slope = if floor_slopes {
+                        self.floored_slope(i, q, slope, ws.flow_step[i])
+                    } else {
+                        slope
+                    };
+                    ws.floored |= matrix_slope > slope;
+                    1.0 / matrix_slope
+                } else {
+                    ws.g_factored[i]
+                };
+                (g, -g * (phi - (it.heads[a] - it.heads[b])))
+            }
+            LinkState::Regulating => match self.valve_kinds[i] {
+                Some(ValveKind::Fcv) => (0.0, self.settings[i] - q),
+                _ => (0.0, 0.0),
+            },
+            _ => (0.0, -q),
+        }
+    }
+
+    /// The rows the link pass leaves to the junctions: a pressure-dependent outflow's slope on
+    /// its diagonal, and each pinned junction's identity row with its step as right-hand side.
+    #[inline]
+    fn fixed_rows(&self, ws: &mut Workspace, need_factor: bool, any_pinned: bool) {
+        if need_factor && ws.pdd.is_some() {
+            for j in 0..self.n_junctions {
                 ws.values[self.diag_slot[j]] += ws.outflow_slope[j];
             }
         }
         if !any_pinned {
             return;
         }
-        for j in 0..nj {
+        for j in 0..self.n_junctions {
             if ws.pinned[j].is_some() {
                 ws.rhs[self.row_of[j]] = ws.node_step[j];
                 if need_factor {
