@@ -118,84 +118,107 @@ pub fn next_state(link: &Link, v: &LinkView) -> LinkState {
         LinkKind::Valve(valve) => {
             let open_loss = |q: f64| (v.open_loss)(link, q);
             match valve.kind {
-                ValveKind::Prv => match v.state {
-                    LinkState::Regulating => {
-                        if q < -SWITCH_FLOW_TOL_M3S {
-                            LinkState::Closed
-                        } else if hf < v.setting + open_loss(q) - SWITCH_HEAD_TOL_M {
-                            LinkState::Open
-                        } else {
-                            LinkState::Regulating
-                        }
-                    }
-                    LinkState::Open => {
-                        if q < -SWITCH_FLOW_TOL_M3S {
-                            LinkState::Closed
-                        } else if ht > v.setting + SWITCH_HEAD_TOL_M {
-                            LinkState::Regulating
-                        } else {
-                            LinkState::Open
-                        }
-                    }
-                    LinkState::Closed => {
-                        if hf > ht + SWITCH_HEAD_TOL_M && ht < v.setting - SWITCH_HEAD_TOL_M {
-                            if hf > v.setting + SWITCH_HEAD_TOL_M {
-                                LinkState::Regulating
-                            } else {
-                                LinkState::Open
-                            }
-                        } else {
-                            LinkState::Closed
-                        }
-                    }
-                    s => s,
-                },
-                ValveKind::Psv => match v.state {
-                    LinkState::Regulating => {
-                        if q < -SWITCH_FLOW_TOL_M3S {
-                            LinkState::Closed
-                        } else if ht + open_loss(q) > v.setting + SWITCH_HEAD_TOL_M {
-                            LinkState::Open
-                        } else {
-                            LinkState::Regulating
-                        }
-                    }
-                    LinkState::Open => {
-                        if q < -SWITCH_FLOW_TOL_M3S {
-                            LinkState::Closed
-                        } else if hf < v.setting - SWITCH_HEAD_TOL_M {
-                            LinkState::Regulating
-                        } else {
-                            LinkState::Open
-                        }
-                    }
-                    LinkState::Closed => {
-                        if hf > v.setting + SWITCH_HEAD_TOL_M && hf > ht + SWITCH_HEAD_TOL_M {
-                            if ht < v.setting - SWITCH_HEAD_TOL_M {
-                                LinkState::Regulating
-                            } else {
-                                LinkState::Open
-                            }
-                        } else {
-                            LinkState::Closed
-                        }
-                    }
-                    s => s,
-                },
-                ValveKind::Fcv => match v.state {
-                    LinkState::Regulating => {
-                        if hf - ht < open_loss(v.setting) - SWITCH_HEAD_TOL_M {
-                            LinkState::Open
-                        } else {
-                            LinkState::Regulating
-                        }
-                    }
-                    LinkState::Open if q > v.setting + SWITCH_FLOW_TOL_M3S => LinkState::Regulating,
-                    s => s,
-                },
+                ValveKind::Prv => prv_next_state(v, open_loss),
+                ValveKind::Psv => psv_next_state(v, open_loss),
+                ValveKind::Fcv => fcv_next_state(v, open_loss),
                 ValveKind::Throttle => v.state,
             }
         }
+    }
+}
+
+/// A PRV's next state: closed on reverse flow; regulating while its downstream head would
+/// exceed the setting; open when the upstream head cannot reach the setting plus its own loss;
+/// a closed one reopens when the upstream head exceeds a downstream head below the setting.
+fn prv_next_state(v: &LinkView, open_loss: impl Fn(f64) -> f64) -> LinkState {
+    let (ht, hf, q) = (v.head_to, v.head_from, v.flow);
+    match v.state {
+        LinkState::Regulating => {
+            if q < -SWITCH_FLOW_TOL_M3S {
+                LinkState::Closed
+            } else if hf < v.setting + open_loss(q) - SWITCH_HEAD_TOL_M {
+                LinkState::Open
+            } else {
+                LinkState::Regulating
+            }
+        }
+        LinkState::Open => {
+            if q < -SWITCH_FLOW_TOL_M3S {
+                LinkState::Closed
+            } else if ht > v.setting + SWITCH_HEAD_TOL_M {
+                LinkState::Regulating
+            } else {
+                LinkState::Open
+            }
+        }
+        LinkState::Closed => {
+            if hf > ht + SWITCH_HEAD_TOL_M && ht < v.setting - SWITCH_HEAD_TOL_M {
+                if hf > v.setting + SWITCH_HEAD_TOL_M {
+                    LinkState::Regulating
+                } else {
+                    LinkState::Open
+                }
+            } else {
+                LinkState::Closed
+            }
+        }
+        s => s,
+    }
+}
+
+/// A PSV's next state: closed on reverse flow; regulating while its upstream head would fall
+/// below the setting; open when the downstream head plus its own loss exceeds the setting; a
+/// closed one reopens when its upstream head exceeds both the setting and the downstream head.
+fn psv_next_state(v: &LinkView, open_loss: impl Fn(f64) -> f64) -> LinkState {
+    let (ht, hf, q) = (v.head_to, v.head_from, v.flow);
+    match v.state {
+        LinkState::Regulating => {
+            if q < -SWITCH_FLOW_TOL_M3S {
+                LinkState::Closed
+            } else if ht + open_loss(q) > v.setting + SWITCH_HEAD_TOL_M {
+                LinkState::Open
+            } else {
+                LinkState::Regulating
+            }
+        }
+        LinkState::Open => {
+            if q < -SWITCH_FLOW_TOL_M3S {
+                LinkState::Closed
+            } else if hf < v.setting - SWITCH_HEAD_TOL_M {
+                LinkState::Regulating
+            } else {
+                LinkState::Open
+            }
+        }
+        LinkState::Closed => {
+            if hf > v.setting + SWITCH_HEAD_TOL_M && hf > ht + SWITCH_HEAD_TOL_M {
+                if ht < v.setting - SWITCH_HEAD_TOL_M {
+                    LinkState::Regulating
+                } else {
+                    LinkState::Open
+                }
+            } else {
+                LinkState::Closed
+            }
+        }
+        s => s,
+    }
+}
+
+/// An FCV's next state: regulating while the flow would exceed the setting, open when the
+/// head across it cannot drive the setting through the open valve.
+fn fcv_next_state(v: &LinkView, open_loss: impl Fn(f64) -> f64) -> LinkState {
+    let (ht, hf, q) = (v.head_to, v.head_from, v.flow);
+    match v.state {
+        LinkState::Regulating => {
+            if hf - ht < open_loss(v.setting) - SWITCH_HEAD_TOL_M {
+                LinkState::Open
+            } else {
+                LinkState::Regulating
+            }
+        }
+        LinkState::Open if q > v.setting + SWITCH_FLOW_TOL_M3S => LinkState::Regulating,
+        s => s,
     }
 }
 
