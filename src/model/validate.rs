@@ -7,7 +7,7 @@
 use std::collections::BTreeMap;
 
 use super::diagnostic::{Diagnostics, Location};
-use super::network::{HeadlossFormula, LinkKind, Network, PipeStatus};
+use super::network::{HeadlossFormula, Link, LinkKind, Network, Pipe, PipeStatus};
 use crate::units::{display_value, Quantity, UnitSystem};
 
 /// Hazen-Williams C outside this range is implausible (common practice, no source: new plastic
@@ -103,12 +103,10 @@ fn check_connectivity(net: &Network, diags: &mut Diagnostics) {
     }
 }
 
+/// Warns about link diameters in what looks like the wrong unit, and about each pipe's
+/// roughness, length and ends (common practice: none of these is an error, but each is a
+/// frequent slip of a spreadsheet or a GIS export).
 fn check_pipes(net: &Network, diags: &mut Diagnostics) {
-    let units = net.units;
-    let (lo, hi) = match units {
-        UnitSystem::Us => PLAUSIBLE_DIAMETER_IN,
-        UnitSystem::Si => PLAUSIBLE_DIAMETER_MM,
-    };
     for link in &net.links {
         let file = match link.kind {
             LinkKind::Pipe(_) => "pipes.csv",
@@ -116,62 +114,11 @@ fn check_pipes(net: &Network, diags: &mut Diagnostics) {
             LinkKind::Valve(_) => "valves.csv",
         };
         let loc = Location::line(file, link.line);
-        if let Some(d) = link.diameter_m() {
-            let shown = units.from_si(Quantity::Diameter, d);
-            if shown < lo || shown > hi {
-                diags.warning(
-                    loc.clone(),
-                    format!(
-                        "{} `{}`: diameter {} {} looks like the wrong unit (plausible {lo}-{hi}; common practice)",
-                        link.kind_name(),
-                        link.id,
-                        display_value(shown),
-                        units.symbol(Quantity::Diameter)
-                    ),
-                    format!(
-                        "diameters are in {} for units = \"{}\"",
-                        units.symbol(Quantity::Diameter),
-                        units.name()
-                    ),
-                );
-            }
-        }
+        check_diameter_unit(net.units, link, &loc, diags);
         let LinkKind::Pipe(pipe) = &link.kind else {
             continue;
         };
-        match net.headloss {
-            HeadlossFormula::HazenWilliams => {
-                let (clo, chi) = PLAUSIBLE_HW_C;
-                if pipe.roughness < clo || pipe.roughness > chi {
-                    diags.warning(
-                        loc.clone(),
-                        format!(
-                            "pipe `{}`: Hazen-Williams C = {} is outside the plausible {clo}-{chi} (common practice)",
-                            link.id,
-                            display_value(pipe.roughness)
-                        ),
-                        "check the C factor; new PVC is about 150, old unlined cast iron 60-100",
-                    );
-                }
-            }
-            HeadlossFormula::DarcyWeisbach => {
-                if pipe.roughness > PLAUSIBLE_RELATIVE_ROUGHNESS * pipe.diameter_m {
-                    diags.warning(
-                        loc.clone(),
-                        format!(
-                            "pipe `{}`: roughness {} {} is more than 5 % of the diameter (common practice)",
-                            link.id,
-                            display_value(units.from_si(Quantity::Diameter, pipe.roughness)),
-                            units.symbol(Quantity::Diameter)
-                        ),
-                        format!(
-                            "Darcy-Weisbach roughness is in {}, the diameter unit",
-                            units.symbol(Quantity::Diameter)
-                        ),
-                    );
-                }
-            }
-        }
+        check_roughness(net, link, pipe, &loc, diags);
         // A zero length without a minor loss is refused when the file is read.
         if pipe.length_m == 0.0 {
             diags.warning(
@@ -189,6 +136,80 @@ fn check_pipes(net: &Network, diags: &mut Diagnostics) {
                 ),
                 "check the from and to ids",
             );
+        }
+    }
+}
+
+/// A diameter outside the plausible range of its unit is most often one given in the other
+/// unit system (common practice).
+fn check_diameter_unit(units: UnitSystem, link: &Link, loc: &Location, diags: &mut Diagnostics) {
+    let (lo, hi) = match units {
+        UnitSystem::Us => PLAUSIBLE_DIAMETER_IN,
+        UnitSystem::Si => PLAUSIBLE_DIAMETER_MM,
+    };
+    let Some(d) = link.diameter_m() else {
+        return;
+    };
+    let shown = units.from_si(Quantity::Diameter, d);
+    if shown < lo || shown > hi {
+        diags.warning(
+            loc.clone(),
+            format!(
+                "{} `{}`: diameter {} {} looks like the wrong unit (plausible {lo}-{hi}; common practice)",
+                link.kind_name(),
+                link.id,
+                display_value(shown),
+                units.symbol(Quantity::Diameter)
+            ),
+            format!(
+                "diameters are in {} for units = \"{}\"",
+                units.symbol(Quantity::Diameter),
+                units.name()
+            ),
+        );
+    }
+}
+
+/// A pipe's roughness against the plausible range of the network's head-loss formula.
+fn check_roughness(
+    net: &Network,
+    link: &Link,
+    pipe: &Pipe,
+    loc: &Location,
+    diags: &mut Diagnostics,
+) {
+    let units = net.units;
+    match net.headloss {
+        HeadlossFormula::HazenWilliams => {
+            let (clo, chi) = PLAUSIBLE_HW_C;
+            if pipe.roughness < clo || pipe.roughness > chi {
+                diags.warning(
+                    loc.clone(),
+                    format!(
+                        "pipe `{}`: Hazen-Williams C = {} is outside the plausible {clo}-{chi} (common practice)",
+                        link.id,
+                        display_value(pipe.roughness)
+                    ),
+                    "check the C factor; new PVC is about 150, old unlined cast iron 60-100",
+                );
+            }
+        }
+        HeadlossFormula::DarcyWeisbach => {
+            if pipe.roughness > PLAUSIBLE_RELATIVE_ROUGHNESS * pipe.diameter_m {
+                diags.warning(
+                    loc.clone(),
+                    format!(
+                        "pipe `{}`: roughness {} {} is more than 5 % of the diameter (common practice)",
+                        link.id,
+                        display_value(units.from_si(Quantity::Diameter, pipe.roughness)),
+                        units.symbol(Quantity::Diameter)
+                    ),
+                    format!(
+                        "Darcy-Weisbach roughness is in {}, the diameter unit",
+                        units.symbol(Quantity::Diameter)
+                    ),
+                );
+            }
         }
     }
 }
