@@ -2,11 +2,15 @@
 
 use serde::Serialize;
 
-use super::CheckReport;
+use super::{CheckReport, FieldTestSummary};
 use crate::criteria::Scope;
-use crate::fireflow::{Outcome, SweepStats};
-use crate::report::{JsonInputWarning, ReportError, CAUTIONS};
+use crate::fireflow::delivered::{DeliveredState, ShortJunction};
+use crate::fireflow::supply_paths::PipeShare;
+use crate::fireflow::{HydrantResult, Outcome, SweepStats};
+use crate::report::{JsonInputWarning, Out, ReportError, CAUTIONS};
+use crate::service::ServiceRow;
 use crate::units::Quantity;
+use crate::weakmains::WeakMain;
 
 /// Version of the layout of `report.json`; raised on any incompatible change.
 pub const JSON_SCHEMA_VERSION: u32 = 1;
@@ -14,155 +18,32 @@ pub const JSON_SCHEMA_VERSION: u32 = 1;
 impl CheckReport<'_> {
     /// `report.json`: everything above, machine-readable.
     pub fn json(&self, stats: Option<&SweepStats>) -> Result<Vec<u8>, ReportError> {
-        let o = self.out();
-        let flow = |q: Option<f64>| q.map(|q| round(o.flow(q), 4));
-        let pressure = |p: Option<f64>| p.map(|p| round(o.pressure(p), 4));
         let doc = JsonReport {
             schema_version: JSON_SCHEMA_VERSION,
             generator: format!("firemain {}", self.version),
             generated: self.generated.clone(),
             run_id: self.run_id.clone(),
-            units: JsonUnits {
-                flow: o.sym(Quantity::Flow),
-                pressure: o.sym(Quantity::Pressure),
-                length: o.sym(Quantity::Length),
-                velocity: o.sym(Quantity::Velocity),
-            },
+            units: JsonUnits::of(self.out()),
             network: self.network.name.clone(),
-            criteria: JsonCriteria {
-                name: self.criteria.name.clone(),
-                reference: self.criteria.reference.clone(),
-                residual_floor: round(o.pressure(self.criteria.residual_floor_kpa), 4),
-                scope: self.criteria.scope,
-                search_cap: round(o.flow(self.criteria.search_cap_m3s), 4),
-                max_velocity: self
-                    .criteria
-                    .max_velocity_m_per_s
-                    .map(|v| round(o.velocity(v), 4)),
-                service_min_pressure: round(o.pressure(self.criteria.service_min_kpa), 4),
-                service_max_pressure: round(o.pressure(self.criteria.service_max_kpa), 4),
-                pressure_dependent: self.criteria.pressure_dependent.map(|pd| JsonPddCriteria {
-                    minimum: round(o.pressure(pd.minimum_kpa), 4),
-                    service: round(o.pressure(pd.service_kpa), 4),
-                    modes: "available_flow, residual_pressure, min_pressure and supply_paths are demand-driven; pressure_dependent_at_required_flow is pressure-dependent, and weak_mains are ranked from it",
-                }),
-            },
-            demand_factors: JsonDemand {
-                max_day: self.network.demand_factors.max_day,
-                peak_hour: self.service.peak_hour_factor,
-                low_demand_condition: self.service.low_condition.name(),
-                low_demand: self.service.low_demand_factor,
-            },
-            summary: JsonSummary {
-                hydrants: self.results.len(),
-                pass: self.count(Outcome::Pass),
-                fail: self.count(Outcome::Fail),
-                error: self.count(Outcome::Error),
-                service_exceptions: self.service.exceptions().count(),
-                partial: self.partial,
-            },
+            criteria: self.json_criteria(),
+            demand_factors: self.json_demand_factors(),
+            summary: self.json_summary(),
             input_warnings: self.input_warnings.iter().map(Into::into).collect(),
-            field_tests: self.field_tests.map(|f| JsonFieldTests {
-                file: f.file.clone(),
-                tests: f.tests,
-                rms_static_misfit: round(o.pressure(f.rms_static_kpa), 4),
-                rms_residual_misfit: round(o.pressure(f.rms_residual_kpa), 4),
-                worst_test: f.worst.as_ref().map(|(id, _)| id.clone()),
-                worst_residual_misfit: f.worst.as_ref().map(|(_, d)| round(o.pressure(*d), 4)),
-            }),
-            hydrants: self
-                .results
-                .iter()
-                .map(|r| JsonHydrant {
-                    hydrant: self.hydrant_id(r).to_string(),
-                    junction: self.network.nodes[r.junction].id.clone(),
-                    zone: self.network.zone_name(r.junction).map(str::to_string),
-                    requirement: self.required_label(r),
-                    required_flow: round(o.flow(r.required_m3s), 4),
-                    available_flow: flow(r.available_m3s),
-                    static_pressure: pressure(r.static_kpa),
-                    residual_pressure: pressure(r.residual_kpa),
-                    min_pressure: pressure(r.min_pressure_kpa),
-                    min_pressure_junction: r
-                        .min_pressure_junction
-                        .map(|j| self.network.nodes[j].id.clone()),
-                    critical_junction: r
-                        .critical_junction
-                        .map(|j| self.network.nodes[j].id.clone()),
-                    critical_pipe: r.critical_link.map(|i| self.network.links[i].id.clone()),
-                    limited_by: r.limited_by.map(|l| l.name()),
-                    result: r.outcome.name(),
-                    notes: r.notes.iter().map(|n| self.note_text(n)).collect(),
-                    supply_paths: r
-                        .supply_paths
-                        .iter()
-                        .map(|p| JsonShare {
-                            pipe: self.network.links[p.link].id.clone(),
-                            share: round(p.share, 4),
-                            unit_headloss: round(p.unit_headloss, 4),
-                            velocity: round(o.velocity(p.velocity_m_per_s), 4),
-                        })
-                        .collect(),
-                    pressure_dependent_at_required_flow: r.delivered.as_ref().map(|d| {
-                        let (volume, volume_unit) = o.hourly_volume(d.customer_shortfall_m3s);
-                        JsonDelivered {
-                            mode: "pressure-dependent",
-                            fire_flow_delivered: round(o.flow(d.fire_flow_m3s), 4),
-                            hydrant_pressure: round(o.pressure(d.hydrant_kpa), 4),
-                            min_customer_pressure: d
-                                .min_customer_kpa
-                                .map(|(_, p)| round(o.pressure(p), 4)),
-                            min_customer_junction: d
-                                .min_customer_kpa
-                                .map(|(j, _)| self.network.nodes[j].id.clone()),
-                            customer_shortfall: round(o.flow(d.customer_shortfall_m3s), 4),
-                            customer_volume_short_per_hour: volume,
-                            volume_unit,
-                            junctions_losing_service: d
-                                .short
-                                .iter()
-                                .map(|j| JsonShort {
-                                    junction: self.network.nodes[j.junction].id.clone(),
-                                    asked: round(o.flow(j.asked_m3s), 4),
-                                    delivered: round(o.flow(j.delivered_m3s), 4),
-                                    pressure: round(o.pressure(j.pressure_kpa), 4),
-                                })
-                                .collect(),
-                        }
-                    }),
-                })
-                .collect(),
+            field_tests: self.field_tests.map(|f| JsonFieldTests::of(f, self.out())),
+            hydrants: self.results.iter().map(|r| self.json_hydrant(r)).collect(),
             service: self
                 .service
                 .rows
                 .iter()
-                .map(|r| JsonService {
-                    junction: self.network.nodes[r.junction].id.clone(),
-                    zone: self.network.zone_name(r.junction).map(str::to_string),
-                    pressure_peak_hour: pressure(r.peak_hour_kpa),
-                    pressure_low_demand: pressure(r.low_demand_kpa),
-                    result: r.result.name(),
-                })
+                .map(|r| self.json_service(r))
                 .collect(),
             weak_mains: self
                 .weak_mains
                 .iter()
-                .map(|w| JsonWeakMain {
-                    pipe: self.network.links[w.link].id.clone(),
-                    hydrants_limited: w.hydrants_limited,
-                    worst_share: round(w.worst_share, 4),
-                    worst_unit_headloss: round(w.worst_unit_headloss, 4),
-                    max_velocity: round(o.velocity(w.max_velocity_m_per_s), 4),
-                    reasons: w.reasons.iter().map(|r| self.reason_text(r)).collect(),
-                })
+                .map(|w| self.json_weak_main(w))
                 .collect(),
             service_notes: self.service_notes(),
-            sweep: stats.map(|s| JsonStats {
-                solves: s.solves,
-                factorizations: s.factorizations,
-                factorizations_per_hydrant_mean: round(s.factorizations_per_hydrant_mean, 3),
-                factorizations_per_hydrant_max: s.factorizations_per_hydrant_max,
-            }),
+            sweep: stats.map(JsonStats::of),
             cautions: CAUTIONS.to_vec(),
         };
         serde_json::to_vec_pretty(&doc).map_err(|e| ReportError::Render {
@@ -170,6 +51,187 @@ impl CheckReport<'_> {
             message: e.to_string(),
         })
     }
+
+    /// The criteria in the report's units.
+    fn json_criteria(&self) -> JsonCriteria {
+        let o = self.out();
+        JsonCriteria {
+            name: self.criteria.name.clone(),
+            reference: self.criteria.reference.clone(),
+            residual_floor: round(o.pressure(self.criteria.residual_floor_kpa), 4),
+            scope: self.criteria.scope,
+            search_cap: round(o.flow(self.criteria.search_cap_m3s), 4),
+            max_velocity: self
+                .criteria
+                .max_velocity_m_per_s
+                .map(|v| round(o.velocity(v), 4)),
+            service_min_pressure: round(o.pressure(self.criteria.service_min_kpa), 4),
+            service_max_pressure: round(o.pressure(self.criteria.service_max_kpa), 4),
+            pressure_dependent: self.criteria.pressure_dependent.map(|pd| JsonPddCriteria {
+                minimum: round(o.pressure(pd.minimum_kpa), 4),
+                service: round(o.pressure(pd.service_kpa), 4),
+                modes: "available_flow, residual_pressure, min_pressure and supply_paths are demand-driven; pressure_dependent_at_required_flow is pressure-dependent, and weak_mains are ranked from it",
+            }),
+        }
+    }
+
+    fn json_demand_factors(&self) -> JsonDemand {
+        JsonDemand {
+            max_day: self.network.demand_factors.max_day,
+            peak_hour: self.service.peak_hour_factor,
+            low_demand_condition: self.service.low_condition.name(),
+            low_demand: self.service.low_demand_factor,
+        }
+    }
+
+    fn json_summary(&self) -> JsonSummary {
+        JsonSummary {
+            hydrants: self.results.len(),
+            pass: self.count(Outcome::Pass),
+            fail: self.count(Outcome::Fail),
+            error: self.count(Outcome::Error),
+            service_exceptions: self.service.exceptions().count(),
+            partial: self.partial,
+        }
+    }
+
+    /// One hydrant's result, with its supply paths and pressure-dependent state when it fails.
+    fn json_hydrant(&self, r: &HydrantResult) -> JsonHydrant {
+        let o = self.out();
+        JsonHydrant {
+            hydrant: self.hydrant_id(r).to_string(),
+            junction: self.network.nodes[r.junction].id.clone(),
+            zone: self.network.zone_name(r.junction).map(str::to_string),
+            requirement: self.required_label(r),
+            required_flow: round(o.flow(r.required_m3s), 4),
+            available_flow: optional_flow(o, r.available_m3s),
+            static_pressure: optional_pressure(o, r.static_kpa),
+            residual_pressure: optional_pressure(o, r.residual_kpa),
+            min_pressure: optional_pressure(o, r.min_pressure_kpa),
+            min_pressure_junction: r
+                .min_pressure_junction
+                .map(|j| self.network.nodes[j].id.clone()),
+            critical_junction: r
+                .critical_junction
+                .map(|j| self.network.nodes[j].id.clone()),
+            critical_pipe: r.critical_link.map(|i| self.network.links[i].id.clone()),
+            limited_by: r.limited_by.map(|l| l.name()),
+            result: r.outcome.name(),
+            notes: r.notes.iter().map(|n| self.note_text(n)).collect(),
+            supply_paths: r.supply_paths.iter().map(|p| self.json_share(p)).collect(),
+            pressure_dependent_at_required_flow: r
+                .delivered
+                .as_ref()
+                .map(|d| self.json_delivered(d)),
+        }
+    }
+
+    /// A supply-path pipe of a failing hydrant.
+    fn json_share(&self, p: &PipeShare) -> JsonShare {
+        JsonShare {
+            pipe: self.network.links[p.link].id.clone(),
+            share: round(p.share, 4),
+            unit_headloss: round(p.unit_headloss, 4),
+            velocity: round(self.out().velocity(p.velocity_m_per_s), 4),
+        }
+    }
+
+    /// A failing hydrant's state at its required flow with pressure-dependent demands.
+    fn json_delivered(&self, d: &DeliveredState) -> JsonDelivered {
+        let o = self.out();
+        let (volume, volume_unit) = o.hourly_volume(d.customer_shortfall_m3s);
+        JsonDelivered {
+            mode: "pressure-dependent",
+            fire_flow_delivered: round(o.flow(d.fire_flow_m3s), 4),
+            hydrant_pressure: round(o.pressure(d.hydrant_kpa), 4),
+            min_customer_pressure: d.min_customer_kpa.map(|(_, p)| round(o.pressure(p), 4)),
+            min_customer_junction: d
+                .min_customer_kpa
+                .map(|(j, _)| self.network.nodes[j].id.clone()),
+            customer_shortfall: round(o.flow(d.customer_shortfall_m3s), 4),
+            customer_volume_short_per_hour: volume,
+            volume_unit,
+            junctions_losing_service: d.short.iter().map(|j| self.json_short(j)).collect(),
+        }
+    }
+
+    /// A junction that loses service in the pressure-dependent state.
+    fn json_short(&self, j: &ShortJunction) -> JsonShort {
+        let o = self.out();
+        JsonShort {
+            junction: self.network.nodes[j.junction].id.clone(),
+            asked: round(o.flow(j.asked_m3s), 4),
+            delivered: round(o.flow(j.delivered_m3s), 4),
+            pressure: round(o.pressure(j.pressure_kpa), 4),
+        }
+    }
+
+    fn json_service(&self, r: &ServiceRow) -> JsonService {
+        let o = self.out();
+        JsonService {
+            junction: self.network.nodes[r.junction].id.clone(),
+            zone: self.network.zone_name(r.junction).map(str::to_string),
+            pressure_peak_hour: optional_pressure(o, r.peak_hour_kpa),
+            pressure_low_demand: optional_pressure(o, r.low_demand_kpa),
+            result: r.result.name(),
+        }
+    }
+
+    fn json_weak_main(&self, w: &WeakMain) -> JsonWeakMain {
+        JsonWeakMain {
+            pipe: self.network.links[w.link].id.clone(),
+            hydrants_limited: w.hydrants_limited,
+            worst_share: round(w.worst_share, 4),
+            worst_unit_headloss: round(w.worst_unit_headloss, 4),
+            max_velocity: round(self.out().velocity(w.max_velocity_m_per_s), 4),
+            reasons: w.reasons.iter().map(|r| self.reason_text(r)).collect(),
+        }
+    }
+}
+
+impl JsonUnits {
+    fn of(o: Out) -> Self {
+        JsonUnits {
+            flow: o.sym(Quantity::Flow),
+            pressure: o.sym(Quantity::Pressure),
+            length: o.sym(Quantity::Length),
+            velocity: o.sym(Quantity::Velocity),
+        }
+    }
+}
+
+impl JsonFieldTests {
+    fn of(f: &FieldTestSummary, o: Out) -> Self {
+        JsonFieldTests {
+            file: f.file.clone(),
+            tests: f.tests,
+            rms_static_misfit: round(o.pressure(f.rms_static_kpa), 4),
+            rms_residual_misfit: round(o.pressure(f.rms_residual_kpa), 4),
+            worst_test: f.worst.as_ref().map(|(id, _)| id.clone()),
+            worst_residual_misfit: f.worst.as_ref().map(|(_, d)| round(o.pressure(*d), 4)),
+        }
+    }
+}
+
+impl JsonStats {
+    fn of(s: &SweepStats) -> Self {
+        JsonStats {
+            solves: s.solves,
+            factorizations: s.factorizations,
+            factorizations_per_hydrant_mean: round(s.factorizations_per_hydrant_mean, 3),
+            factorizations_per_hydrant_max: s.factorizations_per_hydrant_max,
+        }
+    }
+}
+
+/// A flow in the report's unit, rounded as every JSON number; `null` stays `null`.
+fn optional_flow(o: Out, q: Option<f64>) -> Option<f64> {
+    q.map(|q| round(o.flow(q), 4))
+}
+
+/// A pressure in the report's unit, rounded as every JSON number; `null` stays `null`.
+fn optional_pressure(o: Out, p: Option<f64>) -> Option<f64> {
+    p.map(|p| round(o.pressure(p), 4))
 }
 
 /// Rounds for JSON so that files do not carry solver noise in the last digits.
