@@ -235,6 +235,38 @@ fn write_set(
         return Err(ReportError::OutputIsInput(dir.to_path_buf()));
     }
     let manifest = manifest_name(set.command);
+    let names = checked_names(dir, input_dir, set, &manifest)?;
+    let manifest_bytes = set.manifest_bytes()?;
+    let all = set
+        .files
+        .iter()
+        .map(|f| (f.name.as_str(), f.bytes.as_slice()))
+        .chain(std::iter::once((
+            manifest.as_str(),
+            manifest_bytes.as_slice(),
+        )));
+
+    // Step 1: stage every file.
+    let staged = stage_all(dir, all)?;
+    let stale = stale_files(dir, &manifest, &names);
+
+    // Step 2: put the set in place, or put everything back.
+    let done = put_in_place(dir, &staged, &stale, fail_at)?;
+
+    // Step 3: the set is whole; drop the previous files.
+    remove_backups(&done);
+    sync_folders(&staged);
+    Ok(staged.into_iter().map(|s| s.path).collect())
+}
+
+/// The names of the set's files, each refused unless it is plain, unique, not the manifest's
+/// and outside the network folder.
+fn checked_names<'s>(
+    dir: &Path,
+    input_dir: &Path,
+    set: &'s OutputSet,
+    manifest: &str,
+) -> Result<BTreeSet<&'s str>, ReportError> {
     let mut names = BTreeSet::new();
     for f in &set.files {
         if !is_plain_relative(&f.name) || f.name == manifest || !names.insert(f.name.as_str()) {
@@ -249,20 +281,18 @@ fn write_set(
             }
         }
     }
-    let manifest_bytes = set.manifest_bytes()?;
-    let all = set
-        .files
-        .iter()
-        .map(|f| (f.name.as_str(), f.bytes.as_slice()))
-        .chain(std::iter::once((
-            manifest.as_str(),
-            manifest_bytes.as_slice(),
-        )));
+    Ok(names)
+}
 
-    // Step 1: stage every file.
+/// Step 1: stages every file (name, bytes) under `dir`. On a failure, removes the temporaries
+/// and the folders made so far: no existing file has been touched.
+fn stage_all<'b>(
+    dir: &Path,
+    files: impl IntoIterator<Item = (&'b str, &'b [u8])>,
+) -> Result<Vec<Staged>, ReportError> {
     let mut staged = Vec::new();
     let mut created_dirs = Vec::new();
-    for (name, bytes) in all {
+    for (name, bytes) in files {
         let path = dir.join(name);
         match stage(&path, bytes, &mut created_dirs) {
             Ok(tmp) => staged.push(Staged { tmp, path }),
@@ -280,13 +310,21 @@ fn write_set(
             }
         }
     }
-    let stale = stale_files(dir, &manifest, &names);
+    Ok(staged)
+}
 
-    // Step 2: put the set in place, or put everything back.
+/// Step 2: [`commit`], or on its failure [`roll_back`] and the temporaries removed; the error
+/// then says whether the folder is again as it was. Returns what was done, for step 3.
+fn put_in_place(
+    dir: &Path,
+    staged: &[Staged],
+    stale: &[PathBuf],
+    fail_at: Option<usize>,
+) -> Result<Vec<Done>, ReportError> {
     let mut done = Vec::new();
-    if let Err(e) = commit(&staged, &stale, &mut done, fail_at) {
+    if let Err(e) = commit(staged, stale, &mut done, fail_at) {
         let failures = roll_back(&done);
-        for s in &staged {
+        for s in staged {
             let _ = std::fs::remove_file(&s.tmp);
         }
         let cause = Box::new(e);
@@ -303,10 +341,12 @@ fn write_set(
             }
         });
     }
+    Ok(done)
+}
 
-    // Step 3: the set is whole; drop the previous files.
-    let mut parents = BTreeSet::new();
-    for d in &done {
+/// Step 3: deletes the previous files that step 2 moved aside.
+fn remove_backups(done: &[Done]) {
+    for d in done {
         match d {
             Done::Placed {
                 backup: Some(b), ..
@@ -317,18 +357,21 @@ fn write_set(
             Done::Placed { backup: None, .. } => {}
         }
     }
-    for s in &staged {
+}
+
+/// Make the renames durable where the platform allows opening a folder (best effort).
+fn sync_folders(staged: &[Staged]) {
+    let mut parents = BTreeSet::new();
+    for s in staged {
         if let Some(p) = s.path.parent() {
             parents.insert(p.to_path_buf());
         }
     }
-    // Make the renames durable where the platform allows opening a folder (best effort).
     for p in parents {
         if let Ok(f) = std::fs::File::open(&p) {
             let _ = f.sync_all();
         }
     }
-    Ok(staged.into_iter().map(|s| s.path).collect())
 }
 
 /// A name made only of ordinary components (no root, no `..`, no `.`), not empty.
