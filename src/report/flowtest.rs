@@ -336,9 +336,26 @@ impl FlowTestReport<'_> {
 
     /// flowtest.md.
     pub fn markdown(&self) -> String {
-        let o = self.out();
-        let (pu, qu) = (o.sym(Quantity::Pressure), o.sym(Quantity::Flow));
-        let mut s = format!(
+        let mut s = self.markdown_title();
+        s.push_str(&self.markdown_summary());
+        s.push_str(&self.markdown_tests());
+        s.push_str(&self.markdown_large_misfits());
+        s.push_str(&self.markdown_test_warnings());
+        if let Some((cal, column)) = self.calibration {
+            s.push_str(&self.calibration_markdown(cal, column));
+        }
+        s.push_str(METHOD);
+        s.push_str("\n## Cautions\n\n");
+        for c in CAUTIONS {
+            s.push_str(&format!("- {c}\n"));
+        }
+        s
+    }
+
+    /// The title, and what the report was made from: date, run, version, tests file, source
+    /// levels and the floor the projections use.
+    fn markdown_title(&self) -> String {
+        format!(
             "# Field flow tests: {}\n\nGenerated {} by firemain {} (run {}). Tests: `{}`{}. Projections to a residual floor of {} ({}).\n\n",
             self.network.name,
             super::date_of(&self.generated),
@@ -355,8 +372,12 @@ impl FlowTestReport<'_> {
                 .as_ref()
                 .map(|c| format!("from {c}"))
                 .unwrap_or_else(|| "NFPA 291 §4.2.1 rating pressure".into())
-        );
-        s.push_str(&format!("## Summary\n\n{}.\n\n", self.summary()));
+        )
+    }
+
+    /// The headline and how many tests misfit by more than [`LARGE_MISFIT_KPA`].
+    fn markdown_summary(&self) -> String {
+        let mut s = format!("## Summary\n\n{}.\n\n", self.summary());
         let large = self
             .comparison
             .rows
@@ -367,9 +388,17 @@ impl FlowTestReport<'_> {
             "{large} test(s) misfit by more than {} in static or residual pressure.\n\n",
             self.p(LARGE_MISFIT_KPA)
         ));
-        s.push_str(&format!(
+        s
+    }
+
+    /// One row per test: field and model side by side, the drop, the flows at the floor and
+    /// the class.
+    fn markdown_tests(&self) -> String {
+        let o = self.out();
+        let (pu, qu) = (o.sym(Quantity::Pressure), o.sym(Quantity::Flow));
+        let mut s = format!(
             "## Tests\n\n| test | flow hydrants | Q ({qu}) | static field / model ({pu}) | residual field / model ({pu}) | diff ({pu}) | drop | Q at floor, field / model ({qu}) | class |\n|---|---|---:|---:|---:|---:|---:|---:|---|\n"
-        ));
+        );
         for r in &self.comparison.rows {
             let t = self.test(r);
             s.push_str(&format!(
@@ -396,6 +425,12 @@ impl FlowTestReport<'_> {
                     .unwrap_or_default()
             ));
         }
+        s
+    }
+
+    /// Each test that misfits by more than [`LARGE_MISFIT_KPA`], with the usual causes; empty
+    /// when none does.
+    fn markdown_large_misfits(&self) -> String {
         let hints: Vec<String> = self
             .comparison
             .rows
@@ -406,10 +441,17 @@ impl FlowTestReport<'_> {
                     .map(|h| format!("- {}: {h}.\n", self.test(r).id))
             })
             .collect();
-        if !hints.is_empty() {
-            s.push_str("\n## Large misfits and what usually causes them\n\n");
-            s.push_str(&hints.concat());
+        if hints.is_empty() {
+            return String::new();
         }
+        format!(
+            "\n## Large misfits and what usually causes them\n\n{}",
+            hints.concat()
+        )
+    }
+
+    /// Every warning of every test's reduction; empty when there is none.
+    fn markdown_test_warnings(&self) -> String {
         let warnings: Vec<String> = self
             .comparison
             .rows
@@ -422,19 +464,10 @@ impl FlowTestReport<'_> {
                     .map(move |w| format!("- {id}: {w}.\n"))
             })
             .collect();
-        if !warnings.is_empty() {
-            s.push_str("\n## Test warnings\n\n");
-            s.push_str(&warnings.concat());
+        if warnings.is_empty() {
+            return String::new();
         }
-        if let Some((cal, column)) = self.calibration {
-            s.push_str(&self.calibration_markdown(cal, column));
-        }
-        s.push_str(METHOD);
-        s.push_str("\n## Cautions\n\n");
-        for c in CAUTIONS {
-            s.push_str(&format!("- {c}\n"));
-        }
-        s
+        format!("\n## Test warnings\n\n{}", warnings.concat())
     }
 
     fn calibration_markdown(&self, cal: &Calibration, column: &str) -> String {
