@@ -41,6 +41,15 @@ enum HeadlossName {
     DarcyWeisbach,
 }
 
+impl HeadlossName {
+    fn formula(self) -> HeadlossFormula {
+        match self {
+            HeadlossName::HazenWilliams => HeadlossFormula::HazenWilliams,
+            HeadlossName::DarcyWeisbach => HeadlossFormula::DarcyWeisbach,
+        }
+    }
+}
+
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
 struct DemandTable {
@@ -153,103 +162,26 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
         );
         return Err(diags);
     }
-    let model: Option<(ModelFile, String)> = read_toml(
+    let Some((model, model_text)) = read_model(dir, &mut diags) else {
+        return Err(diags);
+    };
+    let mut reader = Reader::new(model.units, model.headloss.formula(), diags);
+    let demand_factors = reader.demand_factors(&model.demand, &model_text);
+    let n_junctions = reader.read_nodes(dir);
+    reader.read_links(dir, n_junctions);
+    let hydrants = reader.read_hydrants(dir, n_junctions);
+    reader.into_network(model, demand_factors, n_junctions, hydrants)
+}
+
+/// Reads model.toml, with its text for the locations of its values; `None` when it cannot be
+/// read (reported).
+fn read_model(dir: &Path, diags: &mut Diagnostics) -> Option<(ModelFile, String)> {
+    read_toml(
         &dir.join(MODEL_FILE),
         MODEL_FILE,
         "a network folder needs model.toml with name, units, headloss and a [demand] table (see docs/network-format.md)",
-        &mut diags,
-    );
-    let Some((model, model_text)) = model else {
-        return Err(diags);
-    };
-    let mut reader = Reader {
-        units: model.units,
-        headloss: match model.headloss {
-            HeadlossName::HazenWilliams => HeadlossFormula::HazenWilliams,
-            HeadlossName::DarcyWeisbach => HeadlossFormula::DarcyWeisbach,
-        },
         diags,
-        nodes: Vec::new(),
-        node_lines: HashMap::new(),
-        zones: BTreeSet::new(),
-        links: Vec::new(),
-        link_lines: HashMap::new(),
-        nodes_unreadable: false,
-        broken_nodes: HashSet::new(),
-    };
-    let demand_factors = reader.demand_factors(&model.demand, &model_text);
-
-    let table = |name: &str, spec: &TableSpec<'_>, reader: &mut Reader| {
-        read_table(&dir.join(name), name, spec, &mut reader.diags)
-    };
-    let junctions = table(JUNCTIONS_FILE, &JUNCTIONS, &mut reader);
-    let sources = table(SOURCES_FILE, &SOURCES, &mut reader);
-    reader.nodes_unreadable = [&junctions, &sources]
-        .iter()
-        .any(|t| t.as_ref().is_none_or(|t| t.rows().is_empty()));
-    if let Some(t) = &junctions {
-        reader.junctions(t);
-    }
-    let n_junctions = reader.nodes.len();
-    if let Some(t) = &sources {
-        reader.sources(t);
-    }
-    if let Some(t) = table(PIPES_FILE, &PIPES, &mut reader) {
-        reader.pipes(&t);
-    }
-    if dir.join(PUMPS_FILE).exists() {
-        if let Some(t) = table(PUMPS_FILE, &PUMPS, &mut reader) {
-            reader.pumps(&t);
-        }
-    }
-    if dir.join(VALVES_FILE).exists() {
-        if let Some(t) = table(VALVES_FILE, &VALVES, &mut reader) {
-            reader.valves(&t, n_junctions);
-        }
-    }
-    let hydrants = if dir.join(HYDRANTS_FILE).exists() {
-        match table(HYDRANTS_FILE, &HYDRANTS, &mut reader) {
-            Some(t) => reader.hydrants(&t, n_junctions),
-            None => Vec::new(),
-        }
-    } else {
-        Vec::new()
-    };
-
-    let Reader {
-        mut diags,
-        nodes,
-        zones,
-        links,
-        ..
-    } = reader;
-    if diags.has_errors() {
-        return Err(diags);
-    }
-    let zones: Vec<String> = zones.into_iter().collect();
-    let mut network = Network::new(
-        model.name,
-        model.units,
-        match model.headloss {
-            HeadlossName::HazenWilliams => HeadlossFormula::HazenWilliams,
-            HeadlossName::DarcyWeisbach => HeadlossFormula::DarcyWeisbach,
-        },
-        demand_factors,
-        assign_zones(nodes, &zones),
-        n_junctions,
-        links,
-        hydrants,
-        zones,
-    );
-    network.crs = model.crs.map(|c| super::gis::crs::normalize(&c));
-    super::validate::check_network(&network, &mut diags);
-    if diags.has_errors() {
-        return Err(diags);
-    }
-    Ok(Loaded {
-        network,
-        diagnostics: diags,
-    })
+    )
 }
 
 /// Nodes are read with their zone name in a side table; here the names become indices.
@@ -280,6 +212,116 @@ struct Reader {
 }
 
 impl Reader {
+    fn new(units: UnitSystem, headloss: HeadlossFormula, diags: Diagnostics) -> Self {
+        Reader {
+            units,
+            headloss,
+            diags,
+            nodes: Vec::new(),
+            node_lines: HashMap::new(),
+            zones: BTreeSet::new(),
+            links: Vec::new(),
+            link_lines: HashMap::new(),
+            nodes_unreadable: false,
+            broken_nodes: HashSet::new(),
+        }
+    }
+
+    /// Reads the table `name` of the folder `dir`; `None` when it cannot be read (reported).
+    fn table(&mut self, dir: &Path, name: &str, spec: &TableSpec<'_>) -> Option<Table> {
+        read_table(&dir.join(name), name, spec, &mut self.diags)
+    }
+
+    /// Reads the table `name` when the folder has it: the file is optional.
+    fn optional_table(&mut self, dir: &Path, name: &str, spec: &TableSpec<'_>) -> Option<Table> {
+        if dir.join(name).exists() {
+            self.table(dir, name, spec)
+        } else {
+            None
+        }
+    }
+
+    /// Reads junctions.csv and sources.csv into the nodes, junctions first; returns the number
+    /// of junctions (the nodes after them are sources). Both files are read before their rows,
+    /// so that whether references to nodes are checked is known before any row is.
+    fn read_nodes(&mut self, dir: &Path) -> usize {
+        let junctions = self.table(dir, JUNCTIONS_FILE, &JUNCTIONS);
+        let sources = self.table(dir, SOURCES_FILE, &SOURCES);
+        self.nodes_unreadable = [&junctions, &sources]
+            .iter()
+            .any(|t| t.as_ref().is_none_or(|t| t.rows().is_empty()));
+        if let Some(t) = &junctions {
+            self.junctions(t);
+        }
+        let n_junctions = self.nodes.len();
+        if let Some(t) = &sources {
+            self.sources(t);
+        }
+        n_junctions
+    }
+
+    /// Reads pipes.csv, and pumps.csv and valves.csv where the folder has them, into the links.
+    fn read_links(&mut self, dir: &Path, n_junctions: usize) {
+        if let Some(t) = self.table(dir, PIPES_FILE, &PIPES) {
+            self.pipes(&t);
+        }
+        if let Some(t) = self.optional_table(dir, PUMPS_FILE, &PUMPS) {
+            self.pumps(&t);
+        }
+        if let Some(t) = self.optional_table(dir, VALVES_FILE, &VALVES) {
+            self.valves(&t, n_junctions);
+        }
+    }
+
+    /// Reads hydrants.csv where the folder has it; no hydrants otherwise.
+    fn read_hydrants(&mut self, dir: &Path, n_junctions: usize) -> Vec<Hydrant> {
+        match self.optional_table(dir, HYDRANTS_FILE, &HYDRANTS) {
+            Some(t) => self.hydrants(&t, n_junctions),
+            None => Vec::new(),
+        }
+    }
+
+    /// The network of what was read, checked as a whole; every finding when there is an error.
+    fn into_network(
+        self,
+        model: ModelFile,
+        demand_factors: DemandFactors,
+        n_junctions: usize,
+        hydrants: Vec<Hydrant>,
+    ) -> Result<Loaded, Diagnostics> {
+        let Reader {
+            mut diags,
+            nodes,
+            zones,
+            links,
+            ..
+        } = self;
+        if diags.has_errors() {
+            return Err(diags);
+        }
+        let zones: Vec<String> = zones.into_iter().collect();
+        let mut network = Network::new(
+            model.name,
+            model.units,
+            model.headloss.formula(),
+            demand_factors,
+            assign_zones(nodes, &zones),
+            n_junctions,
+            links,
+            hydrants,
+            zones,
+        );
+        network.crs = model.crs.map(|c| super::gis::crs::normalize(&c));
+        super::validate::check_network(&network, &mut diags);
+        if diags.has_errors() {
+            return Err(diags);
+        }
+        Ok(Loaded {
+            network,
+            diagnostics: diags,
+        })
+    }
+
     fn demand_factors(&mut self, d: &DemandTable, text: &str) -> DemandFactors {
         let at = |v: &Spanned<f64>| span_location(MODEL_FILE, text, v.span());
         let check = |name: &str, v: &Spanned<f64>, diags: &mut Diagnostics| {
@@ -582,106 +624,60 @@ impl Reader {
     }
 
     fn pipes(&mut self, t: &Table) {
-        let file = t.file.as_str();
         if t.rows().is_empty() {
             self.diags.error(
-                Location::file(file),
+                Location::file(t.file.as_str()),
                 "there are no pipes",
                 "list the network's pipes, one per row",
             );
         }
-        let headloss = self.headloss;
         for row in t.rows() {
-            let ends = self.ends(t, row);
-            let mut c = self.cells(t, row);
-            let id = c.id("id");
-            let length = c.required_number("length", Quantity::Length);
-            let diameter = c.required_number("diameter", Quantity::Diameter);
-            let roughness = match headloss {
-                HeadlossFormula::HazenWilliams => c.required_plain("roughness"),
-                HeadlossFormula::DarcyWeisbach => {
-                    c.required_number("roughness", Quantity::Diameter)
-                }
-            };
-            let minor_loss = c.plain("minor_loss").unwrap_or(0.0);
-            let status = c.choice(
-                "status",
-                &[
-                    ("open", PipeStatus::Open),
-                    ("closed", PipeStatus::Closed),
-                    ("check", PipeStatus::Check),
-                ],
-                Some(PipeStatus::Open),
-            );
-            let material = c.text("material").map(str::to_string);
-            let length = c.non_negative(length, "length", "give the pipe's length along its route");
-            let length = c.within(length, "length", &limits::PIPE_LENGTH);
-            let diameter = c.positive(diameter, "diameter", "give the inside diameter");
-            let diameter = c.within(diameter, "diameter", &limits::DIAMETER);
-            let roughness = c.positive(
-                roughness,
-                "roughness",
-                match headloss {
-                    HeadlossFormula::HazenWilliams => {
-                        "give the Hazen-Williams C factor (e.g. 130 for new ductile iron)"
-                    }
-                    HeadlossFormula::DarcyWeisbach => {
-                        "give the absolute roughness in the diameter unit (e.g. 0.0015 mm for plastic)"
-                    }
-                },
-            );
-            let roughness = match headloss {
-                HeadlossFormula::HazenWilliams => {
-                    c.within(roughness, "roughness", &limits::C_FACTOR)
-                }
-                HeadlossFormula::DarcyWeisbach => relative_roughness(&mut c, roughness, diameter),
-            };
-            let minor_loss = c.non_negative(
-                Some(minor_loss),
-                "minor_loss",
-                "give the summed loss coefficient K (0 or more)",
-            );
-            let minor_loss = c.within(minor_loss, "minor_loss", &limits::LOSS_COEFFICIENT);
-            let (Some(id), Some((from, to)), Some(length), Some(diameter), Some(roughness)) =
-                (id, ends, length, diameter, roughness)
-            else {
-                continue;
-            };
-            let (Some(minor_loss), Some(status)) = (minor_loss, status) else {
-                continue;
-            };
-            if length == 0.0 && minor_loss == 0.0 && status != PipeStatus::Closed && from != to {
-                // h = r Q^1.852 + m Q^2 with r = m = 0: a link without any resistance has no
-                // head-loss law for the solver to invert (its matrix entry would be infinite).
-                let loc = t.cell(row, "length").location(file);
-                self.diags.error(
-                    loc,
-                    format!(
-                        "pipe `{}` has zero length and no minor loss: it has no resistance at all, which the solver cannot handle",
-                        id.text
-                    ),
-                    "give the pipe's length along its route, or a minor_loss (K) for a short connection such as a fitting",
-                );
-                continue;
+            if let Some(link) = self.pipe(t, row) {
+                self.links.push(link);
             }
-            if !self.claim_link_id(&id, file) {
-                continue;
-            }
-            self.links.push(Link {
-                id: id.text.to_string(),
-                from,
-                to,
-                kind: LinkKind::Pipe(Pipe {
-                    length_m: length,
-                    diameter_m: diameter,
-                    roughness,
-                    minor_loss,
-                    status,
-                    material,
-                }),
-                line: row.line,
-            });
         }
+    }
+
+    /// The pipe of one pipes.csv row; `None` when the row has an error (reported).
+    fn pipe(&mut self, t: &Table, row: &Row) -> Option<Link> {
+        let file = t.file.as_str();
+        let ends = self.ends(t, row);
+        let headloss = self.headloss;
+        let mut c = self.cells(t, row);
+        let id = c.id("id");
+        let cells = read_pipe_cells(&mut c, headloss);
+        let pipe = checked_pipe(&mut c, headloss, cells);
+        let (Some(id), Some((from, to)), Some(pipe)) = (id, ends, pipe) else {
+            return None;
+        };
+        if pipe.length_m == 0.0
+            && pipe.minor_loss == 0.0
+            && pipe.status != PipeStatus::Closed
+            && from != to
+        {
+            // h = r Q^1.852 + m Q^2 with r = m = 0: a link without any resistance has no
+            // head-loss law for the solver to invert (its matrix entry would be infinite).
+            let loc = t.cell(row, "length").location(file);
+            self.diags.error(
+                loc,
+                format!(
+                    "pipe `{}` has zero length and no minor loss: it has no resistance at all, which the solver cannot handle",
+                    id.text
+                ),
+                "give the pipe's length along its route, or a minor_loss (K) for a short connection such as a fitting",
+            );
+            return None;
+        }
+        if !self.claim_link_id(&id, file) {
+            return None;
+        }
+        Some(Link {
+            id: id.text.to_string(),
+            from,
+            to,
+            kind: LinkKind::Pipe(pipe),
+            line: row.line,
+        })
     }
 
     fn pumps(&mut self, t: &Table) {
@@ -766,232 +762,427 @@ impl Reader {
     }
 
     fn valves(&mut self, t: &Table, n_junctions: usize) {
-        let file = t.file.as_str();
-        let mut controlled: HashMap<usize, String> = HashMap::new();
+        let mut regulated = Regulated {
+            n_junctions,
+            by_junction: HashMap::new(),
+        };
         for row in t.rows() {
-            let ends = self.ends(t, row);
-            let mut c = self.cells(t, row);
-            let id = c.id("id");
-            let kind = c.choice(
-                "kind",
-                &[
-                    ("prv", ValveKind::Prv),
-                    ("psv", ValveKind::Psv),
-                    ("fcv", ValveKind::Fcv),
-                    ("throttle", ValveKind::Throttle),
-                ],
-                None,
-            );
-            let status = c.choice(
-                "status",
-                &[
-                    ("active", ValveStatus::Active),
-                    ("open", ValveStatus::Open),
-                    ("closed", ValveStatus::Closed),
-                ],
-                Some(ValveStatus::Active),
-            );
-            let diameter = c.required_number("diameter", Quantity::Diameter);
-            let diameter = c.positive(diameter, "diameter", "give the valve's inside diameter");
-            let diameter = c.within(diameter, "diameter", &limits::DIAMETER);
-            let minor_loss = c.plain("minor_loss").unwrap_or(0.0);
-            let minor_loss = c.non_negative(
-                Some(minor_loss),
-                "minor_loss",
-                "give the loss coefficient K of the wide-open valve (0 or more)",
-            );
-            let minor_loss = c.within(minor_loss, "minor_loss", &limits::LOSS_COEFFICIENT);
-            let (Some(id), Some(kind), Some(status), Some((from, to)), Some(diameter)) =
-                (id, kind, status, ends, diameter)
-            else {
-                continue;
-            };
-            let Some(minor_loss) = minor_loss else {
-                continue;
-            };
-            let setting_quantity = match kind {
-                ValveKind::Prv | ValveKind::Psv => Some(Quantity::Pressure),
-                ValveKind::Fcv => Some(Quantity::Flow),
-                ValveKind::Throttle => None,
-            };
-            let setting = match (setting_quantity, status) {
-                (_, ValveStatus::Active) => match setting_quantity {
-                    Some(q) => c.required_number("setting", q),
-                    None => c.required_plain("setting"),
-                },
-                (Some(q), _) => c.number("setting", q),
-                (None, _) => c.plain("setting"),
-            };
-            let setting = c.non_negative(
-                setting.or(Some(0.0)),
-                "setting",
-                "give a setting of 0 or more",
-            );
-            let setting_limit = match kind {
-                ValveKind::Prv | ValveKind::Psv => &limits::PRESSURE,
-                ValveKind::Fcv => &limits::FLOW,
-                ValveKind::Throttle => &limits::LOSS_COEFFICIENT,
-            };
-            let setting = c.within(setting, "setting", setting_limit);
-            let Some(setting) = setting else {
-                continue;
-            };
-            let loc = Location::line(file, row.line);
-            if from == to {
-                self.diags.error(
-                    loc,
-                    format!("valve `{}` has the same node at both ends", id.text),
-                    "connect the valve's from and to ends to different nodes",
-                );
-                continue;
+            if let Some(link) = self.valve(t, row, &mut regulated) {
+                self.links.push(link);
             }
-            if status == ValveStatus::Active {
-                let side = match kind {
-                    ValveKind::Prv => Some((to, "downstream (to)")),
-                    ValveKind::Psv => Some((from, "upstream (from)")),
-                    _ => None,
-                };
-                if let Some((node, side_name)) = side {
-                    if node >= n_junctions {
-                        self.diags.error(
-                            loc.clone(),
-                            format!(
-                                "{} `{}`: its controlled {side_name} side is a fixed-grade source, so the setting decides nothing",
-                                kind.name(),
-                                id.text
-                            ),
-                            "connect the valve to a junction on its controlled side, or make it a throttle or an open valve",
-                        );
-                        continue;
-                    }
-                    if let Some(other) = controlled.get(&node) {
-                        self.diags.error(
-                            loc.clone(),
-                            format!(
-                                "{} `{}` and valve `{other}` both control the pressure at the same junction; their split of the flow is undefined",
-                                kind.name(),
-                                id.text
-                            ),
-                            "keep one regulating valve per controlled junction (e.g. model parallel PRVs as one valve, or set one to closed)",
-                        );
-                        continue;
-                    }
-                    controlled.insert(node, id.text.to_string());
-                }
-            }
-            if !self.claim_link_id(&id, file) {
-                continue;
-            }
-            self.links.push(Link {
-                id: id.text.to_string(),
-                from,
-                to,
-                kind: LinkKind::Valve(Valve {
-                    kind,
-                    diameter_m: diameter,
-                    setting,
-                    minor_loss,
-                    status,
-                }),
-                line: row.line,
-            });
         }
     }
 
-    fn hydrants(&mut self, t: &Table, n_junctions: usize) -> Vec<Hydrant> {
+    /// The valve of one valves.csv row; `None` when the row has an error (reported).
+    fn valve(&mut self, t: &Table, row: &Row, regulated: &mut Regulated) -> Option<Link> {
         let file = t.file.as_str();
+        let ends = self.ends(t, row);
+        let mut c = self.cells(t, row);
+        let id = c.id("id");
+        let cells = read_valve_cells(&mut c);
+        let (Some(id), Some(kind), Some(status), Some((from, to)), Some(diameter)) =
+            (id, cells.kind, cells.status, ends, cells.diameter)
+        else {
+            return None;
+        };
+        let minor_loss = cells.minor_loss?;
+        // Read last, once the rest of the row is sound: what the setting means depends on the
+        // kind and the status.
+        let setting = valve_setting(&mut c, kind, status)?;
+        let valve = Valve {
+            kind,
+            diameter_m: diameter,
+            setting,
+            minor_loss,
+            status,
+        };
+        let loc = Location::line(file, row.line);
+        if from == to {
+            self.diags.error(
+                loc,
+                format!("valve `{}` has the same node at both ends", id.text),
+                "connect the valve's from and to ends to different nodes",
+            );
+            return None;
+        }
+        if !self.regulate(regulated, &loc, id.text, (from, to), &valve) {
+            return None;
+        }
+        if !self.claim_link_id(&id, file) {
+            return None;
+        }
+        Some(Link {
+            id: id.text.to_string(),
+            from,
+            to,
+            kind: LinkKind::Valve(valve),
+            line: row.line,
+        })
+    }
+
+    /// Registers the junction an active PRV or PSV controls (the downstream end of a PRV, the
+    /// upstream end of a PSV); an error when that end is a source or another valve controls
+    /// it already. Other valves control nothing.
+    fn regulate(
+        &mut self,
+        regulated: &mut Regulated,
+        loc: &Location,
+        id: &str,
+        (from, to): (usize, usize),
+        valve: &Valve,
+    ) -> bool {
+        if valve.status != ValveStatus::Active {
+            return true;
+        }
+        let (node, side_name) = match valve.kind {
+            ValveKind::Prv => (to, "downstream (to)"),
+            ValveKind::Psv => (from, "upstream (from)"),
+            _ => return true,
+        };
+        if node >= regulated.n_junctions {
+            self.diags.error(
+                loc.clone(),
+                format!(
+                    "{} `{id}`: its controlled {side_name} side is a fixed-grade source, so the setting decides nothing",
+                    valve.kind.name(),
+                ),
+                "connect the valve to a junction on its controlled side, or make it a throttle or an open valve",
+            );
+            return false;
+        }
+        if let Some(other) = regulated.by_junction.get(&node) {
+            self.diags.error(
+                loc.clone(),
+                format!(
+                    "{} `{id}` and valve `{other}` both control the pressure at the same junction; their split of the flow is undefined",
+                    valve.kind.name(),
+                ),
+                "keep one regulating valve per controlled junction (e.g. model parallel PRVs as one valve, or set one to closed)",
+            );
+            return false;
+        }
+        regulated.by_junction.insert(node, id.to_string());
+        true
+    }
+
+    fn hydrants(&mut self, t: &Table, n_junctions: usize) -> Vec<Hydrant> {
         let mut seen: HashMap<String, u64> = HashMap::new();
         let mut out = Vec::new();
-        let headloss = self.headloss;
         for row in t.rows() {
-            let junction_cell = t.cell(row, "junction");
-            let mut c = self.cells(t, row);
-            let id = c.id("id");
-            let required = c.number("required_flow", Quantity::Flow);
-            let required = match required {
-                Some(q) => {
-                    let q = c.positive(
-                        Some(q),
-                        "required_flow",
-                        "give the required fire flow, or leave the cell empty to use the criteria",
-                    );
-                    c.within(q, "required_flow", &limits::FLOW)
-                }
-                None => None,
-            };
-            let class = c.text("class").map(str::to_string);
-            let class_column = t.cell(row, "class").column;
-            let position = c.position();
-            let lateral = lateral(&mut c, headloss);
-            let junction = if junction_cell.is_empty() {
-                self.diags.error(
-                    junction_cell.location(file),
-                    "`junction` is empty",
-                    "name the junction the hydrant connects to",
-                );
-                None
-            } else {
-                match self.node_lines.get(junction_cell.text) {
-                    Some(&(_, _, index)) if index < n_junctions => Some(index),
-                    Some(_) => {
-                        self.diags.error(
-                            junction_cell.location(file),
-                            format!(
-                                "hydrant junction `{}` is a source, not a junction",
-                                junction_cell.text
-                            ),
-                            "connect the hydrant to the junction of its lateral",
-                        );
-                        None
-                    }
-                    None if self.knock_on(junction_cell.text) => None,
-                    None => {
-                        self.diags.error(
-                            junction_cell.location(file),
-                            format!(
-                                "hydrant junction `{}` is not a junction id",
-                                junction_cell.text
-                            ),
-                            "use the id of a junction in junctions.csv (ids are compared exactly)",
-                        );
-                        None
-                    }
-                }
-            };
-            let Some(id) = id else { continue };
-            if let Some(other) = seen.get(id.text) {
-                self.diags.error(
-                    id.location(file),
-                    format!(
-                        "hydrant id `{}` is used twice (also at line {other})",
-                        id.text
-                    ),
-                    "give every hydrant its own id",
-                );
-                continue;
+            if let Some(hydrant) = self.hydrant(t, row, n_junctions, &mut seen) {
+                out.push(hydrant);
             }
-            seen.insert(id.text.to_string(), row.line);
-            let Some(junction) = junction else { continue };
-            let Some(lateral) = lateral else { continue };
-            if t.has_column("required_flow")
-                && !t.cell(row, "required_flow").is_empty()
-                && required.is_none()
-            {
-                continue;
-            }
-            out.push(Hydrant {
-                id: id.text.to_string(),
-                junction,
-                required_flow_m3s: required,
-                class,
-                position,
-                line: row.line,
-                class_column,
-                lateral,
-            });
         }
         out
     }
+
+    /// The hydrant of one hydrants.csv row; `None` when the row has an error (reported).
+    /// `seen` holds the ids of the rows before, with their lines.
+    fn hydrant(
+        &mut self,
+        t: &Table,
+        row: &Row,
+        n_junctions: usize,
+        seen: &mut HashMap<String, u64>,
+    ) -> Option<Hydrant> {
+        let file = t.file.as_str();
+        let headloss = self.headloss;
+        let junction_cell = t.cell(row, "junction");
+        let mut c = self.cells(t, row);
+        let id = c.id("id");
+        let required = required_flow(&mut c);
+        let class = c.text("class").map(str::to_string);
+        let class_column = t.cell(row, "class").column;
+        let position = c.position();
+        let lateral = lateral(&mut c, headloss);
+        let junction = self.hydrant_junction(&junction_cell, file, n_junctions);
+        // The id is claimed before the junction and lateral are looked at: a row with an error
+        // there still holds its id, so that a later row with the same id is reported.
+        let id = id?;
+        if !self.claim_hydrant_id(&id, file, seen) {
+            return None;
+        }
+        let junction = junction?;
+        let lateral = lateral?;
+        let required_flow_unreadable = t.has_column("required_flow")
+            && !t.cell(row, "required_flow").is_empty()
+            && required.is_none();
+        if required_flow_unreadable {
+            return None;
+        }
+        Some(Hydrant {
+            id: id.text.to_string(),
+            junction,
+            required_flow_m3s: required,
+            class,
+            position,
+            line: row.line,
+            class_column,
+            lateral,
+        })
+    }
+
+    /// Registers a hydrant id in `seen` (ids by line); an error when it is already used.
+    fn claim_hydrant_id(
+        &mut self,
+        id: &Cell<'_>,
+        file: &str,
+        seen: &mut HashMap<String, u64>,
+    ) -> bool {
+        if let Some(other) = seen.get(id.text) {
+            self.diags.error(
+                id.location(file),
+                format!(
+                    "hydrant id `{}` is used twice (also at line {other})",
+                    id.text
+                ),
+                "give every hydrant its own id",
+            );
+            return false;
+        }
+        seen.insert(id.text.to_string(), id.line);
+        true
+    }
+
+    /// The junction a hydrant connects to, from its `junction` cell; `None` when the cell is
+    /// empty, names a source, or names no node (reported unless only a knock-on).
+    fn hydrant_junction(
+        &mut self,
+        cell: &Cell<'_>,
+        file: &str,
+        n_junctions: usize,
+    ) -> Option<usize> {
+        if cell.is_empty() {
+            self.diags.error(
+                cell.location(file),
+                "`junction` is empty",
+                "name the junction the hydrant connects to",
+            );
+            return None;
+        }
+        match self.node_lines.get(cell.text) {
+            Some(&(_, _, index)) if index < n_junctions => Some(index),
+            Some(_) => {
+                self.diags.error(
+                    cell.location(file),
+                    format!(
+                        "hydrant junction `{}` is a source, not a junction",
+                        cell.text
+                    ),
+                    "connect the hydrant to the junction of its lateral",
+                );
+                None
+            }
+            None if self.knock_on(cell.text) => None,
+            None => {
+                self.diags.error(
+                    cell.location(file),
+                    format!("hydrant junction `{}` is not a junction id", cell.text),
+                    "use the id of a junction in junctions.csv (ids are compared exactly)",
+                );
+                None
+            }
+        }
+    }
+}
+
+/// The cells of a pipes.csv row as read, SI, before their ranges are checked; a number is
+/// `None` when its cell is empty or not a number (reported).
+struct PipeCells {
+    length: Option<f64>,
+    diameter: Option<f64>,
+    roughness: Option<f64>,
+    minor_loss: f64,
+    status: Option<PipeStatus>,
+    material: Option<String>,
+}
+
+/// Reads the cells of a pipes.csv row. Every cell is read before any range is checked, so that
+/// a row's unreadable cells are reported before its values out of range.
+fn read_pipe_cells(c: &mut Cells<'_, '_>, headloss: HeadlossFormula) -> PipeCells {
+    let length = c.required_number("length", Quantity::Length);
+    let diameter = c.required_number("diameter", Quantity::Diameter);
+    let roughness = match headloss {
+        HeadlossFormula::HazenWilliams => c.required_plain("roughness"),
+        HeadlossFormula::DarcyWeisbach => c.required_number("roughness", Quantity::Diameter),
+    };
+    let minor_loss = c.plain("minor_loss").unwrap_or(0.0);
+    let status = c.choice(
+        "status",
+        &[
+            ("open", PipeStatus::Open),
+            ("closed", PipeStatus::Closed),
+            ("check", PipeStatus::Check),
+        ],
+        Some(PipeStatus::Open),
+    );
+    let material = c.text("material").map(str::to_string);
+    PipeCells {
+        length,
+        diameter,
+        roughness,
+        minor_loss,
+        status,
+        material,
+    }
+}
+
+/// The pipe of a row's cells, each value checked against its range (every one, so that all
+/// are reported); `None` when a cell is in error.
+fn checked_pipe(
+    c: &mut Cells<'_, '_>,
+    headloss: HeadlossFormula,
+    cells: PipeCells,
+) -> Option<Pipe> {
+    let length = c.non_negative(
+        cells.length,
+        "length",
+        "give the pipe's length along its route",
+    );
+    let length = c.within(length, "length", &limits::PIPE_LENGTH);
+    let diameter = c.positive(cells.diameter, "diameter", "give the inside diameter");
+    let diameter = c.within(diameter, "diameter", &limits::DIAMETER);
+    let roughness = checked_roughness(c, headloss, cells.roughness, diameter);
+    let minor_loss = c.non_negative(
+        Some(cells.minor_loss),
+        "minor_loss",
+        "give the summed loss coefficient K (0 or more)",
+    );
+    let minor_loss = c.within(minor_loss, "minor_loss", &limits::LOSS_COEFFICIENT);
+    Some(Pipe {
+        length_m: length?,
+        diameter_m: diameter?,
+        roughness: roughness?,
+        minor_loss: minor_loss?,
+        status: cells.status?,
+        material: cells.material,
+    })
+}
+
+/// A pipe's roughness checked as its head-loss formula reads it: a C factor within its range,
+/// or an absolute roughness that fits in the pipe (`diameter`, SI, when known).
+fn checked_roughness(
+    c: &mut Cells<'_, '_>,
+    headloss: HeadlossFormula,
+    roughness: Option<f64>,
+    diameter: Option<f64>,
+) -> Option<f64> {
+    let roughness = c.positive(
+        roughness,
+        "roughness",
+        match headloss {
+            HeadlossFormula::HazenWilliams => {
+                "give the Hazen-Williams C factor (e.g. 130 for new ductile iron)"
+            }
+            HeadlossFormula::DarcyWeisbach => {
+                "give the absolute roughness in the diameter unit (e.g. 0.0015 mm for plastic)"
+            }
+        },
+    );
+    match headloss {
+        HeadlossFormula::HazenWilliams => c.within(roughness, "roughness", &limits::C_FACTOR),
+        HeadlossFormula::DarcyWeisbach => relative_roughness(c, roughness, diameter),
+    }
+}
+
+/// The junctions whose pressure an active PRV or PSV controls, with that valve's id: a second
+/// valve at one of them is refused.
+struct Regulated {
+    /// The nodes from this index on are sources, which no valve can control.
+    n_junctions: usize,
+    by_junction: HashMap<usize, String>,
+}
+
+/// The cells of a valves.csv row whose meaning does not depend on its kind, SI, the numbers
+/// checked against their ranges; `None` when a cell is empty where required or in error
+/// (reported).
+struct ValveCells {
+    kind: Option<ValveKind>,
+    status: Option<ValveStatus>,
+    diameter: Option<f64>,
+    minor_loss: Option<f64>,
+}
+
+/// Reads the kind, status, diameter and minor loss of a valves.csv row, in that order.
+fn read_valve_cells(c: &mut Cells<'_, '_>) -> ValveCells {
+    let kind = c.choice(
+        "kind",
+        &[
+            ("prv", ValveKind::Prv),
+            ("psv", ValveKind::Psv),
+            ("fcv", ValveKind::Fcv),
+            ("throttle", ValveKind::Throttle),
+        ],
+        None,
+    );
+    let status = c.choice(
+        "status",
+        &[
+            ("active", ValveStatus::Active),
+            ("open", ValveStatus::Open),
+            ("closed", ValveStatus::Closed),
+        ],
+        Some(ValveStatus::Active),
+    );
+    let diameter = c.required_number("diameter", Quantity::Diameter);
+    let diameter = c.positive(diameter, "diameter", "give the valve's inside diameter");
+    let diameter = c.within(diameter, "diameter", &limits::DIAMETER);
+    let minor_loss = c.plain("minor_loss").unwrap_or(0.0);
+    let minor_loss = c.non_negative(
+        Some(minor_loss),
+        "minor_loss",
+        "give the loss coefficient K of the wide-open valve (0 or more)",
+    );
+    let minor_loss = c.within(minor_loss, "minor_loss", &limits::LOSS_COEFFICIENT);
+    ValveCells {
+        kind,
+        status,
+        diameter,
+        minor_loss,
+    }
+}
+
+/// A valve's setting, SI, read as its kind means it: a pressure for a PRV or PSV, a flow for
+/// an FCV, a loss coefficient for a throttle. Required of an active valve; an empty cell, or
+/// one that is not a number (reported), reads as 0. `None` when negative or out of range
+/// (reported).
+fn valve_setting(c: &mut Cells<'_, '_>, kind: ValveKind, status: ValveStatus) -> Option<f64> {
+    let setting_quantity = match kind {
+        ValveKind::Prv | ValveKind::Psv => Some(Quantity::Pressure),
+        ValveKind::Fcv => Some(Quantity::Flow),
+        ValveKind::Throttle => None,
+    };
+    let setting = match (setting_quantity, status) {
+        (_, ValveStatus::Active) => match setting_quantity {
+            Some(q) => c.required_number("setting", q),
+            None => c.required_plain("setting"),
+        },
+        (Some(q), _) => c.number("setting", q),
+        (None, _) => c.plain("setting"),
+    };
+    let setting = c.non_negative(
+        setting.or(Some(0.0)),
+        "setting",
+        "give a setting of 0 or more",
+    );
+    let setting_limit = match kind {
+        ValveKind::Prv | ValveKind::Psv => &limits::PRESSURE,
+        ValveKind::Fcv => &limits::FLOW,
+        ValveKind::Throttle => &limits::LOSS_COEFFICIENT,
+    };
+    c.within(setting, "setting", setting_limit)
+}
+
+/// The optional `required_flow` of a hydrants.csv row, SI; `None` when empty (the criteria
+/// then decide) or in error (reported).
+fn required_flow(c: &mut Cells<'_, '_>) -> Option<f64> {
+    let required = c.number("required_flow", Quantity::Flow)?;
+    let required = c.positive(
+        Some(required),
+        "required_flow",
+        "give the required fire flow, or leave the cell empty to use the criteria",
+    );
+    c.within(required, "required_flow", &limits::FLOW)
 }
 
 /// The optional lateral columns of a hydrants.csv row, SI: `Some(None)` without a lateral,
