@@ -2,7 +2,7 @@
 
 use std::collections::{BTreeMap, BTreeSet};
 use std::fmt;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::str::FromStr;
 
 use serde::{Deserialize, Serialize};
@@ -86,125 +86,20 @@ fn shard_file(name: &str) -> Option<(&str, Shard)> {
 /// The partials in `dirs` (folders, or partial files themselves), checked to be of the same
 /// inputs, with every shard present exactly once. The error lists what is missing or twice.
 pub fn gather(dirs: &[PathBuf]) -> Result<Gathered, JournalError> {
-    let mut partials = BTreeSet::new();
-    let mut running = BTreeSet::new();
-    for dir in dirs {
-        let entries: Vec<PathBuf> = if dir.is_dir() {
-            std::fs::read_dir(dir)
-                .map_err(|source| JournalError::Io {
-                    path: dir.clone(),
-                    source,
-                })?
-                .filter_map(|e| e.ok().map(|e| e.path()))
-                .collect()
-        } else if dir.is_file() {
-            vec![dir.clone()]
-        } else {
-            return Err(JournalError::Merge(format!(
-                "{} is neither a folder nor a partial file",
-                dir.display()
-            )));
-        };
-        for path in entries {
-            let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("");
-            let key = std::fs::canonicalize(&path).unwrap_or(path.clone());
-            match shard_file(name) {
-                Some(("partial", _)) => {
-                    partials.insert((key, path));
-                }
-                Some(("journal", shard)) => {
-                    running.insert((shard.index, path));
-                }
-                _ => {}
-            }
-        }
-    }
-    if partials.is_empty() {
+    let found = find_shard_files(dirs)?;
+    if found.partials.is_empty() {
         return Err(JournalError::Merge(format!(
             "no partial result (check-partial-K-of-N.jsonl) in {}; fix: give the folders that `check --shard K/N --out DIR` wrote into",
             list(dirs.iter())
         )));
     }
-    let mut by_shard: BTreeMap<usize, Vec<(PathBuf, super::Journal)>> = BTreeMap::new();
-    let mut first: Option<(PathBuf, Header)> = None;
-    for (_, path) in partials {
-        let journal = read_journal(&path)?;
-        let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("");
-        let Some(shard) = journal.header.shard else {
-            return Err(JournalError::Merge(format!(
-                "{} is not a shard's partial",
-                path.display()
-            )));
-        };
-        if partial_name(shard) != name || journal.complete != Some(journal.results.len()) {
-            return Err(JournalError::Merge(format!(
-                "{} is not a whole partial of shard {shard}; fix: run that shard again",
-                path.display()
-            )));
-        }
-        match &first {
-            None => first = Some((path.clone(), journal.header.clone())),
-            Some((first_path, header)) => {
-                if let Some(d) = header.difference(&journal.header) {
-                    return Err(JournalError::Merge(format!(
-                        "{} and {} are of different sweeps: {d}",
-                        first_path.display(),
-                        path.display()
-                    )));
-                }
-                let n = header.shard.map_or(0, |s| s.count);
-                if n != shard.count {
-                    return Err(JournalError::Merge(format!(
-                        "{} is one of {n} shards, {} one of {}",
-                        first_path.display(),
-                        path.display(),
-                        shard.count
-                    )));
-                }
-            }
-        }
-        by_shard
-            .entry(shard.index)
-            .or_default()
-            .push((path, journal));
-    }
+    let (by_shard, first) = read_partials(found.partials)?;
     let Some((_, mut header)) = first else {
         return Err(JournalError::Merge("no partial result".into()));
     };
     let count = header.shard.map_or(1, |s| s.count);
-    let twice: Vec<String> = by_shard
-        .iter()
-        .filter(|(_, v)| v.len() > 1)
-        .map(|(k, v)| format!("shard {k}/{count} in {}", list(v.iter().map(|(p, _)| p))))
-        .collect();
-    if !twice.is_empty() {
-        return Err(JournalError::Merge(format!(
-            "{} given twice; fix: give each shard's partial once",
-            twice.join("; ")
-        )));
-    }
-    let missing: Vec<usize> = (0..count).filter(|k| !by_shard.contains_key(k)).collect();
-    if !missing.is_empty() {
-        let names: Vec<String> = missing.iter().map(|k| format!("{k}/{count}")).collect();
-        let unfinished: Vec<&PathBuf> = running
-            .iter()
-            .filter(|(k, _)| missing.contains(k))
-            .map(|(_, p)| p)
-            .collect();
-        let note = if unfinished.is_empty() {
-            String::new()
-        } else {
-            format!(
-                " (unfinished, killed or still running: {})",
-                list(unfinished.into_iter())
-            )
-        };
-        return Err(JournalError::Merge(format!(
-            "missing {} of {count} shard(s): {}{note}; fix: run `check --shard K/N` (or `--resume` it) for each, then merge again",
-            missing.len(),
-            names.join(", ")
-        )));
-    }
+    refuse_twice(&by_shard, count)?;
+    refuse_missing(&by_shard, count, &found.running)?;
     header.shard = None;
     let mut files = Vec::new();
     let shards = by_shard
@@ -221,6 +116,181 @@ pub fn gather(dirs: &[PathBuf]) -> Result<Gathered, JournalError> {
         shards,
         files,
     })
+}
+
+/// The shard files found in the folders given to `merge`.
+struct ShardFiles {
+    /// Finished partials as (canonical path, path as found): a folder given twice yields each
+    /// of its partials once.
+    partials: BTreeSet<(PathBuf, PathBuf)>,
+    /// Journals of shards not finished (killed, or still running), with their shard index.
+    running: BTreeSet<(usize, PathBuf)>,
+}
+
+/// The partials and shard journals in `dirs`, each a folder or a file itself.
+fn find_shard_files(dirs: &[PathBuf]) -> Result<ShardFiles, JournalError> {
+    let mut found = ShardFiles {
+        partials: BTreeSet::new(),
+        running: BTreeSet::new(),
+    };
+    for dir in dirs {
+        for path in entries(dir)? {
+            let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("");
+            let key = std::fs::canonicalize(&path).unwrap_or(path.clone());
+            match shard_file(name) {
+                Some(("partial", _)) => {
+                    found.partials.insert((key, path));
+                }
+                Some(("journal", shard)) => {
+                    found.running.insert((shard.index, path));
+                }
+                _ => {}
+            }
+        }
+    }
+    Ok(found)
+}
+
+/// The files of the folder `dir`, or `dir` itself when it is a file.
+fn entries(dir: &Path) -> Result<Vec<PathBuf>, JournalError> {
+    if dir.is_dir() {
+        Ok(std::fs::read_dir(dir)
+            .map_err(|source| JournalError::Io {
+                path: dir.to_path_buf(),
+                source,
+            })?
+            .filter_map(|e| e.ok().map(|e| e.path()))
+            .collect())
+    } else if dir.is_file() {
+        Ok(vec![dir.to_path_buf()])
+    } else {
+        Err(JournalError::Merge(format!(
+            "{} is neither a folder nor a partial file",
+            dir.display()
+        )))
+    }
+}
+
+/// The partials read, by shard index (more than one for a shard given twice).
+type ByShard = BTreeMap<usize, Vec<(PathBuf, super::Journal)>>;
+
+/// Reads the partials, each checked to be a whole partial of the same sweep and shard count as
+/// the first; returns them by shard index, with the first's path and header.
+fn read_partials(
+    partials: BTreeSet<(PathBuf, PathBuf)>,
+) -> Result<(ByShard, Option<(PathBuf, Header)>), JournalError> {
+    let mut by_shard = ByShard::new();
+    let mut first: Option<(PathBuf, Header)> = None;
+    for (_, path) in partials {
+        let journal = read_journal(&path)?;
+        let shard = whole_partial(&path, &journal)?;
+        match &first {
+            None => first = Some((path.clone(), journal.header.clone())),
+            Some((first_path, header)) => {
+                same_sweep(first_path, header, &path, &journal.header, shard)?;
+            }
+        }
+        by_shard
+            .entry(shard.index)
+            .or_default()
+            .push((path, journal));
+    }
+    Ok((by_shard, first))
+}
+
+/// The shard of the partial at `path`, refused unless it is a shard's partial under its own
+/// name and holds every result it announces (its last line).
+fn whole_partial(path: &Path, journal: &super::Journal) -> Result<Shard, JournalError> {
+    let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("");
+    let Some(shard) = journal.header.shard else {
+        return Err(JournalError::Merge(format!(
+            "{} is not a shard's partial",
+            path.display()
+        )));
+    };
+    if partial_name(shard) != name || journal.complete != Some(journal.results.len()) {
+        return Err(JournalError::Merge(format!(
+            "{} is not a whole partial of shard {shard}; fix: run that shard again",
+            path.display()
+        )));
+    }
+    Ok(shard)
+}
+
+/// Refuses the partial at `path` (`header`, `shard`) unless it is of the same inputs and the
+/// same number of shards as the first one read (`first_path`, `first`).
+fn same_sweep(
+    first_path: &Path,
+    first: &Header,
+    path: &Path,
+    header: &Header,
+    shard: Shard,
+) -> Result<(), JournalError> {
+    if let Some(d) = first.difference(header) {
+        return Err(JournalError::Merge(format!(
+            "{} and {} are of different sweeps: {d}",
+            first_path.display(),
+            path.display()
+        )));
+    }
+    let n = first.shard.map_or(0, |s| s.count);
+    if n != shard.count {
+        return Err(JournalError::Merge(format!(
+            "{} is one of {n} shards, {} one of {}",
+            first_path.display(),
+            path.display(),
+            shard.count
+        )));
+    }
+    Ok(())
+}
+
+/// Refuses a shard given by more than one partial, naming the files.
+fn refuse_twice(by_shard: &ByShard, count: usize) -> Result<(), JournalError> {
+    let twice: Vec<String> = by_shard
+        .iter()
+        .filter(|(_, v)| v.len() > 1)
+        .map(|(k, v)| format!("shard {k}/{count} in {}", list(v.iter().map(|(p, _)| p))))
+        .collect();
+    if !twice.is_empty() {
+        return Err(JournalError::Merge(format!(
+            "{} given twice; fix: give each shard's partial once",
+            twice.join("; ")
+        )));
+    }
+    Ok(())
+}
+
+/// Refuses a sweep with shards that have no partial, naming the journals of those that were
+/// started (`running`).
+fn refuse_missing(
+    by_shard: &ByShard,
+    count: usize,
+    running: &BTreeSet<(usize, PathBuf)>,
+) -> Result<(), JournalError> {
+    let missing: Vec<usize> = (0..count).filter(|k| !by_shard.contains_key(k)).collect();
+    if missing.is_empty() {
+        return Ok(());
+    }
+    let names: Vec<String> = missing.iter().map(|k| format!("{k}/{count}")).collect();
+    let unfinished: Vec<&PathBuf> = running
+        .iter()
+        .filter(|(k, _)| missing.contains(k))
+        .map(|(_, p)| p)
+        .collect();
+    let note = if unfinished.is_empty() {
+        String::new()
+    } else {
+        format!(
+            " (unfinished, killed or still running: {})",
+            list(unfinished.into_iter())
+        )
+    };
+    Err(JournalError::Merge(format!(
+        "missing {} of {count} shard(s): {}{note}; fix: run `check --shard K/N` (or `--resume` it) for each, then merge again",
+        missing.len(),
+        names.join(", ")
+    )))
 }
 
 fn list<'a>(paths: impl Iterator<Item = &'a PathBuf>) -> String {
