@@ -140,7 +140,30 @@ struct Problem<'a> {
     starts: RefCell<Vec<Option<Solution>>>,
 }
 
-impl Problem<'_> {
+impl<'a> Problem<'a> {
+    /// The fit's view of `tests`, each with its reduced outlet flows (m³/s), on `net`; no
+    /// test has a residual state yet.
+    fn new(
+        net: &'a Network,
+        tests: &'a [FlowTest],
+        outlet_flows: &[Vec<f64>],
+        groups: &'a [Group],
+        param: Param,
+    ) -> Self {
+        Problem {
+            net,
+            tests,
+            draws: tests
+                .iter()
+                .zip(outlet_flows)
+                .map(|(t, f)| test_draws(net, t, f))
+                .collect(),
+            groups,
+            param,
+            starts: RefCell::new(vec![None; tests.len()]),
+        }
+    }
+
     /// The network with the roughness of each free group's pipes times `factor(theta[k])`.
     fn apply(&self, free: &[usize], theta: &[f64]) -> Network {
         let mut net = self.net.clone();
@@ -257,6 +280,9 @@ fn rms(r: &DVector<f64>) -> f64 {
 /// Fits the roughness of `groups` to `tests` (each with its reduced outlet flows, m³/s).
 /// `bounds` (SI: C, or roughness m; `None` for the plausible defaults) hold each group's
 /// length-weighted mean roughness.
+///
+/// In steps: each group's bounds on its factor, the groups the tests can see (judged at the
+/// start), Levenberg-Marquardt on those, then each group's fit as the report gives it.
 pub fn calibrate(
     net: &Network,
     tests: &[FlowTest],
@@ -265,31 +291,10 @@ pub fn calibrate(
     bounds: Option<(f64, f64)>,
 ) -> Result<Calibration, FlowTestError> {
     let param = Param(net.headloss);
-    let bounds = bounds.unwrap_or(match net.headloss {
-        HeadlossFormula::HazenWilliams => HW_BOUNDS,
-        HeadlossFormula::DarcyWeisbach => DW_BOUNDS_M,
-    });
-    let problem = Problem {
-        net,
-        tests,
-        draws: tests
-            .iter()
-            .zip(outlet_flows)
-            .map(|(t, f)| test_draws(net, t, f))
-            .collect(),
-        groups,
-        param,
-        starts: RefCell::new(vec![None; tests.len()]),
-    };
+    let bounds = bounds.unwrap_or(default_bounds(net.headloss));
+    let problem = Problem::new(net, tests, outlet_flows, groups, param);
     let means: Vec<(f64, f64)> = groups.iter().map(|g| group_mean(net, g)).collect();
-    // Bounds on each group's factor: its length-weighted mean roughness stays within `bounds`.
-    let limits: Vec<(f64, f64)> = means
-        .iter()
-        .map(|(m, _)| {
-            let m = if *m > 0.0 { *m } else { 1.0 };
-            (param.to_theta(bounds.0 / m), param.to_theta(bounds.1 / m))
-        })
-        .collect();
+    let limits = factor_limits(param, &means, bounds);
     let all: Vec<usize> = (0..groups.len()).collect();
     let start: Vec<f64> = limits
         .iter()
@@ -299,65 +304,30 @@ pub fn calibrate(
     // Which groups the tests can see, judged at the start.
     let rms_before_kpa = rms(&problem.evaluate(net, &[], &[])?.0);
     let (r0, j0) = problem.evaluate(&problem.apply(&all, &start), &all, &start)?;
-    let informs: Vec<Vec<usize>> = (0..groups.len())
-        .map(|k| {
-            (0..tests.len())
-                .filter(|&t| (j0[(t, k)] * param.probe(start[k])).abs() >= IDENTIFIABLE_KPA)
-                .collect()
-        })
-        .collect();
+    let informs = informing_tests(param, &j0, &start, tests.len());
     let free: Vec<usize> = all
         .iter()
         .copied()
         .filter(|&k| !informs[k].is_empty())
         .collect();
     let free_limits: Vec<(f64, f64)> = free.iter().map(|&k| limits[k]).collect();
-    let (mut theta, mut r, mut jac) = if free.len() == all.len() {
-        (start.clone(), r0, j0)
-    } else {
-        let th: Vec<f64> = free.iter().map(|&k| start[k]).collect();
-        let (r, j) = problem.evaluate(&problem.apply(&free, &th), &free, &th)?;
-        (th, r, j)
-    };
+    let (mut theta, mut r, mut jac) = free_start(&problem, &free, all.len(), start, r0, j0)?;
     let iterations =
         levenberg_marquardt(&problem, &free, &free_limits, &mut theta, &mut r, &mut jac)?;
 
     let calibrated = problem.apply(&free, &theta);
     let rms_after_kpa = rms(&r);
-    let se = standard_errors(&r, &jac);
+    let fitted = Fitted {
+        param,
+        free: &free,
+        theta: &theta,
+        limits: &limits,
+        standard_errors: standard_errors(&r, &jac),
+    };
     let fits = groups
         .iter()
         .enumerate()
-        .map(|(k, g)| {
-            let pos = free.iter().position(|&f| f == k);
-            let (before, length_m) = means[k];
-            let (after, standard_error, at_bound) = match pos {
-                Some(p) => {
-                    let f = param.factor(theta[p]);
-                    let v = before * f;
-                    // se(C) = mean·se(factor); for ln ε by the delta method, se(ε) ≈ ε·se(ln).
-                    let se = se.as_ref().map(|s| match param.0 {
-                        HeadlossFormula::HazenWilliams => before * s[p],
-                        HeadlossFormula::DarcyWeisbach => v * s[p],
-                    });
-                    let (lo, hi) = limits[k];
-                    let at = (theta[p] - lo).abs() < 1e-9 || (theta[p] - hi).abs() < 1e-9;
-                    (v, se, at)
-                }
-                None => (before, None, false),
-            };
-            GroupFit {
-                name: g.name.clone(),
-                pipes: g.pipes.len(),
-                length_m,
-                before,
-                after,
-                standard_error: standard_error.filter(|s| s.is_finite()),
-                identifiable: pos.is_some(),
-                at_bound,
-                tests: informs[k].clone(),
-            }
-        })
+        .map(|(k, g)| fitted.group_fit(k, g, means[k], &informs[k]))
         .collect();
     Ok(Calibration {
         groups: fits,
@@ -367,6 +337,118 @@ pub fn calibrate(
         iterations,
         calibrated,
     })
+}
+
+/// The plausible bounds of the network's roughness (C, or ε in m), when none are given.
+fn default_bounds(headloss: HeadlossFormula) -> (f64, f64) {
+    match headloss {
+        HeadlossFormula::HazenWilliams => HW_BOUNDS,
+        HeadlossFormula::DarcyWeisbach => DW_BOUNDS_M,
+    }
+}
+
+/// Bounds on each group's factor: its length-weighted mean roughness stays within `bounds`.
+fn factor_limits(param: Param, means: &[(f64, f64)], bounds: (f64, f64)) -> Vec<(f64, f64)> {
+    means
+        .iter()
+        .map(|(m, _)| {
+            let m = if *m > 0.0 { *m } else { 1.0 };
+            (param.to_theta(bounds.0 / m), param.to_theta(bounds.1 / m))
+        })
+        .collect()
+}
+
+/// For each group (a column of `j0`, the Jacobian at the start), the tests whose residual
+/// pressure its probe change moves by at least [`IDENTIFIABLE_KPA`]; a group with none is
+/// not identifiable.
+fn informing_tests(
+    param: Param,
+    j0: &DMatrix<f64>,
+    start: &[f64],
+    tests: usize,
+) -> Vec<Vec<usize>> {
+    (0..start.len())
+        .map(|k| {
+            (0..tests)
+                .filter(|&t| (j0[(t, k)] * param.probe(start[k])).abs() >= IDENTIFIABLE_KPA)
+                .collect()
+        })
+        .collect()
+}
+
+/// θ of the free groups with the residuals and the Jacobian there.
+type FitPoint = (Vec<f64>, DVector<f64>, DMatrix<f64>);
+
+/// θ, residuals and Jacobian of the `free` groups at the start: those already evaluated for
+/// all `groups` when every group is free, else one more evaluation with the free ones alone.
+fn free_start(
+    problem: &Problem<'_>,
+    free: &[usize],
+    groups: usize,
+    start: Vec<f64>,
+    r0: DVector<f64>,
+    j0: DMatrix<f64>,
+) -> Result<FitPoint, FlowTestError> {
+    if free.len() == groups {
+        Ok((start, r0, j0))
+    } else {
+        let th: Vec<f64> = free.iter().map(|&k| start[k]).collect();
+        let (r, j) = problem.evaluate(&problem.apply(free, &th), free, &th)?;
+        Ok((th, r, j))
+    }
+}
+
+/// The fit's outcome as each group's fit is read from it: the free groups' θ (positions in
+/// `free`), every group's bounds on θ, and the standard errors of θ.
+struct Fitted<'a> {
+    param: Param,
+    free: &'a [usize],
+    theta: &'a [f64],
+    limits: &'a [(f64, f64)],
+    standard_errors: Option<Vec<f64>>,
+}
+
+impl Fitted<'_> {
+    /// Group `k`'s fit, with its length-weighted mean roughness and length `(before,
+    /// length_m)` and the tests that inform it; a group left out of the fit keeps `before`.
+    fn group_fit(&self, k: usize, g: &Group, mean: (f64, f64), tests: &[usize]) -> GroupFit {
+        let pos = self.free.iter().position(|&f| f == k);
+        let (before, length_m) = mean;
+        let (after, standard_error, at_bound) = match pos {
+            Some(p) => self.fitted_value(p, before, self.limits[k]),
+            None => (before, None, false),
+        };
+        GroupFit {
+            name: g.name.clone(),
+            pipes: g.pipes.len(),
+            length_m,
+            before,
+            after,
+            standard_error: standard_error.filter(|s| s.is_finite()),
+            identifiable: pos.is_some(),
+            at_bound,
+            tests: tests.to_vec(),
+        }
+    }
+
+    /// The mean roughness after the fit of the free group at position `p` (mean `before`,
+    /// bounds `(lo, hi)` on θ), its standard error, and whether θ stopped at a bound.
+    fn fitted_value(
+        &self,
+        p: usize,
+        before: f64,
+        (lo, hi): (f64, f64),
+    ) -> (f64, Option<f64>, bool) {
+        let f = self.param.factor(self.theta[p]);
+        let v = before * f;
+        // se(C) = mean·se(factor); for ln ε by the delta method, se(ε) ≈ ε·se(ln).
+        let se = self.standard_errors.as_ref().map(|s| match self.param.0 {
+            HeadlossFormula::HazenWilliams => before * s[p],
+            HeadlossFormula::DarcyWeisbach => v * s[p],
+        });
+        let at = (self.theta[p] - lo).abs() < 1e-9 || (self.theta[p] - hi).abs() < 1e-9;
+        (v, se, at)
+    }
 }
 
 /// Bounded Levenberg-Marquardt on θ (Marquardt's scaling by the diagonal of JᵀJ; steps
