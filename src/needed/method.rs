@@ -527,80 +527,16 @@ impl Checker<'_> {
         out
     }
 
+    /// In steps: the construction and occupancy factors, the largest C by construction class
+    /// (every class capped once), the dwelling rule, then the figures of the formula.
     fn insurance(&mut self, raw: RawInsurance) -> Method {
         let construction = self.factors(raw.construction, "[[construction]]");
         let occupancy = self.factors(raw.occupancy, "[[occupancy]]");
-        let mut c_maximum = Vec::new();
-        for limit in raw.c_maximum {
-            let mut classes = Vec::new();
-            for c in &limit.classes {
-                if !construction
-                    .iter()
-                    .any(|f| same_class(&f.class, c.get_ref()))
-                {
-                    let at = self.at(c.span());
-                    self.diags.error(
-                        at,
-                        format!(
-                            "[[c_maximum]] names class {}, which no [[construction]] row gives",
-                            quoted(c.get_ref())
-                        ),
-                        "name construction classes as the [[construction]] rows do",
-                    );
-                }
-                classes.push(c.get_ref().trim().to_string());
-            }
-            let value = self.positive(&limit.value, "[[c_maximum]] value");
-            c_maximum.push((
-                classes,
-                Datum {
-                    value,
-                    source: source(limit.source, limit.verified),
-                },
-            ));
-        }
-        for f in &construction {
-            if !c_maximum
-                .iter()
-                .any(|(cs, _)| cs.iter().any(|c| same_class(c, &f.class)))
-            {
-                self.diags.error(
-                    Location::file(self.file),
-                    format!(
-                        "construction class {} has no [[c_maximum]]",
-                        quoted(&f.class)
-                    ),
-                    "list every construction class in one [[c_maximum]] row",
-                );
-            }
-        }
-        let dwelling = raw.dwelling.map(|d| {
-            let rows = self.bands(d.row, "[[dwelling.row]]", 1);
-            if occupancy
-                .iter()
-                .any(|o| same_class(&o.class, d.occupancy.get_ref()))
-            {
-                let at = self.at(d.occupancy.span());
-                self.diags.error(
-                    at,
-                    "the dwelling occupancy is also an [[occupancy]] class",
-                    "give the dwelling rule its own occupancy name, such as \"dwelling\"",
-                );
-            }
-            if *d.max_stories.get_ref() == 0 {
-                let at = self.at(d.max_stories.span());
-                self.diags.error(
-                    at,
-                    "[dwelling] max_stories must be at least 1",
-                    "give the largest number of storeys the dwelling rule covers",
-                );
-            }
-            SeparationDwelling {
-                occupancy: d.occupancy.get_ref().trim().to_string(),
-                max_stories: *d.max_stories.get_ref(),
-                rows,
-            }
-        });
+        let c_maximum = self.c_maximum(raw.c_maximum, &construction);
+        self.check_every_class_capped(&construction, &c_maximum);
+        let dwelling = raw
+            .dwelling
+            .map(|d| self.separation_dwelling(d, &occupancy));
         let rule = Insurance {
             area_coefficient: self.datum(raw.area_coefficient, "area_coefficient"),
             c_step: self.datum(raw.c_rounding, "c_rounding"),
@@ -630,6 +566,101 @@ impl Checker<'_> {
         }
     }
 
+    /// The `[[c_maximum]]` rows, each naming classes that `[[construction]]` rows give.
+    fn c_maximum(
+        &mut self,
+        raw: Vec<RawClassLimit>,
+        construction: &[Factor],
+    ) -> Vec<(Vec<String>, Datum)> {
+        let mut c_maximum = Vec::new();
+        for limit in raw {
+            let mut classes = Vec::new();
+            for c in &limit.classes {
+                if !construction
+                    .iter()
+                    .any(|f| same_class(&f.class, c.get_ref()))
+                {
+                    let at = self.at(c.span());
+                    self.diags.error(
+                        at,
+                        format!(
+                            "[[c_maximum]] names class {}, which no [[construction]] row gives",
+                            quoted(c.get_ref())
+                        ),
+                        "name construction classes as the [[construction]] rows do",
+                    );
+                }
+                classes.push(c.get_ref().trim().to_string());
+            }
+            let value = self.positive(&limit.value, "[[c_maximum]] value");
+            c_maximum.push((
+                classes,
+                Datum {
+                    value,
+                    source: source(limit.source, limit.verified),
+                },
+            ));
+        }
+        c_maximum
+    }
+
+    /// Every construction class has its largest C in some `[[c_maximum]]` row.
+    fn check_every_class_capped(
+        &mut self,
+        construction: &[Factor],
+        c_maximum: &[(Vec<String>, Datum)],
+    ) {
+        for f in construction {
+            if !c_maximum
+                .iter()
+                .any(|(cs, _)| cs.iter().any(|c| same_class(c, &f.class)))
+            {
+                self.diags.error(
+                    Location::file(self.file),
+                    format!(
+                        "construction class {} has no [[c_maximum]]",
+                        quoted(&f.class)
+                    ),
+                    "list every construction class in one [[c_maximum]] row",
+                );
+            }
+        }
+    }
+
+    /// The `[dwelling]` rule: its bands by separation, under an occupancy name of its own and
+    /// for at least one storey.
+    fn separation_dwelling(
+        &mut self,
+        d: RawSeparationDwelling,
+        occupancy: &[Factor],
+    ) -> SeparationDwelling {
+        let rows = self.bands(d.row, "[[dwelling.row]]", 1);
+        if occupancy
+            .iter()
+            .any(|o| same_class(&o.class, d.occupancy.get_ref()))
+        {
+            let at = self.at(d.occupancy.span());
+            self.diags.error(
+                at,
+                "the dwelling occupancy is also an [[occupancy]] class",
+                "give the dwelling rule its own occupancy name, such as \"dwelling\"",
+            );
+        }
+        if *d.max_stories.get_ref() == 0 {
+            let at = self.at(d.max_stories.span());
+            self.diags.error(
+                at,
+                "[dwelling] max_stories must be at least 1",
+                "give the largest number of storeys the dwelling rule covers",
+            );
+        }
+        SeparationDwelling {
+            occupancy: d.occupancy.get_ref().trim().to_string(),
+            max_stories: *d.max_stories.get_ref(),
+            rows,
+        }
+    }
+
     fn sprinklers(&mut self, raw: BTreeMap<String, String>) -> Vec<(String, String)> {
         if !raw
             .keys()
@@ -644,84 +675,25 @@ impl Checker<'_> {
         raw.into_iter().collect()
     }
 
+    /// In steps: the columns, the rows, the durations and sprinkler classes, the dwelling rule
+    /// and the sprinkler reductions (each naming sprinkler classes that are checked against
+    /// `[sprinklers]` once both are read).
     fn table(&mut self, raw: RawTable) -> Method {
-        let columns: Vec<Column> = raw
-            .column
-            .iter()
-            .map(|c| Column {
-                name: c.name.get_ref().trim().to_string(),
-                classes: c
-                    .classes
-                    .iter()
-                    .map(|s| s.get_ref().trim().to_string())
-                    .collect(),
-            })
-            .collect();
+        let columns = columns(&raw.column);
         self.check_columns(&raw.column);
         let rows = self.rows(&raw.row, &columns);
         let durations = self.bands(raw.duration, "[[duration]]", 1);
         let sprinklers = self.sprinklers(raw.sprinklers);
-        let known_sprinkler = |s: &str| sprinklers.iter().any(|(k, _)| same_class(k, s));
         let mut unknown_sprinklers = Vec::new();
-        let dwelling = raw.dwelling.map(|d| TableDwelling {
-            occupancies: d
-                .occupancies
-                .iter()
-                .map(|s| s.get_ref().trim().to_string())
-                .collect(),
-            rows: d
-                .row
-                .into_iter()
-                .filter_map(|r| {
-                    let span = r.span();
-                    let r = r.into_inner();
-                    for s in &r.sprinklers {
-                        if !known_sprinkler(s.get_ref()) {
-                            unknown_sprinklers.push((s.get_ref().clone(), s.span()));
-                        }
-                    }
-                    self.dwelling_row(r, span)
-                })
-                .collect(),
-        });
-        let mut reductions = Vec::new();
-        for r in raw.sprinkler_reduction {
-            for s in &r.sprinklers {
-                if !known_sprinkler(s.get_ref()) {
-                    unknown_sprinklers.push((s.get_ref().clone(), s.span()));
-                }
-            }
-            let fraction = self.positive(&r.fraction, "[[sprinkler_reduction]] fraction");
-            if fraction > 1.0 {
-                let at = self.at(r.fraction.span());
-                self.diags.error(
-                    at,
-                    "a sprinkler reduction's fraction is the share of the table flow that remains, at most 1",
-                    "write 0.25 for \"25 % of the table value\"",
-                );
-            }
-            reductions.push(Reduction {
-                sprinklers: r
-                    .sprinklers
-                    .iter()
-                    .map(|s| s.get_ref().trim().to_string())
-                    .collect(),
-                fraction,
-                floor: self.positive(&r.floor, "[[sprinkler_reduction]] floor"),
-                source: source(r.source, r.verified),
-            });
-        }
-        for (s, span) in unknown_sprinklers {
-            let at = self.at(span);
-            self.diags.error(
-                at,
-                format!(
-                    "sprinkler class {} is not listed under [sprinklers]",
-                    quoted(&s)
-                ),
-                "list the class under [sprinklers] with what it means, or correct the name",
-            );
-        }
+        let dwelling = raw
+            .dwelling
+            .map(|d| self.table_dwelling(d, &sprinklers, &mut unknown_sprinklers));
+        let reductions = self.reductions(
+            raw.sprinkler_reduction,
+            &sprinklers,
+            &mut unknown_sprinklers,
+        );
+        self.report_unknown_sprinklers(unknown_sprinklers);
         Method {
             name: raw.name,
             document: raw.document,
@@ -735,15 +707,80 @@ impl Checker<'_> {
                 columns,
                 rows,
                 durations,
-                occupancies: raw
-                    .occupancies
-                    .iter()
-                    .map(|s| s.get_ref().trim().to_string())
-                    .collect(),
+                occupancies: trimmed(&raw.occupancies),
                 sprinklers,
                 dwelling,
                 reductions,
             }),
+        }
+    }
+
+    /// The table's dwelling rule; the sprinkler classes its rows name that `[sprinklers]`
+    /// does not list are added to `unknown`.
+    fn table_dwelling(
+        &mut self,
+        d: RawTableDwelling,
+        sprinklers: &[(String, String)],
+        unknown: &mut Vec<(String, std::ops::Range<usize>)>,
+    ) -> TableDwelling {
+        TableDwelling {
+            occupancies: trimmed(&d.occupancies),
+            rows: d
+                .row
+                .into_iter()
+                .filter_map(|r| {
+                    let span = r.span();
+                    let r = r.into_inner();
+                    unknown_sprinklers(&r.sprinklers, sprinklers, unknown);
+                    self.dwelling_row(r, span)
+                })
+                .collect(),
+        }
+    }
+
+    /// The `[[sprinkler_reduction]]` rows; the sprinkler classes they name that
+    /// `[sprinklers]` does not list are added to `unknown`.
+    fn reductions(
+        &mut self,
+        raw: Vec<RawReduction>,
+        sprinklers: &[(String, String)],
+        unknown: &mut Vec<(String, std::ops::Range<usize>)>,
+    ) -> Vec<Reduction> {
+        let mut reductions = Vec::new();
+        for r in raw {
+            unknown_sprinklers(&r.sprinklers, sprinklers, unknown);
+            let fraction = self.positive(&r.fraction, "[[sprinkler_reduction]] fraction");
+            if fraction > 1.0 {
+                let at = self.at(r.fraction.span());
+                self.diags.error(
+                    at,
+                    "a sprinkler reduction's fraction is the share of the table flow that remains, at most 1",
+                    "write 0.25 for \"25 % of the table value\"",
+                );
+            }
+            reductions.push(Reduction {
+                sprinklers: trimmed(&r.sprinklers),
+                fraction,
+                floor: self.positive(&r.floor, "[[sprinkler_reduction]] floor"),
+                source: source(r.source, r.verified),
+            });
+        }
+        reductions
+    }
+
+    /// One error per sprinkler class named outside `[sprinklers]` but not listed there, in
+    /// the order they were met.
+    fn report_unknown_sprinklers(&mut self, unknown: Vec<(String, std::ops::Range<usize>)>) {
+        for (s, span) in unknown {
+            let at = self.at(span);
+            self.diags.error(
+                at,
+                format!(
+                    "sprinkler class {} is not listed under [sprinklers]",
+                    quoted(&s)
+                ),
+                "list the class under [sprinklers] with what it means, or correct the name",
+            );
         }
     }
 
@@ -886,6 +923,37 @@ impl Checker<'_> {
                 .map(|h| self.positive(h, "a dwelling row's hours")),
             source: source(r.source, r.verified),
         })
+    }
+}
+
+/// The table's columns as written: each name with its construction types, trimmed.
+fn columns(raw: &[RawColumn]) -> Vec<Column> {
+    raw.iter()
+        .map(|c| Column {
+            name: c.name.get_ref().trim().to_string(),
+            classes: trimmed(&c.classes),
+        })
+        .collect()
+}
+
+/// The names of a list, without their surrounding spaces.
+fn trimmed(names: &[Spanned<String>]) -> Vec<String> {
+    names
+        .iter()
+        .map(|s| s.get_ref().trim().to_string())
+        .collect()
+}
+
+/// Adds to `unknown` each class of `named` (with its place) that `sprinklers` does not list.
+fn unknown_sprinklers(
+    named: &[Spanned<String>],
+    sprinklers: &[(String, String)],
+    unknown: &mut Vec<(String, std::ops::Range<usize>)>,
+) {
+    for s in named {
+        if !sprinklers.iter().any(|(k, _)| same_class(k, s.get_ref())) {
+            unknown.push((s.get_ref().clone(), s.span()));
+        }
     }
 }
 
