@@ -41,6 +41,8 @@ fn io(path: &Path) -> impl FnOnce(std::io::Error) -> CliError + '_ {
     }
 }
 
+/// In steps: this run's hydrants and journal, a shard already complete, the sweep of what
+/// the journal does not hold yet, then the shard's partial or the whole run's files.
 pub(super) fn run(
     args: &CheckArgs,
     out: &Path,
@@ -48,14 +50,14 @@ pub(super) fn run(
     setup: &FireFlowSetup<'_>,
     threads: Option<usize>,
 ) -> Result<Outcome, CliError> {
-    // This run's hydrants: the shard's positions of the selection, or all of it.
-    let mine: Vec<usize> = match args.shard {
-        Some(s) => s
-            .positions(inputs.indices.len())
-            .map(|p| inputs.indices[p])
-            .collect(),
-        None => inputs.indices.clone(),
+    let run = JournalledRun {
+        args,
+        out,
+        inputs,
+        setup,
+        threads,
     };
+    let mine = run.hydrants();
     let header = header(args, inputs, mine.len())?;
     firemain::report::create_output_folder(out)?;
     let journal_path = out.join(match args.shard {
@@ -64,83 +66,154 @@ pub(super) fn run(
     });
     let partial_path = args.shard.map(|s| out.join(partial_name(s)));
 
-    if let (true, Some(shard), Some(partial)) = (args.resume, args.shard, &partial_path) {
-        if partial.exists() {
-            let j = read_journal(partial)?;
-            check_resumable(partial, &j, &header)?;
-            if !args.quiet {
-                eprintln!("shard {shard} is already complete: {}", partial.display());
-            }
-            return Ok(Outcome::Success);
-        }
+    if run.shard_already_complete(partial_path.as_deref(), &header)? {
+        return Ok(Outcome::Success);
     }
     let (writer, earlier) = open_journal(args, &journal_path, partial_path.as_deref(), &header)?;
-
-    // Results already journalled (of this run's hydrants, once each), and what is left to do.
-    let wanted: std::collections::HashSet<usize> = mine.iter().copied().collect();
-    let mut have: HashMap<usize, HydrantResult> = earlier
-        .into_iter()
-        .filter(|r| wanted.contains(&r.hydrant))
-        .map(|r| (r.hydrant, r))
-        .collect();
-    let todo: Vec<usize> = mine
-        .iter()
-        .copied()
-        .filter(|h| !have.contains_key(h))
-        .collect();
-    if args.resume && !args.quiet {
-        eprintln!(
-            "resuming: {} of {} hydrants already in {}",
-            have.len(),
-            mine.len(),
-            journal_path.display()
-        );
-    }
-    let before = have.len();
-    let bar = SweepBar::new(mine.len(), before, args.quiet);
-    let (new, stats) = sweep_each(setup, &todo, threads, &|r, done| {
-        writer.record(r);
-        bar.set(before + done);
-    })
-    .map_err(CliError::Threads)?;
-    bar.finish();
-    for r in new {
-        have.insert(r.hydrant, r);
-    }
-    let results: Vec<HydrantResult> = mine.iter().filter_map(|h| have.remove(h)).collect();
+    let (results, stats) = run.sweep(&mine, &journal_path, &writer, earlier)?;
     let stats = all_counters(stats, &results);
 
     match (args.shard, partial_path) {
-        (Some(shard), Some(partial)) => {
-            writer.into_partial(&partial)?;
-            emit(shard_summary(shard, &results));
-            if args.stats {
-                eprintln!("{}", super::check::stats_line(&stats));
-            }
-            if !args.quiet {
-                eprintln!("wrote {}", partial.display());
-            }
-            Ok(Outcome::Success)
+        (Some(shard), Some(partial)) => run.finish_shard(shard, &partial, writer, &results, &stats),
+        _ => run.finish_whole(&journal_path, writer, &results, &stats),
+    }
+}
+
+/// One journalled `check`: its command line, output folder, inputs and set-up.
+struct JournalledRun<'r, 'a> {
+    args: &'r CheckArgs,
+    out: &'r Path,
+    inputs: &'r Inputs,
+    setup: &'r FireFlowSetup<'a>,
+    threads: Option<usize>,
+}
+
+impl JournalledRun<'_, '_> {
+    /// This run's hydrants: the shard's positions of the selection, or all of it.
+    fn hydrants(&self) -> Vec<usize> {
+        let inputs = self.inputs;
+        match self.args.shard {
+            Some(s) => s
+                .positions(inputs.indices.len())
+                .map(|p| inputs.indices[p])
+                .collect(),
+            None => inputs.indices.clone(),
         }
-        _ => {
-            // The results are in memory: a journal that could not be written costs only the
-            // ability to resume, not this run's files.
-            if let Err(e) = writer.finish() {
-                eprintln!("firemain: warning: {e}; the run goes on without its journal");
+    }
+
+    /// Under `--resume`, whether the shard's partial is already there (and of these inputs):
+    /// then there is nothing left to do.
+    fn shard_already_complete(
+        &self,
+        partial_path: Option<&Path>,
+        header: &Header,
+    ) -> Result<bool, CliError> {
+        let args = self.args;
+        if let (true, Some(shard), Some(partial)) = (args.resume, args.shard, partial_path) {
+            if partial.exists() {
+                let j = read_journal(partial)?;
+                check_resumable(partial, &j, header)?;
+                if !args.quiet {
+                    eprintln!("shard {shard} is already complete: {}", partial.display());
+                }
+                return Ok(true);
             }
-            let assembly = Assembly {
-                threads,
-                out: Some(out),
-                network_dir: &args.network,
-                quiet: args.quiet,
-                stats: args.stats.then_some(&stats),
-                geojson: args.geojson,
-            };
-            let outcome = assembly.report(inputs, setup, &results)?;
-            // The set is in place: the journal has served.
-            let _ = std::fs::remove_file(&journal_path);
-            Ok(outcome)
         }
+        Ok(false)
+    }
+
+    /// Sweeps the hydrants of `mine` that `earlier` (the journal's results) does not hold,
+    /// journalling each result as it comes; returns every result of `mine`, in its order,
+    /// with the counters of this sweep.
+    fn sweep(
+        &self,
+        mine: &[usize],
+        journal_path: &Path,
+        writer: &JournalWriter,
+        earlier: Vec<HydrantResult>,
+    ) -> Result<(Vec<HydrantResult>, SweepStats), CliError> {
+        let args = self.args;
+        // Results already journalled (of this run's hydrants, once each), and what is left to do.
+        let wanted: std::collections::HashSet<usize> = mine.iter().copied().collect();
+        let mut have: HashMap<usize, HydrantResult> = earlier
+            .into_iter()
+            .filter(|r| wanted.contains(&r.hydrant))
+            .map(|r| (r.hydrant, r))
+            .collect();
+        let todo: Vec<usize> = mine
+            .iter()
+            .copied()
+            .filter(|h| !have.contains_key(h))
+            .collect();
+        if args.resume && !args.quiet {
+            eprintln!(
+                "resuming: {} of {} hydrants already in {}",
+                have.len(),
+                mine.len(),
+                journal_path.display()
+            );
+        }
+        let before = have.len();
+        let bar = SweepBar::new(mine.len(), before, args.quiet);
+        let (new, stats) = sweep_each(self.setup, &todo, self.threads, &|r, done| {
+            writer.record(r);
+            bar.set(before + done);
+        })
+        .map_err(CliError::Threads)?;
+        bar.finish();
+        for r in new {
+            have.insert(r.hydrant, r);
+        }
+        let results: Vec<HydrantResult> = mine.iter().filter_map(|h| have.remove(h)).collect();
+        Ok((results, stats))
+    }
+
+    /// A shard's end: its journal becomes its partial, and its summary goes to stdout.
+    fn finish_shard(
+        &self,
+        shard: Shard,
+        partial: &Path,
+        writer: JournalWriter,
+        results: &[HydrantResult],
+        stats: &SweepStats,
+    ) -> Result<Outcome, CliError> {
+        writer.into_partial(partial)?;
+        emit(shard_summary(shard, results));
+        if self.args.stats {
+            eprintln!("{}", super::check::stats_line(stats));
+        }
+        if !self.args.quiet {
+            eprintln!("wrote {}", partial.display());
+        }
+        Ok(Outcome::Success)
+    }
+
+    /// A whole run's end: its files are written, and then its journal is removed.
+    fn finish_whole(
+        &self,
+        journal_path: &Path,
+        writer: JournalWriter,
+        results: &[HydrantResult],
+        stats: &SweepStats,
+    ) -> Result<Outcome, CliError> {
+        let args = self.args;
+        // The results are in memory: a journal that could not be written costs only the
+        // ability to resume, not this run's files.
+        if let Err(e) = writer.finish() {
+            eprintln!("firemain: warning: {e}; the run goes on without its journal");
+        }
+        let assembly = Assembly {
+            threads: self.threads,
+            out: Some(self.out),
+            network_dir: &args.network,
+            quiet: args.quiet,
+            stats: args.stats.then_some(stats),
+            geojson: args.geojson,
+        };
+        let outcome = assembly.report(self.inputs, self.setup, results)?;
+        // The set is in place: the journal has served.
+        let _ = std::fs::remove_file(journal_path);
+        Ok(outcome)
     }
 }
 
