@@ -35,15 +35,36 @@ pub struct PipeShare {
 }
 
 /// The supply-path pipes of junction `binding` in `sol`, largest share first, at most `keep`.
+///
+/// In steps: each node's inflowing links, the part of the flow graph upstream of `binding`,
+/// the weights passed back through it, then each pipe's share of the head lost.
 pub fn supply_path_shares(
     net: &Network,
     sol: &Solution,
     binding: usize,
     keep: usize,
 ) -> Vec<PipeShare> {
-    let n = net.nodes.len();
-    // Inflowing links of every node, by flow direction in this solution.
-    let mut inflow_links: Vec<Vec<(usize, usize, f64)>> = vec![Vec::new(); n];
+    let inflow_links = inflow_links(net, sol);
+    let upstream = upstream_of(binding, &inflow_links);
+    let link_weight = link_weights(net, &inflow_links, &upstream, binding);
+    let mut shares = pipe_shares(net, sol, &link_weight);
+    let total: f64 = shares.iter().map(|s| s.share).sum();
+    if total > 0.0 {
+        for s in &mut shares {
+            s.share /= total;
+        }
+    }
+    shares.sort_by(|a, b| b.share.total_cmp(&a.share).then(a.link.cmp(&b.link)));
+    shares.truncate(keep);
+    shares
+}
+
+/// Per node, the links that flow into it: (link, upstream node, |flow| m³/s).
+type InflowLinks = Vec<Vec<(usize, usize, f64)>>;
+
+/// Inflowing links of every node, by flow direction in this solution.
+fn inflow_links(net: &Network, sol: &Solution) -> InflowLinks {
+    let mut inflow_links: InflowLinks = vec![Vec::new(); net.nodes.len()];
     for (i, l) in net.links.iter().enumerate() {
         let q = sol.flows_m3s[i];
         if l.from == l.to || q == 0.0 {
@@ -56,8 +77,12 @@ pub fn supply_path_shares(
         };
         inflow_links[down].push((i, up, q.abs()));
     }
-    // The upstream part of the flow graph, walked backwards from the binding junction.
-    let mut upstream = vec![false; n];
+    inflow_links
+}
+
+/// The upstream part of the flow graph, walked backwards from the binding junction.
+fn upstream_of(binding: usize, inflow_links: &InflowLinks) -> Vec<bool> {
+    let mut upstream = vec![false; inflow_links.len()];
     upstream[binding] = true;
     let mut stack = vec![binding];
     while let Some(k) = stack.pop() {
@@ -68,8 +93,19 @@ pub fn supply_path_shares(
             }
         }
     }
-    // A node passes its weight on once every node it feeds inside that part has passed theirs
-    // (Kahn's order; flow runs downhill except across pumps, so heads alone cannot order it).
+    upstream
+}
+
+/// Each link's weight: the fraction of the water reaching `binding` that passed through it.
+/// A node passes its weight on once every node it feeds inside that part has passed theirs
+/// (Kahn's order; flow runs downhill except across pumps, so heads alone cannot order it).
+fn link_weights(
+    net: &Network,
+    inflow_links: &InflowLinks,
+    upstream: &[bool],
+    binding: usize,
+) -> Vec<f64> {
+    let n = inflow_links.len();
     let mut pending = vec![0usize; n];
     for k in (0..n).filter(|&k| upstream[k]) {
         for &(_, up, _) in &inflow_links[k] {
@@ -96,8 +132,12 @@ pub fn supply_path_shares(
             }
         }
     }
-    let mut shares: Vec<PipeShare> = net
-        .links
+    link_weight
+}
+
+/// Every pipe with a weight, its share not yet normalised: weight × head loss.
+fn pipe_shares(net: &Network, sol: &Solution, link_weight: &[f64]) -> Vec<PipeShare> {
+    net.links
         .iter()
         .enumerate()
         .filter_map(|(i, l)| {
@@ -122,14 +162,5 @@ pub fn supply_path_shares(
                 velocity_m_per_s: sol.velocity_m_per_s(net, i).abs(),
             })
         })
-        .collect();
-    let total: f64 = shares.iter().map(|s| s.share).sum();
-    if total > 0.0 {
-        for s in &mut shares {
-            s.share /= total;
-        }
-    }
-    shares.sort_by(|a, b| b.share.total_cmp(&a.share).then(a.link.cmp(&b.link)));
-    shares.truncate(keep);
-    shares
+        .collect()
 }
