@@ -166,7 +166,22 @@ struct Search<'s, 'a> {
     region: Option<Region>,
 }
 
-impl Search<'_, '_> {
+impl<'s, 'a> Search<'s, 'a> {
+    /// A search at junction `at` up to `cap`, with no solve made yet.
+    fn new(setup: &'s FireFlowSetup<'a>, ws: &'s mut Workspace, at: usize, cap: f64) -> Self {
+        Search {
+            setup,
+            ws,
+            at,
+            cap,
+            unsettled: Vec::new(),
+            states_changed: false,
+            role: SolveRole::Other,
+            work: WorkByRole::default(),
+            region: None,
+        }
+    }
+
     /// Runs `step` with its solves counted under `role`.
     fn in_role<T>(&mut self, role: SolveRole, step: impl FnOnce(&mut Self) -> T) -> T {
         let outer = std::mem::replace(&mut self.role, role);
@@ -1202,28 +1217,67 @@ fn predict(a: &Point, b: &Point, q: f64) -> Solution {
 }
 
 /// Analyses hydrant `index` of the network. Never fails: a failed analysis is an `error` row.
+///
+/// In steps: the workspace back at the max-day state, the hydrant's required flow, the search
+/// ([`run`]), then for a failing hydrant its delivered state, and the work it took.
 pub fn analyse_hydrant(
     setup: &FireFlowSetup<'_>,
     ws: &mut Workspace,
     index: usize,
 ) -> HydrantResult {
-    // Each hydrant starts from the max-day factorization, so that its result does not depend
-    // on which thread analysed it or what that thread analysed before.
+    start_from_max_day(setup, ws);
+    let net = setup.network();
+    let hydrant = &net.hydrants[index];
+    let at = hydrant.junction;
+    let mut result = unanswered(setup, index, at);
+    let Some((required, source)) = setup.criteria.required_flow(hydrant) else {
+        result.notes.push(HydrantNote::Error {
+            reason: "no required flow: the hydrant has none, its class is not in the criteria, and the criteria give no default".into(),
+        });
+        return result;
+    };
+    let required = on_grid(required, net.units);
+    result.required_m3s = required;
+    result.required_source = source;
+    let cap = setup.criteria.search_cap_m3s;
+    let mut search = Search::new(setup, ws, at, search_cap(required, cap, net.units));
+    if required > cap {
+        // The search must reach the required flow for pass/fail to be decided.
+        result
+            .notes
+            .push(HydrantNote::RequiredAboveCap { cap_m3s: cap });
+    }
+    let answer_state = run(&mut search, required, &mut result);
+    if !search.unsettled.is_empty() {
+        unsettled_row(&search, &mut result);
+    }
+    if result.outcome == Outcome::Fail {
+        search.delivered_at_required(required, answer_state.as_ref(), &mut result);
+    }
+    record_work(&mut result, search.work);
+    result
+}
+
+/// Each hydrant starts from the max-day factorization, so that its result does not depend
+/// on which thread analysed it or what that thread analysed before.
+fn start_from_max_day(setup: &FireFlowSetup<'_>, ws: &mut Workspace) {
     ws.set_tolerance(Tolerance::SEARCH);
     match &setup.base_factor {
         Some(snapshot) => ws.restore(snapshot),
         None => ws.forget_history(),
     }
-    let net = setup.network();
-    let hydrant = &net.hydrants[index];
-    let at = hydrant.junction;
-    let mut result = HydrantResult {
+}
+
+/// Hydrant `index`'s row (its junction `at`) before any search: its static pressure, and an
+/// `error` outcome until the search finds an answer.
+fn unanswered(setup: &FireFlowSetup<'_>, index: usize, at: usize) -> HydrantResult {
+    HydrantResult {
         hydrant: index,
         junction: at,
         required_m3s: 0.0,
         required_source: crate::criteria::RequiredSource::Default,
         available_m3s: None,
-        static_kpa: Some(setup.base.pressure_kpa(net, at)),
+        static_kpa: Some(setup.base.pressure_kpa(setup.network(), at)),
         residual_kpa: None,
         min_pressure_kpa: None,
         min_pressure_junction: None,
@@ -1238,52 +1292,49 @@ pub fn analyse_hydrant(
         iterations: 0,
         factorizations: 0,
         work_by_role: WorkByRole::default(),
-    };
-    let Some((required, source)) = setup.criteria.required_flow(hydrant) else {
-        result.notes.push(HydrantNote::Error {
-            reason: "no required flow: the hydrant has none, its class is not in the criteria, and the criteria give no default".into(),
-        });
-        return result;
-    };
-    let required = on_grid(required, net.units);
-    result.required_m3s = required;
-    result.required_source = source;
-    let cap = setup.criteria.search_cap_m3s;
-    let mut search = Search {
-        setup,
-        ws,
-        at,
-        cap: if required > cap {
-            on_grid(required, net.units)
-        } else {
-            on_grid(cap, net.units)
-        },
-        unsettled: Vec::new(),
-        states_changed: false,
-        role: SolveRole::Other,
-        work: WorkByRole::default(),
-        region: None,
-    };
+    }
+}
+
+/// The search's upper limit, on the reporting grid: the criteria's `cap`, or the `required`
+/// flow when that is larger.
+fn search_cap(required: f64, cap: f64, units: UnitSystem) -> f64 {
     if required > cap {
-        // The search must reach the required flow for pass/fail to be decided.
-        result
-            .notes
-            .push(HydrantNote::RequiredAboveCap { cap_m3s: cap });
+        on_grid(required, units)
+    } else {
+        on_grid(cap, units)
     }
-    let answer_state = run(&mut search, required, &mut result);
-    if !search.unsettled.is_empty() {
-        unsettled_row(&search, &mut result);
-    }
-    if result.outcome == Outcome::Fail {
-        // The physical state at the required flow (criteria `[fire] pressure_dependent`).
-        let start = answer_state.as_ref().unwrap_or(&setup.base);
-        let delivered = super::delivered::delivered_state(setup, search.ws, at, required, start);
+}
+
+/// The hydrant's counters: the total of its work by role.
+fn record_work(result: &mut HydrantResult, work: WorkByRole) {
+    let total = work.total();
+    // A hydrant's own counters are far below u32::MAX (a few hundred solves at most).
+    let narrow = |n: u64| u32::try_from(n).unwrap_or(u32::MAX);
+    result.solves = narrow(total.solves);
+    result.iterations = narrow(total.iterations);
+    result.factorizations = narrow(total.factorizations);
+    result.work_by_role = work;
+}
+
+impl Search<'_, '_> {
+    /// A failing hydrant's physical state at the required flow (criteria `[fire]
+    /// pressure_dependent`), started from the answer's state (`None`: the max-day state), and
+    /// the work it took.
+    fn delivered_at_required(
+        &mut self,
+        required: f64,
+        answer_state: Option<&Solution>,
+        result: &mut HydrantResult,
+    ) {
+        let setup = self.setup;
+        let start = answer_state.unwrap_or(&setup.base);
+        let delivered = super::delivered::delivered_state(setup, self.ws, self.at, required, start);
         let (iterations, factorizations) = match &delivered {
             Ok(Some(d)) => (d.iterations, d.factorizations),
             _ => (0, 0),
         };
         let solves = u32::from(setup.criteria.pressure_dependent.is_some());
-        search.work.add(
+        self.work.add(
             SolveRole::Other,
             SolveWork::of(solves, iterations, factorizations),
         );
@@ -1294,14 +1345,6 @@ pub fn analyse_hydrant(
                 .push(HydrantNote::DeliveredUnavailable { reason }),
         }
     }
-    let total = search.work.total();
-    // A hydrant's own counters are far below u32::MAX (a few hundred solves at most).
-    let narrow = |n: u64| u32::try_from(n).unwrap_or(u32::MAX);
-    result.solves = narrow(total.solves);
-    result.iterations = narrow(total.iterations);
-    result.factorizations = narrow(total.factorizations);
-    result.work_by_role = search.work;
-    result
 }
 
 /// A hydrant whose solves met controls that did not settle has no verified answer: an `error`
