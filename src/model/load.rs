@@ -391,6 +391,27 @@ impl Reader {
         true
     }
 
+    /// The link `id` from `from` to `to`, its line that of its id, unless the id is taken
+    /// (then reported).
+    fn claimed_link(
+        &mut self,
+        id: &Cell<'_>,
+        file: &str,
+        (from, to): (usize, usize),
+        kind: LinkKind,
+    ) -> Option<Link> {
+        if !self.claim_link_id(id, file) {
+            return None;
+        }
+        Some(Link {
+            id: id.text.to_string(),
+            from,
+            to,
+            kind,
+            line: id.line,
+        })
+    }
+
     fn claim_link_id(&mut self, id: &Cell<'_>, file: &str) -> bool {
         if let Some((other_file, other_line)) = self.link_lines.get(id.text) {
             self.diags.error(
@@ -668,16 +689,7 @@ impl Reader {
             );
             return None;
         }
-        if !self.claim_link_id(&id, file) {
-            return None;
-        }
-        Some(Link {
-            id: id.text.to_string(),
-            from,
-            to,
-            kind: LinkKind::Pipe(pipe),
-            line: row.line,
-        })
+        self.claimed_link(&id, file, (from, to), LinkKind::Pipe(pipe))
     }
 
     fn pumps(&mut self, t: &Table) {
@@ -740,24 +752,18 @@ impl Reader {
                 );
                 continue;
             };
-            if !self.claim_link_id(&id, file) {
-                continue;
+            let pump = Pump {
+                shutoff_head_m: a,
+                coefficient_b: b,
+                exponent_c: c_exp,
+                speed,
+                on,
+                design_point: (q1, h1),
+                runout_point: (q2, h2),
+            };
+            if let Some(link) = self.claimed_link(&id, file, (from, to), LinkKind::Pump(pump)) {
+                self.links.push(link);
             }
-            self.links.push(Link {
-                id: id.text.to_string(),
-                from,
-                to,
-                kind: LinkKind::Pump(Pump {
-                    shutoff_head_m: a,
-                    coefficient_b: b,
-                    exponent_c: c_exp,
-                    speed,
-                    on,
-                    design_point: (q1, h1),
-                    runout_point: (q2, h2),
-                }),
-                line: row.line,
-            });
         }
     }
 
@@ -808,16 +814,7 @@ impl Reader {
         if !self.regulate(regulated, &loc, id.text, (from, to), &valve) {
             return None;
         }
-        if !self.claim_link_id(&id, file) {
-            return None;
-        }
-        Some(Link {
-            id: id.text.to_string(),
-            from,
-            to,
-            kind: LinkKind::Valve(valve),
-            line: row.line,
-        })
+        self.claimed_link(&id, file, (from, to), LinkKind::Valve(valve))
     }
 
     /// Registers the junction an active PRV or PSV controls (the downstream end of a PRV, the
