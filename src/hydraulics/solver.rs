@@ -1680,40 +1680,13 @@ impl<'n> Hydraulics<'n> {
         states: &[LinkState],
         held: Option<usize>,
     ) -> Result<Isolation, SolveError> {
-        let nj = self.n_junctions;
         // When every element that can change state conducts, the conducting links are the
         // links that validation found joining every junction to a source: nothing is cut off.
         let all_controls_conduct = self.controlled.iter().all(|&i| states[i].conducts());
         if all_controls_conduct {
             return Ok(Isolation::Cut(Vec::new()));
         }
-        let mut reached = vec![false; nj];
-        let mut stack: Vec<usize> = Vec::new();
-        // Junctions held by a regulating valve are fixed grades fed through it; a junction
-        // held by the request is not: it draws, and must itself be reached.
-        for j in 0..nj {
-            if ws.pinned[j].is_some() && Some(j) != held {
-                reached[j] = true;
-                stack.push(j);
-            }
-        }
-        let visit = |n: usize, reached: &mut Vec<bool>, stack: &mut Vec<usize>| {
-            for &i in self.links_at(n) {
-                let (a, b) = self.ends[i];
-                let other = if a == n { b } else { a };
-                if other < nj && states[i].conducts() && !reached[other] {
-                    reached[other] = true;
-                    stack.push(other);
-                }
-            }
-        };
-        for source in nj..self.net.nodes.len() {
-            visit(source, &mut reached, &mut stack);
-        }
-        while let Some(n) = stack.pop() {
-            visit(n, &mut reached, &mut stack);
-        }
-        let cut: Vec<usize> = (0..nj).filter(|&j| !reached[j]).collect();
+        let cut = self.cut_off_junctions(ws, states, held);
         if cut.is_empty() {
             return Ok(Isolation::Cut(cut));
         }
@@ -1740,24 +1713,74 @@ impl<'n> Hydraulics<'n> {
             .map(|&j| self.net.nodes[j].id.clone())
             .collect();
         if !unsupplied.is_empty() {
-            let closed: Vec<String> = self
-                .net
-                .links
-                .iter()
-                .enumerate()
-                .filter(|(i, l)| {
-                    !states[*i].conducts()
-                        && (cut.binary_search(&l.from).is_ok() || cut.binary_search(&l.to).is_ok())
-                })
-                .map(|(_, l)| l.id.clone())
-                .take(10)
-                .collect();
-            return Err(SolveError::Unsupplied {
-                junctions: unsupplied,
-                closed_links: closed,
-            });
+            return Err(self.unsupplied_error(unsupplied, &cut, states));
         }
         Ok(Isolation::Cut(cut))
+    }
+
+    /// The junctions that no conducting path joins to a fixed grade (in increasing order),
+    /// found by a search over conducting links from the sources and from the junctions that
+    /// regulating valves hold.
+    fn cut_off_junctions(
+        &self,
+        ws: &Workspace,
+        states: &[LinkState],
+        held: Option<usize>,
+    ) -> Vec<usize> {
+        let nj = self.n_junctions;
+        let mut reached = vec![false; nj];
+        let mut stack: Vec<usize> = Vec::new();
+        // Junctions held by a regulating valve are fixed grades fed through it; a junction
+        // held by the request is not: it draws, and must itself be reached.
+        for j in 0..nj {
+            if ws.pinned[j].is_some() && Some(j) != held {
+                reached[j] = true;
+                stack.push(j);
+            }
+        }
+        let visit = |n: usize, reached: &mut Vec<bool>, stack: &mut Vec<usize>| {
+            for &i in self.links_at(n) {
+                let (a, b) = self.ends[i];
+                let other = if a == n { b } else { a };
+                if other < nj && states[i].conducts() && !reached[other] {
+                    reached[other] = true;
+                    stack.push(other);
+                }
+            }
+        };
+        for source in nj..self.net.nodes.len() {
+            visit(source, &mut reached, &mut stack);
+        }
+        while let Some(n) = stack.pop() {
+            visit(n, &mut reached, &mut stack);
+        }
+        (0..nj).filter(|&j| !reached[j]).collect()
+    }
+
+    /// The error for cut-off junctions with a demand: their ids, and up to ten closed links
+    /// that touch the cut-off part (the likely ones to open).
+    fn unsupplied_error(
+        &self,
+        unsupplied: Vec<String>,
+        cut: &[usize],
+        states: &[LinkState],
+    ) -> SolveError {
+        let closed: Vec<String> = self
+            .net
+            .links
+            .iter()
+            .enumerate()
+            .filter(|(i, l)| {
+                !states[*i].conducts()
+                    && (cut.binary_search(&l.from).is_ok() || cut.binary_search(&l.to).is_ok())
+            })
+            .map(|(_, l)| l.id.clone())
+            .take(10)
+            .collect();
+        SolveError::Unsupplied {
+            junctions: unsupplied,
+            closed_links: closed,
+        }
     }
 
     fn singular_error(&self, ws: &Workspace) -> SolveError {
