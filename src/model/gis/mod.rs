@@ -686,7 +686,8 @@ fn unique_hydrant_id(
     new
 }
 
-/// Every junction's elevation, from the pipes' end attributes or the survey points.
+/// Every junction's elevation, from the pipes' end attributes or the survey points; a
+/// junction left without one is an error.
 fn elevations(
     b: &mut Builder,
     mapping: &Mapping,
@@ -723,55 +724,78 @@ fn elevations(
                 );
                 return;
             };
-            let Some(pts) = read_points(path, "elevation", diags) else {
+            if !elevations_from_points(b, mapping, path, diags) {
                 return;
-            };
-            let unit = e
-                .unit
-                .unwrap_or(default_length(mapping.network.units))
-                .metres();
-            let index = elevation::ElevationPoints::new(&pts);
-            let k = e.neighbours.unwrap_or(DEFAULT_IDW_NEIGHBOURS);
-            for n in b.nodes.iter_mut().filter(|n| n.source.is_none()) {
-                let v = match e.method.unwrap_or(ElevationMethod::Nearest) {
-                    ElevationMethod::Nearest => index.nearest(n.pos[0], n.pos[1]),
-                    ElevationMethod::Idw => index.idw(n.pos[0], n.pos[1], k),
-                };
-                n.elevation_m = v.map(|v| v * unit);
             }
         }
         None => {}
     }
+    let at = match (from, points) {
+        (Some(ElevationSource::Points), Some(p)) => Location::file(p.display().to_string()),
+        _ => from_at,
+    };
+    report_missing_elevations(b, at, diags);
+}
+
+/// Each junction's elevation interpolated from the survey points in `path` (nearest point or
+/// inverse distance weighting, as `[elevations]` asks); false when the file cannot be read.
+fn elevations_from_points(
+    b: &mut Builder,
+    mapping: &Mapping,
+    path: &Path,
+    diags: &mut Diagnostics,
+) -> bool {
+    let e = &mapping.elevations;
+    let Some(pts) = read_points(path, "elevation", diags) else {
+        return false;
+    };
+    let unit = e
+        .unit
+        .unwrap_or(default_length(mapping.network.units))
+        .metres();
+    let index = elevation::ElevationPoints::new(&pts);
+    let k = e.neighbours.unwrap_or(DEFAULT_IDW_NEIGHBOURS);
+    for n in b.nodes.iter_mut().filter(|n| n.source.is_none()) {
+        let v = match e.method.unwrap_or(ElevationMethod::Nearest) {
+            ElevationMethod::Nearest => index.nearest(n.pos[0], n.pos[1]),
+            ElevationMethod::Idw => index.idw(n.pos[0], n.pos[1], k),
+        };
+        n.elevation_m = v.map(|v| v * unit);
+    }
+    true
+}
+
+/// One error for every junction still without an elevation, at `at`, listing the first 20
+/// by their coordinates.
+fn report_missing_elevations(b: &Builder, at: Location, diags: &mut Diagnostics) {
     let missing: Vec<String> = b
         .nodes
         .iter()
         .filter(|n| n.source.is_none() && n.elevation_m.is_none())
         .map(|n| format!("({}, {})", short(n.pos[0]), short(n.pos[1])))
         .collect();
-    if !missing.is_empty() {
-        let shown = missing
-            .iter()
-            .take(20)
-            .cloned()
-            .collect::<Vec<_>>()
-            .join(", ");
-        let more = if missing.len() > 20 {
-            format!(" and {} more", missing.len() - 20)
-        } else {
-            String::new()
-        };
-        diags.error(
-            match (from, points) {
-                (Some(ElevationSource::Points), Some(p)) => Location::file(p.display().to_string()),
-                _ => from_at,
-            },
-            format!(
-                "{} junction(s) have no elevation, at {shown}{more}",
-                missing.len()
-            ),
-            "set [elevations] from = \"attributes\" (with start/end pipe attributes filled at every line end) or \"points\" with an --elevations CSV",
-        );
+    if missing.is_empty() {
+        return;
     }
+    let shown = missing
+        .iter()
+        .take(20)
+        .cloned()
+        .collect::<Vec<_>>()
+        .join(", ");
+    let more = if missing.len() > 20 {
+        format!(" and {} more", missing.len() - 20)
+    } else {
+        String::new()
+    };
+    diags.error(
+        at,
+        format!(
+            "{} junction(s) have no elevation, at {shown}{more}",
+            missing.len()
+        ),
+        "set [elevations] from = \"attributes\" (with start/end pipe attributes filled at every line end) or \"points\" with an --elevations CSV",
+    );
 }
 
 fn elevations_from_samples(b: &mut Builder) {
