@@ -12,7 +12,9 @@ use rstar::{RTree, AABB};
 use super::mapping::Mapping;
 use super::read::{attribute_number, attribute_text, feature_label, InFeature, Layer};
 use crate::model::diagnostic::Diagnostics;
+use crate::model::limits;
 use crate::model::PipeStatus;
+use crate::units::{display_value, UnitSystem};
 
 /// What the import did to the data, one kind per row of import.csv.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]
@@ -222,7 +224,11 @@ pub fn read_lines(
                 parts[0][0],
                 &format!(
                     "no roughness (attribute empty, material not in the table): default {} used",
-                    mapping.pipes.default_roughness.unwrap_or(0.0)
+                    mapping
+                        .pipes
+                        .default_roughness
+                        .as_ref()
+                        .map_or(0.0, |r| *r.get_ref())
                 ),
             ));
         }
@@ -403,8 +409,8 @@ fn roughness_of(
     let (roughness, guessed) = match attribute {
         Some(r) => (Some(r), false),
         None => match material.and_then(|t| m.roughness_by_material.get(t)) {
-            Some(r) => (Some(*r), false),
-            None => (m.default_roughness, true),
+            Some(r) => (Some(*r.get_ref()), false),
+            None => (m.default_roughness.as_ref().map(|r| *r.get_ref()), true),
         },
     };
     match roughness.filter(|r| *r > 0.0) {
@@ -419,6 +425,26 @@ fn roughness_of(
             );
             None
         }
+    }
+}
+
+/// Why a pipe's roughness would be refused when the imported network is read, if it would:
+/// the bounds of the network loader (a Hazen-Williams C within the C factors pipes have; a
+/// Darcy-Weisbach roughness at most half the diameter), so that the import never writes a
+/// pipe the network files refuse.
+fn implausible_roughness(roughness: f64, diameter_m: f64, hazen_williams: bool) -> Option<String> {
+    if hazen_williams {
+        (!limits::C_FACTOR.holds(roughness))
+            .then(|| limits::C_FACTOR.message("the roughness", roughness, UnitSystem::Si))
+    } else {
+        (roughness > limits::MAX_RELATIVE_ROUGHNESS * diameter_m).then(|| {
+            format!(
+                "the roughness {} m is more than {} of the diameter {} m",
+                display_value(roughness),
+                display_value(limits::MAX_RELATIVE_ROUGHNESS),
+                display_value(diameter_m)
+            )
+        })
     }
 }
 
@@ -474,15 +500,24 @@ fn pipe_values(
     }
     let material = attribute_text(f, m.material.as_deref());
     let (roughness, guessed_roughness) = roughness_of(roughness, material.as_ref(), m, err)?;
+    let roughness = if units.hazen_williams {
+        roughness
+    } else {
+        roughness * units.roughness_m
+    };
+    let diameter_m = diameter * units.diameter_m;
+    if let Some(problem) = implausible_roughness(roughness, diameter_m, units.hazen_williams) {
+        err(
+            problem,
+            "give the Hazen-Williams C factor (about 40 to 150), or for Darcy-Weisbach the absolute roughness in [pipes] roughness_unit (docs/gis.md)",
+        );
+        return None;
+    }
     let status = status_of(attribute_text(f, m.status.as_deref()), m, err)?;
     Some(PipeValues {
         length_m: length.map(|l| l * units.length_m),
-        diameter_m: diameter * units.diameter_m,
-        roughness: if units.hazen_williams {
-            roughness
-        } else {
-            roughness * units.roughness_m
-        },
+        diameter_m,
+        roughness,
         guessed_roughness,
         minor_loss: minor_loss.unwrap_or(0.0),
         status,
@@ -987,6 +1022,19 @@ pub fn short(x: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn an_imported_roughness_obeys_the_network_files_bounds() {
+        // The bounds are the loader's own (limits::C_FACTOR, MAX_RELATIVE_ROUGHNESS), so that an
+        // import never writes a pipe that pipes.csv refuses: a consistency check, no source.
+        assert!(implausible_roughness(120.0, 0.2, true).is_none());
+        assert!(implausible_roughness(10.0, 0.2, true).is_none());
+        assert!(implausible_roughness(300.0, 0.2, true).is_some());
+        assert!(implausible_roughness(1e308, 0.2, true).is_some());
+        assert!(implausible_roughness(1.5e-6, 0.2, false).is_none());
+        assert!(implausible_roughness(0.1, 0.2, false).is_none());
+        assert!(implausible_roughness(0.11, 0.2, false).is_some());
+    }
 
     #[test]
     fn crossing_by_hand() {

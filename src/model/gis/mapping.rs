@@ -156,9 +156,9 @@ pub struct PipesSection {
     pub material: Option<String>,
     /// Roughness by material text (exact match after trimming), where `roughness` is empty.
     #[serde(default)]
-    pub roughness_by_material: BTreeMap<String, f64>,
+    pub roughness_by_material: BTreeMap<String, Spanned<f64>>,
     /// Roughness where neither the attribute nor the table gives one (reported as guessed).
-    pub default_roughness: Option<f64>,
+    pub default_roughness: Option<Spanned<f64>>,
     pub minor_loss: Option<String>,
     pub status: Option<String>,
     /// Attribute texts → `open`, `closed` or `check`; the three words are always understood.

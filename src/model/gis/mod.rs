@@ -17,6 +17,7 @@ use std::path::Path;
 use geojson::GeometryValue;
 
 use crate::model::diagnostic::{quoted, Diagnostics, Location};
+use crate::model::limits;
 use crate::model::table::{read_table, TableSpec};
 use crate::units::display_value;
 use build::{event, short, Action, AttributeUnits, BHydrant, BSource, Builder, Event};
@@ -269,6 +270,7 @@ fn check_mapping(m: &Mapping, file: &MappingFile, diags: &mut Diagnostics) {
             );
         }
     }
+    check_mapping_roughness(m, file, diags);
     if let Some(k) = &m.sources.default_kind {
         let kind = k.get_ref();
         if kind != "reservoir" && kind != "tank" {
@@ -292,6 +294,59 @@ fn check_mapping(m: &Mapping, file: &MappingFile, diags: &mut Diagnostics) {
                 "[elevations] from = \"attributes\" names neither `start` nor `end`",
                 "name the pipe attributes with the elevations at the line's first and last positions",
             );
+        }
+    }
+}
+
+/// The roughness values the mapping gives (`default_roughness`, `[pipes.roughness_by_material]`):
+/// a Hazen-Williams C within the C factors pipes have, or a Darcy-Weisbach roughness above 0
+/// and at most the largest main's diameter (each pipe's roughness against its own diameter is
+/// checked when the network is read).
+fn check_mapping_roughness(m: &Mapping, file: &MappingFile, diags: &mut Diagnostics) {
+    let hazen_williams = m.network.headloss == HeadlossWord::HazenWilliams;
+    let roughness_m = m
+        .pipes
+        .roughness_unit
+        .unwrap_or(default_diameter(m.network.units))
+        .metres();
+    let named = m
+        .pipes
+        .default_roughness
+        .iter()
+        .map(|v| ("[pipes] default_roughness".to_string(), v))
+        .chain(
+            m.pipes
+                .roughness_by_material
+                .iter()
+                .map(|(material, v)| (format!("[pipes.roughness_by_material] {material}"), v)),
+        );
+    for (name, v) in named {
+        let x = *v.get_ref();
+        let problem = if hazen_williams {
+            if !x.is_finite() {
+                Some(format!(
+                    "{name} is {}, not a Hazen-Williams C factor",
+                    display_value(x)
+                ))
+            } else {
+                (!limits::C_FACTOR.holds(x))
+                    .then(|| limits::C_FACTOR.message(&name, x, m.network.units))
+            }
+        } else {
+            (!(x.is_finite() && x > 0.0 && x * roughness_m <= limits::MAX_DIAMETER_M)).then(|| {
+                format!(
+                    "{name} is {}, not an absolute roughness above 0 and at most a main's diameter",
+                    display_value(x)
+                )
+            })
+        };
+        if let Some(problem) = problem {
+            let fix = if hazen_williams {
+                "give the C factor of the pipe (about 40 for badly tuberculated iron to 150 for plastic)"
+            } else {
+                "give the absolute roughness in [pipes] roughness_unit (e.g. 0.0015 mm for plastic)"
+            };
+            diags.error(file.at(v.span()), problem, fix);
         }
     }
 }
