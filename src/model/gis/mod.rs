@@ -303,12 +303,11 @@ fn check_mapping(m: &Mapping, file: &MappingFile, diags: &mut Diagnostics) {
 /// and at most the largest main's diameter (each pipe's roughness against its own diameter is
 /// checked when the network is read).
 fn check_mapping_roughness(m: &Mapping, file: &MappingFile, diags: &mut Diagnostics) {
-    let hazen_williams = m.network.headloss == HeadlossWord::HazenWilliams;
-    let roughness_m = m
-        .pipes
-        .roughness_unit
-        .unwrap_or(default_diameter(m.network.units))
-        .metres();
+    let AttributeUnits {
+        hazen_williams,
+        roughness_m,
+        ..
+    } = attribute_units(m);
     let named = m
         .pipes
         .default_roughness
