@@ -646,69 +646,78 @@ fn read_sources(
             units: net.units,
             diags,
         };
-        let test = r.required_text("test", "give the id of a test in the tests file");
-        let source = r.required_text(
-            "source",
-            "give the id of a reservoir or tank in sources.csv",
-        );
-        let grade = r.plain("grade").map(|g| r.units.to_si(Quantity::Length, g));
-        if r.text("grade").is_none() {
-            let loc = r.at("grade");
-            r.diags.error(
-                loc,
-                "`grade` is empty",
-                "give the water-surface grade of the source at the time of the test",
-            );
+        if let Some((ti, node, grade)) = source_row(&mut r, net, named, &index, &mut seen) {
+            tests[ti].source_grades.push((node, grade));
         }
-        let (Some(test), Some(source), Some(grade)) = (test, source, grade) else {
-            continue;
-        };
-        let Some(&ti) = index.get(test) else {
-            if named.contains(test) {
-                continue;
-            }
+    }
+}
+
+/// One row of the sources file: (index of its test, source node, grade in m), or `None`
+/// when the row is refused (with its error) or names a test refused for errors of its own.
+fn source_row<'a>(
+    r: &mut RowReader<'a, '_>,
+    net: &Network,
+    named: &HashSet<String>,
+    index: &HashMap<String, usize>,
+    seen: &mut HashMap<(String, usize), u64>,
+) -> Option<(usize, usize, f64)> {
+    let test = r.required_text("test", "give the id of a test in the tests file");
+    let source = r.required_text(
+        "source",
+        "give the id of a reservoir or tank in sources.csv",
+    );
+    let grade = r.plain("grade").map(|g| r.units.to_si(Quantity::Length, g));
+    if r.text("grade").is_none() {
+        let loc = r.at("grade");
+        r.diags.error(
+            loc,
+            "`grade` is empty",
+            "give the water-surface grade of the source at the time of the test",
+        );
+    }
+    let (test, source, grade) = (test?, source?, grade?);
+    let Some(&ti) = index.get(test) else {
+        if !named.contains(test) {
             let loc = r.at("test");
             r.diags.error(
                 loc,
                 format!("`{test}` is not a test of the tests file"),
                 "use a test id of the tests file (ids are compared exactly)",
             );
-            continue;
-        };
-        let node = net
-            .node_by_id(source)
-            .filter(|&n| !net.nodes[n].is_junction());
-        let Some(node) = node else {
-            let loc = r.at("source");
-            r.diags.error(
-                loc,
-                format!("`{source}` is not a reservoir or tank of sources.csv"),
-                "use the id of a source in sources.csv",
-            );
-            continue;
-        };
-        if let Some(first) = seen.insert((test.to_string(), node), row.line) {
-            let loc = r.at("source");
-            r.diags.error(
-                loc,
-                format!(
-                    "source `{source}` is given twice for test `{test}` (also on line {first})"
-                ),
-                "give each source's grade once per test",
-            );
-            continue;
         }
-        if !limits::ELEVATION.holds(grade) {
-            let loc = r.at("grade");
-            r.diags.error(
-                loc,
-                format!("grade `{}` is not plausible", r.cell("grade").text),
-                "give the grade (elevation of the water surface) in the network's length unit",
-            );
-            continue;
-        }
-        tests[ti].source_grades.push((node, grade));
+        return None;
+    };
+    let node = net
+        .node_by_id(source)
+        .filter(|&n| !net.nodes[n].is_junction());
+    let Some(node) = node else {
+        let loc = r.at("source");
+        r.diags.error(
+            loc,
+            format!("`{source}` is not a reservoir or tank of sources.csv"),
+            "use the id of a source in sources.csv",
+        );
+        return None;
+    };
+    if let Some(first) = seen.insert((test.to_string(), node), r.row.line) {
+        let loc = r.at("source");
+        r.diags.error(
+            loc,
+            format!("source `{source}` is given twice for test `{test}` (also on line {first})"),
+            "give each source's grade once per test",
+        );
+        return None;
     }
+    if !limits::ELEVATION.holds(grade) {
+        let loc = r.at("grade");
+        r.diags.error(
+            loc,
+            format!("grade `{}` is not plausible", r.cell("grade").text),
+            "give the grade (elevation of the water surface) in the network's length unit",
+        );
+        return None;
+    }
+    Some((ti, node, grade))
 }
 
 /// The label of every pipe in column `column` of the network's pipes.csv: (link index, label),
