@@ -344,6 +344,47 @@ impl Iterate {
     }
 }
 
+/// Where each link enters the junction matrix: the rows of its two ends and the matrix slots
+/// of their diagonals and of their off-diagonal entry ([`NO_ROW`] for an end that is not a
+/// junction, and for a link whose ends are one node), found once so that assembling a
+/// Newton step needs no search.
+fn link_places(
+    pattern: &OrderedPattern,
+    nj: usize,
+    ends: &[(usize, usize)],
+) -> (Vec<[u32; 2]>, Vec<[u32; 3]>) {
+    let row = |n: usize| {
+        if n < nj {
+            u32::try_from(pattern.position(n)).unwrap_or(NO_ROW)
+        } else {
+            NO_ROW
+        }
+    };
+    let slot = |n: usize| {
+        if n < nj {
+            u32::try_from(pattern.diagonal_slot(n)).unwrap_or(NO_ROW)
+        } else {
+            NO_ROW
+        }
+    };
+    let off_slot = |a: usize, b: usize| {
+        (a < nj && b < nj)
+            .then(|| pattern.slot(a, b))
+            .flatten()
+            .and_then(|o| u32::try_from(o).ok())
+            .unwrap_or(NO_ROW)
+    };
+    ends.iter()
+        .map(|&(a, b)| {
+            if a == b {
+                ([NO_ROW; 2], [NO_ROW; 3])
+            } else {
+                ([row(a), row(b)], [slot(a), slot(b), off_slot(a, b)])
+            }
+        })
+        .unzip()
+}
+
 /// The links at each node, in compressed form: node n's links are
 /// `adj_links[adj_ptr[n]..adj_ptr[n + 1]]`, in link order.
 fn adjacency(net: &Network) -> (Vec<usize>, Vec<usize>) {
@@ -469,57 +510,10 @@ impl<'n> Hydraulics<'n> {
         }
         let pairs = junction_pairs(net);
         let pattern = OrderedPattern::new(nj, &pairs)?;
-        let off_slot: Vec<Option<usize>> = net
-            .links
-            .iter()
-            .map(|l| {
-                (l.from != l.to && l.from < nj && l.to < nj)
-                    .then(|| pattern.slot(l.from, l.to))
-                    .flatten()
-            })
-            .collect();
         let row_of = (0..nj).map(|j| pattern.position(j)).collect();
         let diag_slot = (0..nj).map(|j| pattern.diagonal_slot(j)).collect();
         let ends: Vec<(usize, usize)> = net.links.iter().map(|l| (l.from, l.to)).collect();
-        let row = |n: usize| {
-            if n < nj {
-                u32::try_from(pattern.position(n)).unwrap_or(NO_ROW)
-            } else {
-                NO_ROW
-            }
-        };
-        let slot = |n: usize| {
-            if n < nj {
-                u32::try_from(pattern.diagonal_slot(n)).unwrap_or(NO_ROW)
-            } else {
-                NO_ROW
-            }
-        };
-        let link_rows = ends
-            .iter()
-            .map(|&(a, b)| {
-                if a == b {
-                    [NO_ROW; 2]
-                } else {
-                    [row(a), row(b)]
-                }
-            })
-            .collect();
-        let link_slots = ends
-            .iter()
-            .zip(&off_slot)
-            .map(|(&(a, b), off): (&(usize, usize), &Option<usize>)| {
-                if a == b {
-                    [NO_ROW; 3]
-                } else {
-                    [
-                        slot(a),
-                        slot(b),
-                        off.and_then(|o| u32::try_from(o).ok()).unwrap_or(NO_ROW),
-                    ]
-                }
-            })
-            .collect();
+        let (link_rows, link_slots) = link_places(&pattern, nj, &ends);
         let (adj_ptr, adj_links) = adjacency(net);
         let analysis = SymbolicAnalysis::new(&pattern)?;
         let elements = Elements::of(net);
