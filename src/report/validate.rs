@@ -101,6 +101,14 @@ pub fn summary(net: &Network, sum: &NetworkSummary) -> String {
             sum.total_demand_m3s * net.demand_factors.peak_hour
         ),
     ));
+    s.push_str(&zones_section(sum));
+    s.push_str(&length_section(&o, sum));
+    s
+}
+
+/// The zones and what feeds each (empty when the network has no zones).
+fn zones_section(sum: &NetworkSummary) -> String {
+    let mut s = String::new();
     if !sum.zones.is_empty() {
         let header = vec!["zone".to_string(), "junctions".into(), "fed by".into()];
         let table = Table::new(header).with_rows(sum.zones.iter().map(|z| {
@@ -116,6 +124,12 @@ pub fn summary(net: &Network, sum: &NetworkSummary) -> String {
         }));
         s.push_str(&Terminal.section(&Section::titled("Zones").table(table), 1));
     }
+    s
+}
+
+/// Length of pipe by diameter, with each diameter's share and the total.
+fn length_section(o: &Out, sum: &NetworkSummary) -> String {
+    let mut s = String::new();
     let l = o.sym(Quantity::Length);
     let mut table = Table::new(vec![
         format!("diameter ({})", o.sym(Quantity::Diameter)),
