@@ -183,19 +183,12 @@ impl CheckReport<'_> {
                 from,
                 to,
                 at_flow_m3s,
-            } => {
-                let what = match (from, to) {
-                    (LinkState::Regulating, LinkState::Open) => "went wide open".to_string(),
-                    (_, LinkState::Closed) => "closed".to_string(),
-                    (LinkState::Running, LinkState::NoFlow) => {
-                        "stopped delivering (head asked above its shutoff head)".to_string()
-                    }
-                    (LinkState::NoFlow, LinkState::Running) => "started delivering".to_string(),
-                    (LinkState::Closed, _) => "opened".to_string(),
-                    (a, b) => format!("changed from {} to {}", a.name(), b.name()),
-                };
-                format!("{} {what} at about {}", link(*i), flow(*at_flow_m3s))
-            }
+            } => format!(
+                "{} {} at about {}",
+                link(*i),
+                state_change_words(*from, *to),
+                flow(*at_flow_m3s)
+            ),
             HydrantNote::SolveFailedAbove { flow_m3s, reason } => format!(
                 "no hydraulic solution at {} ({reason}); the largest verified flow is reported",
                 flow(*flow_m3s)
@@ -506,5 +499,19 @@ fn pipe_facts(link: &crate::model::Link) -> (f64, f64, String) {
             p.material.clone().unwrap_or_default(),
         ),
         _ => (0.0, 0.0, String::new()),
+    }
+}
+
+/// What a pump or valve did when its state changed from `from` to `to`, in plain words.
+fn state_change_words(from: LinkState, to: LinkState) -> String {
+    match (from, to) {
+        (LinkState::Regulating, LinkState::Open) => "went wide open".to_string(),
+        (_, LinkState::Closed) => "closed".to_string(),
+        (LinkState::Running, LinkState::NoFlow) => {
+            "stopped delivering (head asked above its shutoff head)".to_string()
+        }
+        (LinkState::NoFlow, LinkState::Running) => "started delivering".to_string(),
+        (LinkState::Closed, _) => "opened".to_string(),
+        (a, b) => format!("changed from {} to {}", a.name(), b.name()),
     }
 }
