@@ -1,17 +1,18 @@
 //! `firemain permit`: each building's needed fire flow against the hydrants within reach of it,
 //! flowing together, and the storage that feeds them, on stdout and in the report files.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 use firemain::cli::CliError;
 use firemain::fireflow::Split;
 use firemain::hydraulics::Hydraulics;
-use firemain::model::buildings::load_buildings;
+use firemain::model::buildings::{load_buildings, LoadedBuildings};
 use firemain::model::project::load_project;
-use firemain::needed::check_buildings;
+use firemain::model::Diagnostics;
+use firemain::needed::{check_buildings, Method};
 use firemain::permit::{analyse_building, PermitSetup};
 use firemain::report::{self, permit::PermitReport};
-use firemain::units::Quantity;
+use firemain::units::{Quantity, UnitSystem};
 
 use super::{
     analysis_date, check_output_folder, criteria_for, emit, load, write_set, Outcome, VERSION,
@@ -53,12 +54,11 @@ enum SplitArg {
 
 pub fn run(args: &PermitArgs) -> Result<Outcome, CliError> {
     check_output_folder(args.out.as_deref(), &args.network)?;
-    let project = match &args.project {
-        Some(path) => {
-            Some(load_project(path).map_err(|diagnostics| CliError::Project { diagnostics })?)
-        }
-        None => None,
-    };
+    let project = args
+        .project
+        .as_deref()
+        .map(|path| load_project(path).map_err(|diagnostics| CliError::Project { diagnostics }))
+        .transpose()?;
     let loaded = load(&args.network)?;
     let net = &loaded.network;
     let criteria = criteria_for(&args.criteria, net)?;
@@ -66,24 +66,7 @@ pub fn run(args: &PermitArgs) -> Result<Outcome, CliError> {
         .needed_flow
         .as_ref()
         .ok_or_else(|| CliError::NoNeededFlow(args.criteria.clone()))?;
-    let buildings = load_buildings(&args.buildings, net.units)
-        .map_err(|diagnostics| CliError::Buildings { diagnostics })?;
-    let problems = check_buildings(&buildings.buildings, &settings.method);
-    if problems.has_errors() {
-        return Err(CliError::Buildings {
-            diagnostics: problems,
-        });
-    }
-    // The buildings' warnings go to stderr as the network's and the criteria's do (they were
-    // only in the report files, so a run without --out never showed them).
-    let mut building_findings = buildings.diagnostics.clone();
-    building_findings.extend(problems.clone());
-    if !building_findings.is_empty() {
-        eprint!(
-            "{}",
-            report::validate::diagnostics_brief(&building_findings)
-        );
-    }
+    let (buildings, problems) = read_buildings(&args.buildings, net.units, &settings.method)?;
     let hydraulics = Hydraulics::new(net).map_err(CliError::Hydraulics)?;
     let setup = firemain::fireflow::FireFlowSetup::new(&hydraulics, &criteria)
         .map_err(|e| CliError::solve("max-day condition", net.units, e))?;
@@ -131,4 +114,29 @@ pub fn run(args: &PermitArgs) -> Result<Outcome, CliError> {
         write_set(out, &args.network, report.output_set(), args.quiet)?;
     }
     Ok(Outcome::from_findings(report.has_findings()))
+}
+
+/// The buildings file, read and checked against the needed-flow method: the buildings and the
+/// method's findings about them, whose warnings (and the file's own) go to stderr as the
+/// network's and the criteria's do (a run without --out would not show them otherwise). An
+/// error when the file or the method refuses a building.
+fn read_buildings(
+    path: &Path,
+    units: UnitSystem,
+    method: &Method,
+) -> Result<(LoadedBuildings, Diagnostics), CliError> {
+    let buildings =
+        load_buildings(path, units).map_err(|diagnostics| CliError::Buildings { diagnostics })?;
+    let problems = check_buildings(&buildings.buildings, method);
+    if problems.has_errors() {
+        return Err(CliError::Buildings {
+            diagnostics: problems,
+        });
+    }
+    let mut findings = buildings.diagnostics.clone();
+    findings.extend(problems.clone());
+    if !findings.is_empty() {
+        eprint!("{}", report::validate::diagnostics_brief(&findings));
+    }
+    Ok((buildings, problems))
 }
