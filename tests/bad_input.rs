@@ -888,8 +888,9 @@ fn islands_without_a_source() {
     );
     let first = assert_finding(&run.stdout, "error", "junctions.csv:5", "island");
     let second = assert_finding(&run.stdout, "error", "junctions.csv:7", "island");
-    assert!(first.ends_with("J4, J5"), "{first}");
-    assert!(second.ends_with("J6, J7, J8"), "{second}");
+    // The ids quoted, as every message quotes input text (docs/network-format.md §5).
+    assert!(first.ends_with("`J4`, `J5`"), "{first}");
+    assert!(second.ends_with("`J6`, `J7`, `J8`"), "{second}");
     let islands = findings(&run.stdout)
         .iter()
         .filter(|f| f.message.contains("island"))

@@ -16,6 +16,8 @@ pub use solver::{
 
 use thiserror::Error;
 
+use crate::model::diagnostic::quoted;
+
 /// Why a steady state could not be found. Elements are named by the user's ids.
 #[derive(Debug, Clone, Error)]
 pub enum SolveError {
@@ -32,14 +34,14 @@ pub enum SolveError {
     },
     #[error(
         "junctions with demand are cut off from every source: {}{}",
-        .junctions.join(", "),
-        if .closed_links.is_empty() { String::new() } else { format!(" (closed elements at the cut: {})", .closed_links.join(", ")) }
+        quoted_list(.junctions),
+        if .closed_links.is_empty() { String::new() } else { format!(" (closed elements at the cut: {})", quoted_list(.closed_links)) }
     )]
     Unsupplied {
         junctions: Vec<String>,
         closed_links: Vec<String>,
     },
-    #[error("the network matrix is singular near junctions {}: check that they connect to a source", .junctions.join(", "))]
+    #[error("the network matrix is singular near junctions {}: check that they connect to a source", quoted_list(.junctions))]
     Singular { junctions: Vec<String> },
     #[error("internal solver error: {0}")]
     Internal(String),
@@ -61,7 +63,8 @@ impl SolveError {
                 .iter()
                 .map(|(id, v)| {
                     format!(
-                        "{id} ({} {})",
+                        "{} ({} {})",
+                        quoted(id),
                         display_value(units.from_si(Quantity::Length, *v)),
                         units.symbol(Quantity::Length)
                     )
@@ -84,10 +87,18 @@ impl SolveError {
     }
 }
 
+/// Ids in a message, each quoted as every message quotes input text (docs/network-format.md §5).
+fn quoted_list(ids: &[String]) -> String {
+    ids.iter()
+        .map(|id| quoted(id))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
 fn list_values(items: &[(String, f64)]) -> String {
     items
         .iter()
-        .map(|(id, v)| format!("{id} ({v:.3e} m)"))
+        .map(|(id, v)| format!("{} ({v:.3e} m)", quoted(id)))
         .collect::<Vec<_>>()
         .join(", ")
 }
@@ -107,10 +118,10 @@ mod tests {
         };
         let us = e.describe(UnitSystem::Us);
         assert!(
-            us.contains("J1 (34.5 ft)") && us.contains("P1 (0.01 ft)"),
+            us.contains("`J1` (34.5 ft)") && us.contains("`P1` (0.01 ft)"),
             "{us}"
         );
         let si = e.describe(UnitSystem::Si);
-        assert!(si.contains("J1 (10.5156 m)"), "{si}");
+        assert!(si.contains("`J1` (10.5156 m)"), "{si}");
     }
 }

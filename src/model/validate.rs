@@ -6,7 +6,7 @@
 
 use std::collections::BTreeMap;
 
-use super::diagnostic::{Diagnostics, Location};
+use super::diagnostic::{quoted, Diagnostics, Location};
 use super::network::{HeadlossFormula, Link, LinkKind, Network, Pipe, PipeStatus};
 use crate::units::{display_value, Quantity, UnitSystem};
 
@@ -81,10 +81,10 @@ fn check_connectivity(net: &Network, diags: &mut Diagnostics) {
     }
     for members in islands.values() {
         const SHOWN: usize = 20;
-        let names: Vec<&str> = members
+        let names: Vec<String> = members
             .iter()
             .take(SHOWN)
-            .map(|&j| net.nodes[j].id.as_str())
+            .map(|&j| quoted(&net.nodes[j].id))
             .collect();
         let more = if members.len() > SHOWN {
             format!(" and {} more", members.len() - SHOWN)
