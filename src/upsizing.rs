@@ -430,6 +430,8 @@ impl<'a> Planner<'a> {
         let mut budget_limited = false;
         let mut rounds = 0;
         let mut helped: BTreeMap<usize, BTreeSet<usize>> = BTreeMap::new();
+        // Whether every pass in `latest` was found on the current plan (none is planned yet).
+        let mut passes_current = true;
 
         while rounds < MAX_ROUNDS {
             let failing: Vec<&HydrantResult> = latest
@@ -437,7 +439,12 @@ impl<'a> Planner<'a> {
                 .filter(|r| r.outcome != Outcome::Pass)
                 .collect();
             if failing.is_empty() {
-                break;
+                if passes_current {
+                    break;
+                }
+                self.recheck_passes(&current, &mut latest)?;
+                passes_current = true;
+                continue;
             }
             rounds += 1;
             progress(Progress::Round {
@@ -461,6 +468,10 @@ impl<'a> Planner<'a> {
             for r in self.check(&current, &still)? {
                 latest.insert(r.hydrant, r);
             }
+            passes_current = still.len() == latest.len();
+        }
+        if !passes_current {
+            self.recheck_passes(&current, &mut latest)?;
         }
         let passing = latest
             .values()
@@ -474,6 +485,27 @@ impl<'a> Planner<'a> {
             budget_limited,
             rounds,
         })
+    }
+
+    /// Checks again, on `current`, the targets whose pass in `latest` was found on an earlier
+    /// plan: in a looped network a later upsizing can move flow away from a hydrant and lower
+    /// its available flow, so a pass is only known for the plan it was found on. Pruning keeps
+    /// the passing targets passing, and a stale pass would make it keep upsizings nobody
+    /// needs (a case of two sources and a loop, found by the planner's property test).
+    fn recheck_passes(
+        &mut self,
+        current: &Network,
+        latest: &mut BTreeMap<usize, HydrantResult>,
+    ) -> Result<(), UpsizeError> {
+        let passed: Vec<usize> = latest
+            .values()
+            .filter(|r| r.outcome == Outcome::Pass)
+            .map(|r| r.hydrant)
+            .collect();
+        for r in self.check(current, &passed)? {
+            latest.insert(r.hydrant, r);
+        }
+        Ok(())
     }
 
     /// The candidates of a round: the pipes of `current` on the failing hydrants' supply paths
