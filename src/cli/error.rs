@@ -235,7 +235,7 @@ mod tests {
             links: vec![],
         };
         let us = CliError::solve("max-day condition", UnitSystem::Us, source.clone());
-        assert!(us.to_string().contains("J1 (34.5 ft)"), "{us}");
+        assert!(us.to_string().contains("`J1` (34.5 ft)"), "{us}");
         let upsize = CliError::upsize(UnitSystem::Us, UpsizeError::Solve(source));
         assert!(
             upsize.to_string().starts_with("upsizing search: "),
