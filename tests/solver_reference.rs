@@ -3,6 +3,7 @@
 mod common;
 
 use common::{load, read_kind_id_value, solve_average};
+use firemain::hydraulics::{Hydraulics, SolveRequest};
 
 fn compare_loop_grid(network: &str, fixture: &str) {
     // Reference: tests/reference/loop_grid/solve_loop_grid.py — the node-head formulation
@@ -124,4 +125,78 @@ fn two_zone_pump_and_regulating_prv_match_reference() {
 #[test]
 fn two_zone_prv_goes_wide_open_under_high_low_zone_demand() {
     compare_two_zone("reference/two_zone/expected_high_demand.csv", 3.0, "open");
+}
+
+/// An ordinary solve of tests/data/valve_zone from a cold start at `factor` × average-day demand,
+/// with `fire` gpm drawn at `at`, against the scenario `name` of the reference.
+fn compare_valve_zone(name: &str, factor: f64, fire: Option<(&str, f64)>) {
+    // Reference: tests/reference/valve_zone/solve_valve_zone.py — node-head formulation, every
+    // combination of PRV/PSV states solved on its own and kept when the valves' own rules hold
+    // (scipy 1.17.1); it finds one steady state in each scenario.
+    let net = load("valve_zone");
+    let expected = read_kind_id_value("reference/valve_zone/expected.csv");
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let mut ws = hydraulics.workspace();
+    let gpm = firemain::units::M3S_PER_GPM;
+    let extra: Vec<(usize, f64)> = fire
+        .map(|(id, q)| (net.node_by_id(id).expect("junction"), q * gpm))
+        .into_iter()
+        .collect();
+    let request = SolveRequest {
+        demand_factor: factor,
+        extra_demand: &extra,
+        fixed_head: None,
+    };
+    let sol = hydraulics
+        .solve(&mut ws, &request, &hydraulics.cold_start())
+        .unwrap_or_else(|e| panic!("{name}: {e}"));
+    let ft = firemain::units::M_PER_FT;
+    for (j, node) in net.junctions().iter().enumerate() {
+        let head: f64 = expected[&(format!("{name}_head_ft"), node.id.clone())]
+            .parse()
+            .unwrap();
+        assert!(
+            (sol.heads_m[j] / ft - head).abs() < 1e-5,
+            "{name} {}: head {} vs {head} ft",
+            node.id,
+            sol.heads_m[j] / ft
+        );
+    }
+    for valve in ["PRV", "PSV"] {
+        let i = net.link_by_id(valve).expect("valve");
+        let state = &expected[&(format!("{name}_state"), valve.to_string())];
+        assert_eq!(sol.states[i].name(), state, "{name} {valve}");
+        let q: f64 = expected[&(format!("{name}_flow_gpm"), valve.to_string())]
+            .parse()
+            .unwrap();
+        assert!(
+            (sol.flows_m3s[i] / gpm - q).abs() < 1e-4,
+            "{name} {valve}: flow {} vs {q} gpm",
+            sol.flows_m3s[i] / gpm
+        );
+    }
+    eprintln!(
+        "valve_zone {name}: {} iterations, {} factorizations",
+        sol.iterations, sol.factorizations
+    );
+}
+
+#[test]
+fn valve_zone_max_day_matches_state_enumeration() {
+    compare_valve_zone("max_day", 1.5, None);
+}
+
+#[test]
+fn valve_zone_peak_hour_matches_state_enumeration() {
+    compare_valve_zone("peak_hour", 2.5, None);
+}
+
+#[test]
+fn valve_zone_prv_regulating_under_fire_flow_matches_state_enumeration() {
+    compare_valve_zone("fire_J6_1000", 1.5, Some(("J6", 1000.0)));
+}
+
+#[test]
+fn valve_zone_prv_wide_open_under_fire_flow_matches_state_enumeration() {
+    compare_valve_zone("fire_J6_1300", 1.5, Some(("J6", 1300.0)));
 }

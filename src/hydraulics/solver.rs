@@ -912,7 +912,7 @@ impl<'n> Hydraulics<'n> {
         request: &SolveRequest<'_>,
         it: &mut Iterate,
     ) -> Result<(), SolveError> {
-        it.isolated = self.pin_and_isolate(ws, request, &mut it.states, &mut it.flows)?;
+        it.isolated = self.pin_and_isolate(ws, request, it)?;
         for &j in &it.isolated {
             ws.pinned[j] = Some(it.heads[j]);
         }
@@ -1121,6 +1121,7 @@ impl<'n> Hydraulics<'n> {
             Some(h) => self.solve_bordered(ws, h),
             None => ws.factor.solve_in_place(&mut ws.rhs),
         }
+        self.couple_regulating_valves(ws, it);
         let mut full_step_h = 0.0_f64;
         for j in 0..nj {
             let d = ws.rhs[self.row_of[j]];
@@ -1137,6 +1138,135 @@ impl<'n> Hydraulics<'n> {
             }
         }
         Ok(full_step_h)
+    }
+
+    /// Solves `v` in place with the factorization of this step (bordered when it has one).
+    fn solve_current(&self, ws: &mut Workspace, v: &mut Vec<f64>) {
+        std::mem::swap(&mut ws.rhs, v);
+        match ws.border_at {
+            Some(h) => self.solve_bordered(ws, h),
+            None => ws.factor.solve_in_place(&mut ws.rhs),
+        }
+        std::mem::swap(&mut ws.rhs, v);
+    }
+
+    /// Couples the flows of regulating PRVs and PSVs into the head step just solved (in
+    /// `ws.rhs`, matrix order). The step sees each valve's current flow at the valve's free end,
+    /// and the valve's flow then follows from continuity at the junction it holds: one step
+    /// late, a fixed point whose rate is the loop gain G = the share of a change of the valve's
+    /// flow that returns to the held junction through the network. Where the valve's zone loops
+    /// back towards that junction G nears one and the exchange crawls (a PSV just past the flow
+    /// at which it begins to regulate took steps shrinking 1 % an iteration, and the solve hit
+    /// the iteration limit). Here the flow changes ε that restore continuity at the held
+    /// junctions after the step are found from the linear response z = A⁻¹e of the step's
+    /// matrix to a unit inflow at each valve's free end, (G − I)·ε = −r, and the step becomes
+    /// Δh + Σ ε·z: the Newton step of the system with the valve flows as unknowns (block
+    /// elimination, as in `solve_bordered`). The valve flows themselves are still set from
+    /// continuity after the step, so the converged state is the same; only the path is
+    /// shorter. Left to the one-step-late update when a valve's free end is pinned, two valves
+    /// hold one junction, or the small system is near singular.
+    fn couple_regulating_valves(&self, ws: &mut Workspace, it: &Iterate) {
+        let Some(valves) = self.coupled_valves(ws, it) else {
+            return;
+        };
+        let nj = self.n_junctions;
+        let responses: Vec<Vec<f64>> = valves
+            .iter()
+            .map(|v| {
+                let mut z = vec![0.0; nj];
+                z[self.row_of[v.free]] = 1.0;
+                self.solve_current(ws, &mut z);
+                z
+            })
+            .collect();
+        let (gain, residual) = self.held_continuity(ws, it, &valves, &responses);
+        let Some(change) = gain.lu().solve(&(-residual)) else {
+            return;
+        };
+        // No cap on the change: where the valves' present states have a far-off solution
+        // (two regulating valves that would circulate flow through their zone), reaching it
+        // quickly lets the switching rules correct the states; the one-step-late exchange
+        // crawled there (about 0.004 m³/s an iteration) into the iteration limit.
+        if change.iter().any(|e| !e.is_finite()) {
+            return;
+        }
+        for (v, (z, e)) in valves.iter().zip(responses.iter().zip(change.iter())) {
+            for (x, dz) in ws.rhs.iter_mut().zip(z) {
+                *x += v.sigma * e * dz;
+            }
+        }
+    }
+
+    /// The regulating PRVs and PSVs to couple into the step, or `None` when there are none or
+    /// one of them cannot be (its free end pinned, or its held junction shared with another).
+    fn coupled_valves(&self, ws: &Workspace, it: &Iterate) -> Option<Vec<CoupledValve>> {
+        let nj = self.n_junctions;
+        let mut valves: Vec<CoupledValve> = Vec::new();
+        for &i in &self.pressure_valves {
+            if it.states[i] != LinkState::Regulating {
+                continue;
+            }
+            let l = &self.net.links[i];
+            let (held, free, sigma) = match self.valve_kind(i) {
+                Some(ValveKind::Psv) => (l.from, l.to, 1.0),
+                Some(ValveKind::Prv) => (l.to, l.from, -1.0),
+                _ => continue,
+            };
+            let eligible = held < nj
+                && free < nj
+                && ws.pinned[held].is_some()
+                && ws.pinned[free].is_none()
+                && valves.iter().all(|v| v.held != held);
+            if !eligible {
+                return None;
+            }
+            valves.push(CoupledValve {
+                link: i,
+                held,
+                free,
+                sigma,
+            });
+        }
+        (!valves.is_empty()).then_some(valves)
+    }
+
+    /// Continuity at each coupled valve's held junction after the step in `ws.rhs`: the
+    /// residual inflow r, and the gain matrix of its change with a unit change of each valve's
+    /// flow (through the responses z = A⁻¹e at the free ends, and the valve's own flow).
+    fn held_continuity(
+        &self,
+        ws: &Workspace,
+        it: &Iterate,
+        valves: &[CoupledValve],
+        responses: &[Vec<f64>],
+    ) -> (nalgebra::DMatrix<f64>, nalgebra::DVector<f64>) {
+        let nj = self.n_junctions;
+        let step = |n: usize, v: &[f64]| if n < nj { v[self.row_of[n]] } else { 0.0 };
+        let m = valves.len();
+        let mut gain = nalgebra::DMatrix::<f64>::zeros(m, m);
+        let mut residual = nalgebra::DVector::<f64>::zeros(m);
+        for (r, row_valve) in valves.iter().enumerate() {
+            let held = row_valve.held;
+            let mut inflow = -ws.demand[held];
+            for &i in self.links_at(held) {
+                let (a, b) = self.ends[i];
+                if a == b {
+                    continue;
+                }
+                let sign = if b == held { 1.0 } else { -1.0 };
+                let g = ws.g_factored[i];
+                inflow +=
+                    sign * (it.flows[i] + ws.known[i] + g * (step(a, &ws.rhs) - step(b, &ws.rhs)));
+                for (c, (v, z)) in valves.iter().zip(responses).enumerate() {
+                    gain[(r, c)] += sign * g * v.sigma * (step(a, z) - step(b, z));
+                    if i == v.link {
+                        gain[(r, c)] += sign;
+                    }
+                }
+            }
+            residual[r] = inflow;
+        }
+        (gain, residual)
     }
 
     /// Updates heads and flows by the step, with a line search on large steps once continuity
@@ -1635,34 +1765,98 @@ impl<'n> Hydraulics<'n> {
     /// Pins the junctions of the current states and finds the cut-off ones (see
     /// [`Hydraulics::find_isolated`]). A regulating valve with an end in a cut-off part cannot
     /// hold its setting: nothing there fixes a head, and the valve's flow has nowhere to go
-    /// but that part's demand. It is taken out of regulation, open when the part has a demand
-    /// to serve, closed when it has none, and its rules decide from there; without this the
-    /// state would be declared unsolvable although a neighbouring state is not.
+    /// but that part's demand. When the part has a demand, the valve's throttling would draw
+    /// the part's heads down without bound, so an element that a falling head there would open
+    /// (a closed PRV, check-valve pipe or stopped pump delivering into the part from a
+    /// supplied junction) is switched to conducting first: a PSV that holds the main's head
+    /// then shares the zone with the PRV that takes up the rest. Where no such element exists,
+    /// the valve is taken out of regulation, open when the part has a demand to serve, closed
+    /// when it has none, and its rules decide from there; without this the state would be
+    /// declared unsolvable although a neighbouring state is not.
     fn pin_and_isolate(
         &self,
         ws: &mut Workspace,
         request: &SolveRequest<'_>,
-        states: &mut [LinkState],
-        flows: &mut [f64],
+        it: &mut Iterate,
     ) -> Result<Vec<usize>, SolveError> {
         let held = request.fixed_head.map(|(j, _)| j);
-        // Each round takes at least one valve out of regulation: the rounds are bounded.
+        // Each round makes at least one closed element conduct or takes one valve out of
+        // regulation, and neither is undone here: the rounds are bounded.
         loop {
-            self.pin_junctions(ws, request, states);
-            match self.find_isolated(ws, states, held)? {
+            self.pin_junctions(ws, request, &mut it.states);
+            match self.find_isolated(ws, &it.states, held)? {
                 Isolation::Cut(cut) => return Ok(cut),
-                Isolation::Release { valves, demand } => {
+                Isolation::Release { valves, cut } => {
+                    let feeders = self.feeders_into(&cut, request, it);
+                    if !feeders.is_empty() {
+                        for (i, state) in feeders {
+                            it.states[i] = state;
+                        }
+                        continue;
+                    }
+                    let demand = cut.iter().any(|&j| ws.demand[j] != 0.0 || Some(j) == held);
                     for i in valves {
-                        states[i] = if demand {
+                        it.states[i] = if demand {
                             LinkState::Open
                         } else {
-                            flows[i] = 0.0;
+                            it.flows[i] = 0.0;
                             LinkState::Closed
                         };
                     }
                 }
             }
         }
+    }
+
+    /// The elements that would start to deliver into the cut-off part `cut` (which has a
+    /// demand) as its heads fell, with the state they would take: closed PRVs from a supplied
+    /// junction into the part (regulating where the upstream head exceeds the setting, else
+    /// open), closed check-valve pipes into it (open) and stopped pumps into it (running).
+    /// Empty when the part has no demand. Valves whose controlled junction the request holds
+    /// follow their own rules and are left alone.
+    fn feeders_into(
+        &self,
+        cut: &[usize],
+        request: &SolveRequest<'_>,
+        it: &Iterate,
+    ) -> Vec<(usize, LinkState)> {
+        let held = request.fixed_head.map(|(j, _)| j);
+        let in_cut = |j: usize| cut.binary_search(&j).is_ok();
+        let has_demand = cut.iter().any(|&j| {
+            self.base_demand_m3s[j] * request.demand_factor != 0.0
+                || request
+                    .extra_demand
+                    .iter()
+                    .any(|&(k, q)| k == j && q != 0.0)
+                || Some(j) == held
+        });
+        if !has_demand {
+            return Vec::new();
+        }
+        let mut feeders = Vec::new();
+        for &i in &self.controlled {
+            let l = &self.net.links[i];
+            if !in_cut(l.to) || in_cut(l.from) || self.is_held_by_request(i, request) {
+                continue;
+            }
+            let next = match (it.states[i], &l.kind) {
+                (LinkState::Closed, LinkKind::Valve(_)) => match self.valve_kind(i) {
+                    Some(ValveKind::Prv) => {
+                        if it.heads[l.from] > self.settings[i] + controls::SWITCH_HEAD_TOL_M {
+                            LinkState::Regulating
+                        } else {
+                            LinkState::Open
+                        }
+                    }
+                    _ => continue,
+                },
+                (LinkState::Closed, LinkKind::Pipe(_)) => LinkState::Open,
+                (LinkState::NoFlow, LinkKind::Pump(_)) => LinkState::Running,
+                _ => continue,
+            };
+            feeders.push((i, next));
+        }
+        feeders
     }
 
     /// Junctions that no conducting path joins to a fixed grade. An error if any of them has a
@@ -1695,10 +1889,7 @@ impl<'n> Hydraulics<'n> {
         if !valves.is_empty() {
             valves.sort_unstable();
             valves.dedup();
-            return Ok(Isolation::Release {
-                valves,
-                demand: cut.iter().any(|&j| has_demand(j)),
-            });
+            return Ok(Isolation::Release { valves, cut });
         }
         // A cut-off junction with a demand has no steady state in a demand-driven model.
         let unsupplied: Vec<String> = cut
@@ -1834,12 +2025,25 @@ impl<'n> Hydraulics<'n> {
     }
 }
 
+/// A regulating PRV or PSV coupled into the Newton step (see
+/// [`Hydraulics::couple_regulating_valves`]).
+struct CoupledValve {
+    link: usize,
+    /// The junction whose head it holds (a PRV's downstream end, a PSV's upstream end).
+    held: usize,
+    /// Its other end, where its flow enters the step as an injection.
+    free: usize,
+    /// The sign of its flow (from → to) as an inflow at the free end.
+    sigma: f64,
+}
+
 /// What [`Hydraulics::find_isolated`] found.
 enum Isolation {
     /// The cut-off junctions (none with a demand): they are held at their heads.
     Cut(Vec<usize>),
-    /// Regulating valves with an end in a cut-off part, and whether that part has a demand.
-    Release { valves: Vec<usize>, demand: bool },
+    /// Regulating valves with an end in a cut-off part, and the cut-off junctions (in
+    /// increasing order).
+    Release { valves: Vec<usize>, cut: Vec<usize> },
 }
 
 /// Iterations after which head steps that no longer shrink are judged by the equations
