@@ -1,12 +1,14 @@
 #!/usr/bin/env python3
-"""Independent steady states and fire flows of tests/data/valve_zone -> expected.csv and of
-tests/data/valve_check -> expected_check.csv, beside this script.
+"""Independent steady states and fire flows of tests/data/valve_zone -> expected.csv, of
+tests/data/valve_check -> expected_check.csv and of tests/data/valve_flat -> expected_flat.csv,
+beside this script.
 
 Ran with: Python 3.11.7, numpy 2.4.6, scipy 1.17.1, fluids 1.3.1 (written into the CSV header).
 
 The networks: a looped main (R1, J1-J5) and one zone (J6, J7, J8) fed by a PRV (J3 -> J6, holding
 J6) and by a PSV (J2 -> J8, holding J2); valve_check adds a second reservoir (R3) behind a
-check-valve pipe into J4 (states open: flow from -> to >= 0; closed: H_to >= H_from). Demands x max_day_factor (1.5) or x peak_hour_factor
+check-valve pipe into J4 (states open: flow from -> to >= 0; closed: H_to >= H_from);
+valve_flat has that reservoir and the PRV, with a plain pipe in the PSV's place. Demands x max_day_factor (1.5) or x peak_hour_factor
 (2.5) from model.toml; a fire flow is one extra demand at the hydrant's junction.
 
 Formulation: NODE-HEAD (../netref.py): unknown junction heads (offsets from the source grade),
@@ -46,8 +48,8 @@ written is the passing end of that bracket. Between grid flows with the same val
 head falls as the fire flow rises, so the grid cannot step over a dip there; where the states
 change between two grid flows the script also scans that interval at 0.1 gpm.
 
-Rows kind,id,value (US units, full double precision); expected_check.csv has the max_day
-scenario and the hydrant rows:
+Rows kind,id,value (US units, full double precision); expected_check.csv and expected_flat.csv
+have the max_day scenario and the hydrant rows:
   <scenario>_head_ft, junction   head (ft) in the scenario's one steady state
   <scenario>_state, valve        regulating | open | closed
   <scenario>_flow_gpm, valve     valve flow (gpm, from -> to)
@@ -64,7 +66,7 @@ Re-run (from the repository root):
     python3 tests/reference/valve_zone/solve_valve_zone.py
     python3 tests/reference/valve_zone/solve_valve_zone.py FOLDER   # prints another network's
                                                                     # available flows, writes nothing
-Deterministic; runs in about 45 seconds.
+Deterministic; runs in about a minute.
 """
 import itertools
 import os
@@ -374,6 +376,12 @@ def main():
     rows = scenario_rows(zone, "max_day", zone.demands(f["max_day_factor"]))
     rows += hydrant_rows(zone)
     write(zone, "valve_check", "expected_check.csv", rows)
+    print("valve_flat")
+    zone = ValveZone(os.path.join(ROOT, "tests", "data", "valve_flat"))
+    f = zone.net["demand_factors"]
+    rows = scenario_rows(zone, "max_day", zone.demands(f["max_day_factor"]))
+    rows += hydrant_rows(zone)
+    write(zone, "valve_flat", "expected_flat.csv", rows)
 
 
 if __name__ == "__main__":
