@@ -281,9 +281,23 @@ impl<'s, 'a> Search<'s, 'a> {
         self.solve_at(q, start, Tolerance::SEARCH)
     }
 
-    /// A solve at fire flow `q` whose use is to place a flow (bracket probes, samples).
+    /// A solve at fire flow `q` whose use is to place a flow (bracket probes, samples). A
+    /// probe that misses the floor by less than its own tolerance's worth of pressure is
+    /// inconclusive: it is continued to the tolerance of reported pressures, ten times
+    /// tighter, and judged there. Where the binding pressure nears the floor almost flat
+    /// (0.001 psi per gpm), the bracket tolerance alone is worth several gpm, and the answer
+    /// would fall short of its promised accuracy (still on the safe side).
     fn probe(&mut self, q: f64, start: &Solution) -> Result<Point, ProbeError> {
-        self.solve_at(q, start, Tolerance::BRACKET)
+        let point = self.solve_at(q, start, Tolerance::BRACKET)?;
+        let room = pressure_kpa_from_head_m(Tolerance::BRACKET.head_m);
+        let inconclusive = !point.passes
+            && point.check.pressure_margin_kpa > -room
+            && point.check.velocity.is_none_or(|(m, _)| m >= 0.0);
+        if inconclusive {
+            self.solve_at(q, &point.sol, Tolerance::SEARCH)
+        } else {
+            Ok(point)
+        }
     }
 
     /// A solve at the cap whose only use is its verdict (pass or fail). Without velocity
