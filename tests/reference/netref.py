@@ -411,6 +411,25 @@ class NodeHeadSolver:
         return x, res
 
 
+def has_supply_everywhere(jids, fixed, links):
+    """True if every junction is connected (through links) to a fixed-head node. A regulating
+    valve is not a link here: its flow is set by the junction it holds, so the part behind its
+    other end needs a head of its own (else that part's heads are not determined)."""
+    adj = {}
+    for l in links:
+        adj.setdefault(l.i, set()).add(l.j)
+        adj.setdefault(l.j, set()).add(l.i)
+    seen = set(fixed)
+    stack = list(fixed)
+    while stack:
+        n = stack.pop()
+        for m in adj.get(n, ()):
+            if m not in seen:
+                seen.add(m)
+                stack.append(m)
+    return all(j in seen for j in jids)
+
+
 # ----------------------------------------------------------------------------------------------
 # output
 # ----------------------------------------------------------------------------------------------

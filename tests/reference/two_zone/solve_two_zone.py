@@ -52,23 +52,6 @@ FOLDER = os.path.join(ROOT, "tests", "data", "two_zone")
 LOW_ZONE_FACTOR = 3.0
 
 
-def has_supply_everywhere(jids, fixed, links):
-    """True if every junction is connected (through links) to a fixed-head node."""
-    adj = {}
-    for l in links:
-        adj.setdefault(l.i, set()).add(l.j)
-        adj.setdefault(l.j, set()).add(l.i)
-    seen = set(fixed)
-    stack = list(fixed)
-    while stack:
-        n = stack.pop()
-        for m in adj.get(n, ()):
-            if m not in seen:
-                seen.add(m)
-                stack.append(m)
-    return all(j in seen for j in jids)
-
-
 def solve_scenario(net, factor):
     assert net["units"] == "us"
     (v,) = net["valves"]
@@ -93,7 +76,7 @@ def solve_scenario(net, factor):
         elif state == "open":
             links.append(vlink)
         free = [j for j in jids if j not in fixed]
-        if not has_supply_everywhere(free, fixed, links):
+        if not netref.has_supply_everywhere(free, fixed, links):
             print(f"  state {state}: a junction group has no fixed head -> no solution")
             continue
         solver = netref.NodeHeadSolver(jids, fixed, links, reg, demands)

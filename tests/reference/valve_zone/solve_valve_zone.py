@@ -93,25 +93,6 @@ STATES = ("regulating", "open", "closed")
 CHECK_STATES = ("open", "closed")
 
 
-def has_supply_everywhere(jids, fixed, links):
-    """True if every junction reaches a fixed-head node through links. A regulating valve is not
-    a path: its flow is set by the junction it holds, so the part behind its other end needs a
-    head of its own (else that part's heads are not determined: no steady state)."""
-    adj = {}
-    for a, b in [(l.i, l.j) for l in links]:
-        adj.setdefault(a, set()).add(b)
-        adj.setdefault(b, set()).add(a)
-    seen = set(fixed)
-    stack = list(fixed)
-    while stack:
-        n = stack.pop()
-        for m in adj.get(n, ()):
-            if m not in seen:
-                seen.add(m)
-                stack.append(m)
-    return all(j in seen for j in jids)
-
-
 def damped_newton(solver, x, steps=400):
     """Newton's method on the node-head equations, each step halved until the Euclidean norm
     of the junction imbalances falls (Armijo's rule, 1e-4). Returns (x, largest imbalance)."""
@@ -183,7 +164,7 @@ class ValveZone:
             if state == "open":
                 links.append(link)
         free = [j for j in self.jids if j not in fixed]
-        if not has_supply_everywhere(free, fixed, links):
+        if not netref.has_supply_everywhere(free, fixed, links):
             return None
         solver = netref.NodeHeadSolver(self.jids, fixed, links, reg, demands)
         # hybr from the linear network's heads; where it stalls (the node-head system is stiff
@@ -370,19 +351,13 @@ def main():
     rows += scenario_rows(zone, "fire_J6_1300", zone.demands(f["max_day_factor"], "J6", 1300.0))
     rows += hydrant_rows(zone)
     write(zone, "valve_zone", "expected.csv", rows)
-    print("valve_check")
-    zone = ValveZone(os.path.join(ROOT, "tests", "data", "valve_check"))
-    f = zone.net["demand_factors"]
-    rows = scenario_rows(zone, "max_day", zone.demands(f["max_day_factor"]))
-    rows += hydrant_rows(zone)
-    write(zone, "valve_check", "expected_check.csv", rows)
-    print("valve_flat")
-    zone = ValveZone(os.path.join(ROOT, "tests", "data", "valve_flat"))
-    f = zone.net["demand_factors"]
-    rows = scenario_rows(zone, "max_day", zone.demands(f["max_day_factor"]))
-    rows += hydrant_rows(zone)
-    write(zone, "valve_flat", "expected_flat.csv", rows)
-
+    for name, out in (("valve_check", "expected_check.csv"), ("valve_flat", "expected_flat.csv")):
+        print(name)
+        zone = ValveZone(os.path.join(ROOT, "tests", "data", name))
+        f = zone.net["demand_factors"]
+        rows = scenario_rows(zone, "max_day", zone.demands(f["max_day_factor"]))
+        rows += hydrant_rows(zone)
+        write(zone, name, out, rows)
 
 if __name__ == "__main__":
     main()
