@@ -130,3 +130,11 @@ fn valve_zone_with_a_flat_approach_to_the_floor_matches_state_enumeration_refere
     // reported at 1,432.8 gpm against the reference's 1,440.0 (0.503 % low).
     compare_with_state_enumeration("valve_flat", "reference/valve_zone/expected_flat.csv");
 }
+
+#[test]
+fn valve_zone_with_a_booster_pump_matches_state_enumeration_reference() {
+    // Reference: as above (same script), on the check-valve network with a booster pump from a
+    // suction reservoir in place of the pipe J1 -> J5; the pump's states (running on its
+    // three-point curve, off) are enumerated with the valves'.
+    compare_with_state_enumeration("valve_pump", "reference/valve_zone/expected_pump.csv");
+}

@@ -1,14 +1,17 @@
 #!/usr/bin/env python3
 """Independent steady states and fire flows of tests/data/valve_zone -> expected.csv, of
-tests/data/valve_check -> expected_check.csv and of tests/data/valve_flat -> expected_flat.csv,
-beside this script.
+tests/data/valve_check -> expected_check.csv, of tests/data/valve_flat -> expected_flat.csv and
+of tests/data/valve_pump -> expected_pump.csv, beside this script.
 
 Ran with: Python 3.11.7, numpy 2.4.6, scipy 1.17.1, fluids 1.3.1 (written into the CSV header).
 
 The networks: a looped main (R1, J1-J5) and one zone (J6, J7, J8) fed by a PRV (J3 -> J6, holding
 J6) and by a PSV (J2 -> J8, holding J2); valve_check adds a second reservoir (R3) behind a
 check-valve pipe into J4 (states open: flow from -> to >= 0; closed: H_to >= H_from);
-valve_flat has that reservoir and the PRV, with a plain pipe in the PSV's place. Demands x max_day_factor (1.5) or x peak_hour_factor
+valve_flat has that reservoir and the PRV, with a plain pipe in the PSV's place; valve_pump is
+valve_check with a booster pump (JS -> J5, from a suction reservoir) in place of the pipe J1 -> J5.
+A pump is running (its flow one more unknown, its curve head = s^2 a - b s^(2-c) q|q|^(c-1)
+through the three points one more equation; q >= 0) or off (no link; rise >= shutoff s^2 a). Demands x max_day_factor (1.5) or x peak_hour_factor
 (2.5) from model.toml; a fire flow is one extra demand at the hydrant's junction.
 
 Formulation: NODE-HEAD (../netref.py): unknown junction heads (offsets from the source grade),
@@ -16,9 +19,9 @@ every pipe's flow an explicit function of its end heads, Q = sign(dh) (|dh|/R)^(
 R = 10.67 L/(C^1.852 D^4.8704); continuity at every junction solved with scipy.optimize.root
 ('hybr', analytic Jacobian) to an imbalance below 1e-12 m^3/s (where hybr stalls, Newton's method
 with step halving on the imbalance, from the same start and from the combination's last
-solution, to 1e-11 m^3/s; the script fails if neither gets there). A different formulation from the
+solution, to 1e-10 m^3/s; the script fails if neither gets there). A different formulation from the
 gradient algorithm of the Rust code, and no iteration between the valves: EVERY combination of
-valve states (and check-valve states) is solved on its own and kept only when each valve's own
+valve states (and check-valve and pump states) is solved on its own and kept only when each valve's own
 conditions hold:
 
   set head: PRV  elevation(to)   + setting x 6.894757 / 9.80665 m (held at its downstream end)
@@ -48,8 +51,8 @@ written is the passing end of that bracket. Between grid flows with the same val
 head falls as the fire flow rises, so the grid cannot step over a dip there; where the states
 change between two grid flows the script also scans that interval at 0.1 gpm.
 
-Rows kind,id,value (US units, full double precision); expected_check.csv and expected_flat.csv
-have the max_day scenario and the hydrant rows:
+Rows kind,id,value (US units, full double precision); expected_check.csv, expected_flat.csv and
+expected_pump.csv have the max_day scenario and the hydrant rows:
   <scenario>_head_ft, junction   head (ft) in the scenario's one steady state
   <scenario>_state, valve        regulating | open | closed
   <scenario>_flow_gpm, valve     valve flow (gpm, from -> to)
@@ -66,9 +69,10 @@ Re-run (from the repository root):
     python3 tests/reference/valve_zone/solve_valve_zone.py
     python3 tests/reference/valve_zone/solve_valve_zone.py FOLDER   # prints another network's
                                                                     # available flows, writes nothing
-Deterministic; runs in about a minute.
+Deterministic; runs in about three and a half minutes (most of it valve_pump's 36 combinations).
 """
 import itertools
+import math
 import os
 import sys
 
@@ -84,13 +88,71 @@ CAP_GPM = 8000.0
 GRID_GPM = 10.0
 FINE_GPM = 0.1
 BISECT_GPM = 0.001
-# Newton's fallback stops at round-off, which near 2,000 gpm lies just above 1e-12 m^3/s
-FALLBACK_TOL = 1e-11
+# Newton's fallback stops at round-off, which lies above 1e-12 m^3/s near 2,000 gpm and where a
+# pump runs at its shutoff head with pipes at zero flow beside it (2e-11 m^3/s, 3e-7 gpm)
+FALLBACK_TOL = 1e-10
 HEAD_SLACK = 1e-9
 FLOW_SLACK = 1e-12
 SAME_STATE_M = 1e-7
 STATES = ("regulating", "open", "closed")
 CHECK_STATES = ("open", "closed")
+PUMP_STATES = ("running", "off")
+# weight of a running pump's energy equation (m) beside the continuity equations (m^3/s)
+PUMP_ROW_SCALE = 1e-3
+
+
+class PumpNodeHeadSolver(netref.NodeHeadSolver):
+    """The node-head solver with the flow of every running pump as one more unknown and its
+    curve as one more equation, H_to - H_from = s^2 a - b s^(2-c) q|q|^(c-1) (odd beyond zero
+    flow, so that the equations stay smooth; a running pump with reverse flow breaks its rule).
+    Inverting the curve for the flow instead (netref's pump link) puts an infinite slope at the
+    shutoff head, where Newton's method stalls."""
+
+    def __init__(self, junction_ids, fixed, links, reg, demands, pumps):
+        super().__init__(junction_ids, fixed, links, reg, demands)
+        self.pumps = pumps
+        self.n_base = self.n_unknown
+        self.n_unknown += len(pumps)
+
+    def eval(self, x):
+        nb, nj = self.n_base, len(self.jids)
+        saved, self.n_unknown = self.n_unknown, nb
+        Fb, Jb = super().eval(x[:nb])
+        self.n_unknown = saved
+        F = np.zeros(nj + len(self.pumps))
+        J = np.zeros((nj + len(self.pumps), self.n_unknown))
+        F[:nj], J[:nj, :nb] = Fb, Jb
+        h = self._offsets(x)
+        for k, p in enumerate(self.pumps):
+            c_q = nb + k
+            q = x[c_q]
+            for node, sign in ((p.i, -1.0), (p.j, 1.0)):
+                if node in self.row:
+                    F[self.row[node]] += sign * q
+                    J[self.row[node], c_q] += sign
+            r = nj + k
+            curve = p.s * p.s * p.a - p.b * p.s ** (2.0 - p.c) * q * abs(q) ** (p.c - 1.0)
+            F[r] = PUMP_ROW_SCALE * ((h[p.j] - h[p.i]) - curve)
+            J[r, c_q] = PUMP_ROW_SCALE * p.b * p.s ** (2.0 - p.c) * p.c * abs(q) ** (p.c - 1.0)
+            for node, sign in ((p.j, 1.0), (p.i, -1.0)):
+                if node in self.col:
+                    J[r, self.col[node]] += PUMP_ROW_SCALE * sign
+        return F, J
+
+    def initial_guess(self):
+        # the pumps as netref's linear stand-ins (conductance 1, lift = design head) for the
+        # heads, and their design flows
+        base = netref.NodeHeadSolver(self.jids, {k: v + self.ref for k, v in self.fixed.items()},
+                                     self.links + self.pumps, self.reg, self.demands)
+        x = base.initial_guess()
+        return np.concatenate([x + (base.ref - self.ref) * (np.arange(len(x)) < len(self.free)),
+                               [p.design_flow for p in self.pumps]])
+
+    def flows(self, x):
+        out = super().flows(x[:self.n_base])
+        for k, p in enumerate(self.pumps):
+            out[p.id] = x[self.n_base + k]
+        return out
 
 
 def damped_newton(solver, x, steps=400):
@@ -123,6 +185,12 @@ class ValveZone:
             p["status"] = "open"
         self.links = [l for l in netref.make_links(self.net) if l.id not in {p["id"] for p in checks}]
         self.checks = [l for l in netref.make_links(self.net) if l.id in {p["id"] for p in checks}]
+        # pumps too: running (on their curve) or off (no flow)
+        design = {p["id"]: p["design_flow"] for p in self.net["pumps"]}
+        self.pumps = [l for l in self.links if l.id in design]
+        for l in self.pumps:
+            l.design_flow = design[l.id]
+        self.links = [l for l in self.links if l.id not in design]
         self.sources = {s["id"]: s["grade"] for s in self.net["sources"]}
         self.elev = {j["id"]: j["elev"] for j in self.net["junctions"]}
         self.jids = [j["id"] for j in self.net["junctions"]]
@@ -145,9 +213,10 @@ class ValveZone:
 
     def combinations(self):
         """Every combination of states: one per PRV/PSV, then one per check-valve pipe."""
-        return itertools.product(*([STATES] * len(self.valves) + [CHECK_STATES] * len(self.checks)))
+        return itertools.product(*([STATES] * len(self.valves) + [CHECK_STATES] * len(self.checks)
+                                   + [PUMP_STATES] * len(self.pumps)))
 
-    def _solve_combo(self, combo, demands):
+    def _solve_combo(self, combo, demands, others=()):
         fixed = dict(self.sources)
         links = list(self.links)
         reg = []
@@ -163,17 +232,26 @@ class ValveZone:
         for link, state in zip(self.checks, combo[len(self.valves):]):
             if state == "open":
                 links.append(link)
+        pumps = [p for p, state in zip(self.pumps, combo[len(self.valves) + len(self.checks):])
+                 if state == "running"]
         free = [j for j in self.jids if j not in fixed]
-        if not netref.has_supply_everywhere(free, fixed, links):
+        if not netref.has_supply_everywhere(free, fixed, links + pumps):
             return None
-        solver = netref.NodeHeadSolver(self.jids, fixed, links, reg, demands)
+        if pumps:
+            solver = PumpNodeHeadSolver(self.jids, fixed, links, reg, demands, pumps)
+        else:
+            solver = netref.NodeHeadSolver(self.jids, fixed, links, reg, demands)
         # hybr from the linear network's heads; where it stalls (the node-head system is stiff
         # next to pipes with almost no head difference), Newton's method with step halving on
-        # the imbalance, from the same start and from this combination's last solution
+        # the imbalance, from the same start, from this combination's last solution and, when
+        # those fail too, from the heads of the other combinations solved at these demands
         try:
             x, res = solver.solve()
         except RuntimeError:
             starts = [solver.initial_guess()] + ([self.last[combo]] if combo in self.last else [])
+            for h in others:
+                heads = [h[j] - solver.ref for j in solver.free]
+                starts.append(np.array(heads + [0.0] * (solver.n_unknown - len(heads))))
             for x0 in starts:
                 x, res = damped_newton(solver, x0)
                 if res < FALLBACK_TOL:
@@ -210,13 +288,28 @@ class ValveZone:
             ok = q[link.id] >= -FLOW_SLACK if state == "open" else hd >= hu - HEAD_SLACK
             if not ok:
                 return False
+        for p, state in zip(self.pumps, combo[len(self.valves) + len(self.checks):]):
+            rise, shutoff = h[p.j] - h[p.i], p.s * p.s * p.a
+            ok = q[p.id] >= -FLOW_SLACK if state == "running" else rise >= shutoff - HEAD_SLACK
+            if not ok:
+                return False
         return True
 
     def steady_states(self, demands):
         """Every distinct steady state: list of (combo, heads, flows)."""
-        found = []
+        found, solved, deferred, results = [], [], [], []
         for combo in self.combinations():
-            sol = self._solve_combo(combo, demands)
+            try:
+                sol = self._solve_combo(combo, demands)
+            except RuntimeError:
+                deferred.append(combo)  # tried again below, also from the others' heads
+                continue
+            results.append((combo, sol))
+            if sol is not None:
+                solved.append(sol[0])
+        for combo in deferred:
+            results.append((combo, self._solve_combo(combo, demands, solved)))
+        for combo, sol in results:
             if sol is None:
                 continue
             h, q = sol
@@ -277,7 +370,8 @@ class ValveZone:
 
 
 def describe(combo, zone):
-    ids = [v["id"] for v, _, _ in zone.valves] + [l.id for l in zone.checks]
+    ids = ([v["id"] for v, _, _ in zone.valves] + [l.id for l in zone.checks]
+           + [p.id for p in zone.pumps])
     return ";".join(f"{i}={s}" for i, s in zip(ids, combo))
 
 
@@ -324,7 +418,8 @@ def hydrant_rows(zone):
 def write(zone, name, out, rows):
     header = [
         f"Steady states and fire flows of tests/data/{name} (US units): every combination of "
-        "PRV/PSV/check-valve states solved and kept when its own rules hold",
+        + ("PRV/PSV/check-valve/pump" if zone.pumps else "PRV/PSV/check-valve")
+        + " states solved and kept when its own rules hold",
         "scenarios at demand x max_day_factor (1.5) or x peak_hour_factor (2.5); fire flows: floor "
         "20 psi at every junction, cap 8000 gpm, first crossing, bracket < 0.001 gpm (passing end)",
         "units: head ft, flow gpm (from -> to), available gpm; states are words",
@@ -351,7 +446,8 @@ def main():
     rows += scenario_rows(zone, "fire_J6_1300", zone.demands(f["max_day_factor"], "J6", 1300.0))
     rows += hydrant_rows(zone)
     write(zone, "valve_zone", "expected.csv", rows)
-    for name, out in (("valve_check", "expected_check.csv"), ("valve_flat", "expected_flat.csv")):
+    for name, out in (("valve_check", "expected_check.csv"), ("valve_flat", "expected_flat.csv"),
+                      ("valve_pump", "expected_pump.csv")):
         print(name)
         zone = ValveZone(os.path.join(ROOT, "tests", "data", name))
         f = zone.net["demand_factors"]
