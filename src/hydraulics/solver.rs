@@ -330,6 +330,9 @@ struct Iterate {
     /// The regulating valves coupled into the Newton step under the present states (see
     /// [`Hydraulics::couple_regulating_valves`]).
     coupled: Vec<CoupledValve>,
+    /// Regulating valves taken out of regulation once already because a part they feed was
+    /// cut off (see [`Hydraulics::pin_and_isolate`]).
+    released: Vec<usize>,
 }
 
 impl Iterate {
@@ -900,6 +903,7 @@ impl<'n> Hydraulics<'n> {
             isolated: Vec::new(),
             dirty: true,
             coupled: Vec::new(),
+            released: Vec::new(),
             need_factor: true,
             previous_step: f64::INFINITY,
             previous_flow_step: f64::INFINITY,
@@ -1563,42 +1567,68 @@ impl<'n> Hydraulics<'n> {
 
     /// Converged for the current states: applies the switching rules of every controlled
     /// link. Returns whether a state changed; a link that switched [`MAX_SWITCHES`] times
-    /// keeps its state and is listed as unsettled.
+    /// keeps its state and is listed as unsettled. Every link whose rules ask for a change
+    /// switches at once, until some link has switched [`ONE_AT_A_TIME_AFTER`] times: from
+    /// then on one link switches per converged solve, a link stopping reverse flow first
+    /// (else the first in order). Rules judged on a state that other switches are about to
+    /// change can cycle: a PRV passing reverse flow and another PRV short of head, switched
+    /// together, alternated with a PSV without ever reaching the state where the first alone
+    /// had closed.
     fn switch_controls(&self, request: &SolveRequest<'_>, it: &mut Iterate) -> bool {
-        let mut changed = false;
+        let mut wanted: Vec<(usize, LinkState)> = Vec::new();
         for &i in &self.controlled {
-            let l = &self.net.links[i];
-            let view = LinkView {
-                state: it.states[i],
-                head_from: it.heads[l.from],
-                head_to: it.heads[l.to],
-                flow: it.flows[i],
-                setting: self.settings[i],
-                open_loss: open_valve_loss,
-                shutoff_m: match &l.kind {
-                    LinkKind::Pump(p) => p.shutoff_at_speed_m(),
-                    _ => 0.0,
-                },
-            };
-            let next = if self.is_held_by_request(i, request) {
-                controls::next_state_with_held_end(l, &view)
-            } else {
-                controls::next_state(l, &view)
-            };
-            if next != it.states[i] {
-                if it.switches[i] < MAX_SWITCHES {
-                    it.switches[i] += 1;
-                    it.states[i] = next;
-                    if !next.conducts() && next != LinkState::Regulating {
-                        it.flows[i] = 0.0;
-                    }
-                    changed = true;
-                } else if !it.unsettled.contains(&i) {
-                    it.unsettled.push(i);
-                }
+            let next = self.next_state_of(request, it, i);
+            if next == it.states[i] {
+                continue;
+            }
+            if it.switches[i] < MAX_SWITCHES {
+                wanted.push((i, next));
+            } else if !it.unsettled.contains(&i) {
+                it.unsettled.push(i);
             }
         }
-        changed
+        let one_at_a_time = self
+            .controlled
+            .iter()
+            .any(|&i| it.switches[i] >= ONE_AT_A_TIME_AFTER);
+        if one_at_a_time && wanted.len() > 1 {
+            let stops_flow = |s: LinkState| matches!(s, LinkState::Closed | LinkState::NoFlow);
+            let first = wanted
+                .iter()
+                .position(|&(_, next)| stops_flow(next))
+                .unwrap_or(0);
+            wanted = vec![wanted[first]];
+        }
+        for &(i, next) in &wanted {
+            it.switches[i] += 1;
+            it.states[i] = next;
+            if !next.conducts() && next != LinkState::Regulating {
+                it.flows[i] = 0.0;
+            }
+        }
+        !wanted.is_empty()
+    }
+
+    /// The state the switching rules ask of controlled link `i` at the converged iterate.
+    fn next_state_of(&self, request: &SolveRequest<'_>, it: &Iterate, i: usize) -> LinkState {
+        let l = &self.net.links[i];
+        let view = LinkView {
+            state: it.states[i],
+            head_from: it.heads[l.from],
+            head_to: it.heads[l.to],
+            flow: it.flows[i],
+            setting: self.settings[i],
+            open_loss: open_valve_loss,
+            shutoff_m: match &l.kind {
+                LinkKind::Pump(p) => p.shutoff_at_speed_m(),
+                _ => 0.0,
+            },
+        };
+        if self.is_held_by_request(i, request) {
+            controls::next_state_with_held_end(l, &view)
+        } else {
+            controls::next_state(l, &view)
+        }
     }
 
     /// Whether the remaining error after a step of size `step`, which was `ratio` times the one
@@ -1815,14 +1845,15 @@ impl<'n> Hydraulics<'n> {
     /// Pins the junctions of the current states and finds the cut-off ones (see
     /// [`Hydraulics::find_isolated`]). A regulating valve with an end in a cut-off part cannot
     /// hold its setting: nothing there fixes a head, and the valve's flow has nowhere to go
-    /// but that part's demand. When the part has a demand, the valve's throttling would draw
-    /// the part's heads down without bound, so an element that a falling head there would open
-    /// (a closed PRV, check-valve pipe or stopped pump delivering into the part from a
-    /// supplied junction) is switched to conducting first: a PSV that holds the main's head
-    /// then shares the zone with the PRV that takes up the rest. Where no such element exists,
-    /// the valve is taken out of regulation, open when the part has a demand to serve, closed
-    /// when it has none, and its rules decide from there; without this the state would be
-    /// declared unsolvable although a neighbouring state is not.
+    /// but that part's demand. It is taken out of regulation, open when the part has a demand
+    /// to serve, closed when it has none, and its rules decide from there; without this the
+    /// state would be declared unsolvable although a neighbouring state is not. When its rules
+    /// send it back to regulating and the part is cut off again, the valve's throttling would
+    /// draw the part's heads down: an element that a falling head there would open (a closed
+    /// PRV, check-valve pipe or stopped pump delivering into the part from a supplied junction)
+    /// is then switched to conducting instead, so that a PSV holding the main's head shares
+    /// the zone with the PRV that takes up the rest. (Opening those feeders at the first
+    /// release cycled where the PSV alone, open, was the steady state.)
     fn pin_and_isolate(
         &self,
         ws: &mut Workspace,
@@ -1837,7 +1868,14 @@ impl<'n> Hydraulics<'n> {
             match self.find_isolated(ws, &it.states, held)? {
                 Isolation::Cut(cut) => return Ok(cut),
                 Isolation::Release { valves, cut } => {
-                    let feeders = self.feeders_into(&cut, request, it);
+                    // A second release of the same valve means that, released, it went back
+                    // to regulating: only then are the part's feeders opened.
+                    let again = valves.iter().any(|i| it.released.contains(i));
+                    let feeders = if again {
+                        self.feeders_into(&cut, request, it)
+                    } else {
+                        Vec::new()
+                    };
                     if !feeders.is_empty() {
                         for (i, state) in feeders {
                             it.states[i] = state;
@@ -1845,6 +1883,7 @@ impl<'n> Hydraulics<'n> {
                         continue;
                     }
                     let demand = cut.iter().any(|&j| ws.demand[j] != 0.0 || Some(j) == held);
+                    it.released.extend(valves.iter().copied());
                     for i in valves {
                         it.states[i] = if demand {
                             LinkState::Open
@@ -2074,6 +2113,10 @@ impl<'n> Hydraulics<'n> {
         }
     }
 }
+
+/// Switches of one link after which the links switch one per converged solve (see
+/// [`Hydraulics::switch_controls`]).
+const ONE_AT_A_TIME_AFTER: u8 = 2;
 
 /// Regulating valves coupled into the Newton step whatever the network's shape: each costs a
 /// triangular solve per step (about a sixth of a factorization), which the step they save
