@@ -138,3 +138,12 @@ fn valve_zone_with_a_booster_pump_matches_state_enumeration_reference() {
     // three-point curve, off) are enumerated with the valves'.
     compare_with_state_enumeration("valve_pump", "reference/valve_zone/expected_pump.csv");
 }
+
+#[test]
+fn zone_behind_two_prvs_and_a_psv_matches_state_enumeration_reference() {
+    // Reference: as above (same script), on a looped zone fed by two PRVs and a PSV from a
+    // looped main. The switching rules, applied to every link at once, cycled here (a PRV
+    // passing reverse flow and another short of head, switched together, alternated with the
+    // PSV); after two switches of a link they now switch one link per converged solve.
+    compare_with_state_enumeration("valve_two_prv", "reference/valve_zone/expected_two_prv.csv");
+}

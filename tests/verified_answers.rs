@@ -13,6 +13,7 @@ use std::path::{Path, PathBuf};
 use firemain::criteria::{load_criteria, Criteria};
 use firemain::fireflow::{
     sweep, ConstraintCheck, FireFlowSetup, HydrantNote, HydrantResult, LimitedBy, Outcome,
+    FLOOR_TOLERANCE_KPA,
 };
 use firemain::hydraulics::{Hydraulics, Solution, SolveError, SolveRequest, Tolerance};
 use firemain::model::{load_network, Network};
@@ -78,6 +79,25 @@ fn ordinary(
 /// constraints only when the solve from a cold start and the one from the max-day state both
 /// do (the safe reading the search promises).
 fn meets(setup: &FireFlowSetup<'_>, at: usize, q: f64) -> bool {
+    meets_by(setup, at, q, &|c| c.feasible())
+}
+
+/// Whether an ordinary solve at `q` clears every constraint by the floor tolerance: the test
+/// that a flow above a reported answer passes. Within ± that tolerance a solve cannot tell a
+/// pass from a failure, and where the binding pressure nears the floor almost flat (0.002 psi
+/// per gpm on a generated two-PRV zone) the band spans more than the promised 1 gpm.
+fn clearly_meets(setup: &FireFlowSetup<'_>, at: usize, q: f64) -> bool {
+    meets_by(setup, at, q, &|c| {
+        c.pressure_margin_kpa >= FLOOR_TOLERANCE_KPA && c.velocity.is_none_or(|(m, _)| m >= 0.0)
+    })
+}
+
+fn meets_by(
+    setup: &FireFlowSetup<'_>,
+    at: usize,
+    q: f64,
+    judge: &dyn Fn(&ConstraintCheck) -> bool,
+) -> bool {
     let from_max_day = || {
         let extra = [(at, q)];
         let request = SolveRequest {
@@ -91,10 +111,10 @@ fn meets(setup: &FireFlowSetup<'_>, at: usize, q: f64) -> bool {
             .any(|tolerance| {
                 ws.set_tolerance(tolerance);
                 matches!(setup.hydraulics.solve(&mut ws, &request, &setup.base),
-                Ok(sol) if setup.constraints(&sol, at).feasible())
+                Ok(sol) if judge(&setup.constraints(&sol, at)))
             })
     };
-    matches!(ordinary(setup, at, q), Ok((_, c)) if c.feasible()) && from_max_day()
+    matches!(ordinary(setup, at, q), Ok((_, c)) if judge(&c)) && from_max_day()
 }
 
 /// Whether the ordinary solve at `next`, started from the ordinary solve at `q` (the fire flow
@@ -639,7 +659,7 @@ fn random_disagreement(setup: &FireFlowSetup<'_>, res: &HydrantResult) -> Option
     if res.limited_by != Some(LimitedBy::Cap)
         && !state_limited
         && next <= cap
-        && meets(setup, at, next)
+        && clearly_meets(setup, at, next)
         && continues_to_pass(setup, at, q, next)
     {
         return Some(format!(
@@ -761,4 +781,129 @@ fn first_crossing_below_controls_that_change_state() {
         last_pass / M3S_PER_GPM,
         first_fail / M3S_PER_GPM
     );
+}
+
+// 6. Random small networks with a zone behind two PRVs and a PSV (US units).
+
+/// A looped main (R1 → M1; M1-M2-M3-M4) and a looped zone 40 ft lower (Z1-Z2-Z3-Z4), fed by
+/// a PRV from M2 into Z1, by a second PRV (or a plain pipe) from M4 into Z3, and, when drawn,
+/// by a PSV from M3 into Z2; when drawn, a plain pipe from Z4 back to M1 joins the zone to
+/// the main. Hydrants at M2, M3 and every zone junction.
+#[derive(Clone, Debug)]
+struct ZoneNet {
+    grade_ft: f64,
+    elevations_ft: Vec<f64>,
+    demands_gpm: Vec<f64>,
+    /// (length ft, diameter in, C) of the ten pipes, in the order of `files`.
+    pipes: Vec<(f64, f64, f64)>,
+    prv_a_psi: f64,
+    prv_b_psi: Option<f64>,
+    psv_psi: Option<f64>,
+    back_pipe: bool,
+}
+
+fn zone_net() -> impl Strategy<Value = ZoneNet> {
+    let pipe = (
+        300.0..2500.0_f64,
+        prop::sample::select(vec![6.0, 8.0, 10.0, 12.0]),
+        80.0..130.0_f64,
+    );
+    (
+        900.0..980.0_f64,
+        prop::collection::vec(740.0..800.0_f64, 8),
+        prop::collection::vec(0.0..80.0_f64, 8),
+        prop::collection::vec(pipe, 10),
+        40.0..80.0_f64,
+        prop::option::of(40.0..80.0_f64),
+        prop::option::of(25.0..60.0_f64),
+        any::<bool>(),
+    )
+        .prop_map(
+            |(
+                grade_ft,
+                elevations_ft,
+                demands_gpm,
+                pipes,
+                prv_a_psi,
+                prv_b_psi,
+                psv_psi,
+                back_pipe,
+            )| {
+                ZoneNet {
+                    grade_ft,
+                    elevations_ft,
+                    demands_gpm,
+                    pipes,
+                    prv_a_psi,
+                    prv_b_psi,
+                    psv_psi,
+                    back_pipe,
+                }
+            },
+        )
+}
+
+impl ZoneNet {
+    fn files(&self) -> NetFiles {
+        let mut f = NetFiles::us_hw();
+        f.max_day(1.5).reservoir("R1", self.grade_ft);
+        let names = ["M1", "M2", "M3", "M4", "Z1", "Z2", "Z3", "Z4"];
+        for (i, name) in names.iter().enumerate() {
+            let zone_drop = if i >= 4 { 40.0 } else { 0.0 };
+            f.junction(name, self.elevations_ft[i] - zone_drop, self.demands_gpm[i]);
+        }
+        let p = &self.pipes;
+        let pipes = [
+            ("P1", "R1", "M1"),
+            ("P2", "M1", "M2"),
+            ("P3", "M2", "M3"),
+            ("P4", "M3", "M4"),
+            ("P5", "M4", "M1"),
+            ("P6", "Z1", "Z2"),
+            ("P7", "Z2", "Z3"),
+            ("P8", "Z3", "Z4"),
+            ("P9", "Z4", "Z1"),
+        ];
+        for (k, (id, a, b)) in pipes.iter().enumerate() {
+            f.pipe(id, a, b, p[k].0, p[k].1, p[k].2);
+        }
+        f.valve("PRVA", "M2", "Z1", "prv", 8.0, self.prv_a_psi, 3.0);
+        match self.prv_b_psi {
+            Some(s) => f.valve("PRVB", "M4", "Z3", "prv", 8.0, s, 3.0),
+            None => f.pipe("PRVB", "M4", "Z3", 100.0, 6.0, 110.0),
+        };
+        if let Some(s) = self.psv_psi {
+            f.valve("PSV", "M3", "Z2", "psv", 6.0, s, 3.0);
+        }
+        if self.back_pipe {
+            f.pipe("PB", "Z4", "M1", p[9].0, p[9].1, p[9].2);
+        }
+        for j in ["M2", "M3", "Z1", "Z2", "Z3", "Z4"] {
+            f.hydrant(&format!("F{j}"), j, Some(1000.0));
+        }
+        f
+    }
+}
+
+proptest! {
+    #![proptest_config(config())]
+
+    #[test]
+    fn answers_on_zones_behind_two_prvs_and_a_psv_resolve(n in zone_net()) {
+        // Common practice, no source: the method's promise (docs/fire-flow-method.md §2), as
+        // above. Unlike above, a max-day state the solver cannot find fails the property: on
+        // the case that first failed here the switching rules cycled, and the state-enumeration
+        // reference (tests/reference/valve_zone, network valve_two_prv) found one steady state.
+        let net = n.files().load();
+        let criteria = shipped_criteria("common-practice-us.toml", &net);
+        let hydraulics = Hydraulics::new(&net).expect("prepare");
+        let setup = FireFlowSetup::new(&hydraulics, &criteria);
+        prop_assert!(setup.is_ok(), "max-day: {:?}", setup.err());
+        let setup = setup.expect("max-day");
+        let failures: Vec<String> = check_all(&setup, 1)
+            .iter()
+            .filter_map(|r| random_disagreement(&setup, r))
+            .collect();
+        prop_assert!(failures.is_empty(), "\n{}", failures.join("\n"));
+    }
 }

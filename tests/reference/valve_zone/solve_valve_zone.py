@@ -1,7 +1,8 @@
 #!/usr/bin/env python3
 """Independent steady states and fire flows of tests/data/valve_zone -> expected.csv, of
 tests/data/valve_check -> expected_check.csv, of tests/data/valve_flat -> expected_flat.csv and
-of tests/data/valve_pump -> expected_pump.csv, beside this script.
+of tests/data/valve_pump -> expected_pump.csv and of tests/data/valve_two_prv ->
+expected_two_prv.csv, beside this script.
 
 Ran with: Python 3.11.7, numpy 2.4.6, scipy 1.17.1, fluids 1.3.1 (written into the CSV header).
 
@@ -11,7 +12,9 @@ check-valve pipe into J4 (states open: flow from -> to >= 0; closed: H_to >= H_f
 valve_flat has that reservoir and the PRV, with a plain pipe in the PSV's place; valve_pump is
 valve_check with a booster pump (JS -> J5, from a suction reservoir) in place of the pipe J1 -> J5.
 A pump is running (its flow one more unknown, its curve head = s^2 a - b s^(2-c) q|q|^(c-1)
-through the three points one more equation; q >= 0) or off (no link; rise >= shutoff s^2 a). Demands x max_day_factor (1.5) or x peak_hour_factor
+through the three points one more equation; q >= 0) or off (no link; rise >= shutoff s^2 a).
+valve_two_prv is another layout: a looped main (M1-M4) and a looped zone (Z1-Z4) fed by two PRVs
+(M2 -> Z1, M4 -> Z3) and a PSV (M3 -> Z2). Demands x max_day_factor (1.5) or x peak_hour_factor
 (2.5) from model.toml; a fire flow is one extra demand at the hydrant's junction.
 
 Formulation: NODE-HEAD (../netref.py): unknown junction heads (offsets from the source grade),
@@ -51,8 +54,8 @@ written is the passing end of that bracket. Between grid flows with the same val
 head falls as the fire flow rises, so the grid cannot step over a dip there; where the states
 change between two grid flows the script also scans that interval at 0.1 gpm.
 
-Rows kind,id,value (US units, full double precision); expected_check.csv, expected_flat.csv and
-expected_pump.csv have the max_day scenario and the hydrant rows:
+Rows kind,id,value (US units, full double precision); the files other than expected.csv have
+the max_day scenario and the hydrant rows:
   <scenario>_head_ft, junction   head (ft) in the scenario's one steady state
   <scenario>_state, valve        regulating | open | closed
   <scenario>_flow_gpm, valve     valve flow (gpm, from -> to)
@@ -69,7 +72,7 @@ Re-run (from the repository root):
     python3 tests/reference/valve_zone/solve_valve_zone.py
     python3 tests/reference/valve_zone/solve_valve_zone.py FOLDER   # prints another network's
                                                                     # available flows, writes nothing
-Deterministic; runs in about three and a half minutes (most of it valve_pump's 36 combinations).
+Deterministic; runs in about five minutes (most of it valve_pump's 36 combinations).
 """
 import itertools
 import math
@@ -447,7 +450,7 @@ def main():
     rows += hydrant_rows(zone)
     write(zone, "valve_zone", "expected.csv", rows)
     for name, out in (("valve_check", "expected_check.csv"), ("valve_flat", "expected_flat.csv"),
-                      ("valve_pump", "expected_pump.csv")):
+                      ("valve_pump", "expected_pump.csv"), ("valve_two_prv", "expected_two_prv.csv")):
         print(name)
         zone = ValveZone(os.path.join(ROOT, "tests", "data", name))
         f = zone.net["demand_factors"]
