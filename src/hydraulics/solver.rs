@@ -1900,7 +1900,8 @@ impl<'n> Hydraulics<'n> {
     /// The elements that would start to deliver into the cut-off part `cut` (which has a
     /// demand) as its heads fell, with the state they would take: closed PRVs from a supplied
     /// junction into the part (regulating where the upstream head exceeds the setting, else
-    /// open), closed check-valve pipes into it (open) and stopped pumps into it (running).
+    /// open), closed PSVs whose upstream head exceeds their setting (open), closed check-valve
+    /// pipes into it (open) and stopped pumps into it (running).
     /// Empty when the part has no demand. Valves whose controlled junction the request holds
     /// follow their own rules and are left alone.
     fn feeders_into(
@@ -1936,6 +1937,13 @@ impl<'n> Hydraulics<'n> {
                         } else {
                             LinkState::Open
                         }
+                    }
+                    // A PSV whose upstream head clears its setting opens as the part's heads
+                    // fall (its rules take over from there).
+                    Some(ValveKind::Psv)
+                        if it.heads[l.from] > self.settings[i] + controls::SWITCH_HEAD_TOL_M =>
+                    {
+                        LinkState::Open
                     }
                     _ => continue,
                 },
