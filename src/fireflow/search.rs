@@ -289,9 +289,8 @@ impl<'s, 'a> Search<'s, 'a> {
     /// would fall short of its promised accuracy (still on the safe side).
     fn probe(&mut self, q: f64, start: &Solution) -> Result<Point, ProbeError> {
         let point = self.solve_at(q, start, Tolerance::BRACKET)?;
-        let room = pressure_kpa_from_head_m(Tolerance::BRACKET.head_m);
         let inconclusive = !point.passes
-            && point.check.pressure_margin_kpa > -room
+            && point.check.pressure_margin_kpa > -pressure_room_kpa(Tolerance::BRACKET)
             && point.check.velocity.is_none_or(|(m, _)| m >= 0.0);
         if inconclusive {
             self.solve_at(q, &point.sol, Tolerance::SEARCH)
@@ -1100,8 +1099,7 @@ pub(super) fn verdict(
     check: &ConstraintCheck,
     tolerance: Tolerance,
 ) -> Option<Binding> {
-    let pressure_room = pressure_kpa_from_head_m(tolerance.head_m).max(FLOOR_TOLERANCE_KPA);
-    if check.pressure_margin_kpa < pressure_room {
+    if check.pressure_margin_kpa < pressure_room_kpa(tolerance) {
         return Some(Binding::Pressure(check.pressure_junction));
     }
     let (margin, link) = check.velocity?;
@@ -1109,6 +1107,12 @@ pub(super) fn verdict(
         .diameter_m()
         .map_or(f64::INFINITY, |d| std::f64::consts::PI * d * d / 4.0);
     (margin < tolerance.flow_m3s / area).then_some(Binding::Velocity(link))
+}
+
+/// The pressure (kPa) by which a solve to `tolerance` must clear the floor to pass: its head
+/// tolerance's worth, and at least the floor tolerance.
+fn pressure_room_kpa(tolerance: Tolerance) -> f64 {
+    pressure_kpa_from_head_m(tolerance.head_m).max(FLOOR_TOLERANCE_KPA)
 }
 
 /// Which constraint a failing point violates: a junction's pressure or a pipe's velocity.

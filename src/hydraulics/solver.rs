@@ -1173,7 +1173,7 @@ impl<'n> Hydraulics<'n> {
     /// elimination, as in `solve_bordered`). The valve flows themselves are still set from
     /// continuity after the step, so the converged state is the same; only the path is
     /// shorter. Left to the one-step-late update when a valve's free end is pinned, two valves
-    /// hold one junction, or the small system is near singular.
+    /// hold one junction, or the small system is singular or gives no finite change.
     fn couple_regulating_valves(&self, ws: &mut Workspace, it: &Iterate) {
         let valves = &it.coupled;
         if valves.is_empty() {
@@ -1849,9 +1849,8 @@ impl<'n> Hydraulics<'n> {
     /// to serve, closed when it has none, and its rules decide from there; without this the
     /// state would be declared unsolvable although a neighbouring state is not. When its rules
     /// send it back to regulating and the part is cut off again, the valve's throttling would
-    /// draw the part's heads down: an element that a falling head there would open (a closed
-    /// PRV, check-valve pipe or stopped pump delivering into the part from a supplied junction)
-    /// is then switched to conducting instead, so that a PSV holding the main's head shares
+    /// draw the part's heads down: an element that a falling head there would open (see
+    /// [`Hydraulics::feeders_into`]) is then switched to conducting instead, so that a PSV holding the main's head shares
     /// the zone with the PRV that takes up the rest. (Opening those feeders at the first
     /// release cycled where the PSV alone, open, was the steady state.)
     fn pin_and_isolate(
