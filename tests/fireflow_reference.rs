@@ -147,3 +147,12 @@ fn zone_behind_two_prvs_and_a_psv_matches_state_enumeration_reference() {
     // PSV); after two switches of a link they now switch one link per converged solve.
     compare_with_state_enumeration("valve_two_prv", "reference/valve_zone/expected_two_prv.csv");
 }
+
+#[test]
+fn zone_with_a_flow_control_valve_matches_state_enumeration_reference() {
+    // Reference: as above (same script), on the two-PRV layout with a flow control valve as a
+    // fourth feed of the zone; its states (regulating at its setting, open) are enumerated with
+    // the others'. Here the max-day controls once froze unsettled (the zone fed by the FCV at
+    // its setting was not re-fed through its closed PSV) and every hydrant read 0 gpm.
+    compare_with_state_enumeration("valve_fcv", "reference/valve_zone/expected_fcv.csv");
+}

@@ -1,8 +1,8 @@
 #!/usr/bin/env python3
 """Independent steady states and fire flows of tests/data/valve_zone -> expected.csv, of
 tests/data/valve_check -> expected_check.csv, of tests/data/valve_flat -> expected_flat.csv and
-of tests/data/valve_pump -> expected_pump.csv and of tests/data/valve_two_prv ->
-expected_two_prv.csv, beside this script.
+of tests/data/valve_pump -> expected_pump.csv, of tests/data/valve_two_prv ->
+expected_two_prv.csv and of tests/data/valve_fcv -> expected_fcv.csv, beside this script.
 
 Ran with: Python 3.11.7, numpy 2.4.6, scipy 1.17.1, fluids 1.3.1 (written into the CSV header).
 
@@ -14,7 +14,8 @@ valve_check with a booster pump (JS -> J5, from a suction reservoir) in place of
 A pump is running (its flow one more unknown, its curve head = s^2 a - b s^(2-c) q|q|^(c-1)
 through the three points one more equation; q >= 0) or off (no link; rise >= shutoff s^2 a).
 valve_two_prv is another layout: a looped main (M1-M4) and a looped zone (Z1-Z4) fed by two PRVs
-(M2 -> Z1, M4 -> Z3) and a PSV (M3 -> Z2). Demands x max_day_factor (1.5) or x peak_hour_factor
+(M2 -> Z1, M4 -> Z3) and a PSV (M3 -> Z2); valve_fcv is that layout with a flow control valve
+(M1 -> Z4) as a fourth feed. Demands x max_day_factor (1.5) or x peak_hour_factor
 (2.5) from model.toml; a fire flow is one extra demand at the hydrant's junction.
 
 Formulation: NODE-HEAD (../netref.py): unknown junction heads (offsets from the source grade),
@@ -37,6 +38,9 @@ conditions hold:
   PSV  regulating: H_from = set, q an unknown, q >= 0 and H_to <= set - open loss(q)
        open:   a link with the open loss; q >= 0 and H_from >= set
        closed: no link; H_from <= set or H_to >= H_from
+  FCV  regulating: its setting's flow leaves `from` and enters `to` (a demand and a supply),
+               H_from - H_to >= open loss(setting)
+       open:   a link with the open loss; q <= setting (either direction)
   (conditions checked with 1e-9 m and 1e-12 m^3/s of slack; a combination that leaves a group
   of junctions without a fixed head has no solution and is skipped; solutions of different
   combinations whose heads agree within 1e-7 m are one steady state, met at a state change)
@@ -72,7 +76,8 @@ Re-run (from the repository root):
     python3 tests/reference/valve_zone/solve_valve_zone.py
     python3 tests/reference/valve_zone/solve_valve_zone.py FOLDER   # prints another network's
                                                                     # available flows, writes nothing
-Deterministic; runs in about five minutes (most of it valve_pump's 36 combinations).
+Deterministic; runs in about seven minutes (most of it valve_pump's 36 combinations and
+valve_fcv's 54).
 """
 import itertools
 import math
@@ -98,6 +103,7 @@ HEAD_SLACK = 1e-9
 FLOW_SLACK = 1e-12
 SAME_STATE_M = 1e-7
 STATES = ("regulating", "open", "closed")
+FCV_STATES = ("regulating", "open")
 CHECK_STATES = ("open", "closed")
 PUMP_STATES = ("running", "off")
 # weight of a running pump's energy equation (m) beside the continuity equations (m^3/s)
@@ -198,8 +204,14 @@ class ValveZone:
         self.elev = {j["id"]: j["elev"] for j in self.net["junctions"]}
         self.jids = [j["id"] for j in self.net["junctions"]]
         self.base = {j["id"]: j["demand"] for j in self.net["junctions"]}
+        # flow control valves: (valve, setting m^3/s, the open valve as a link)
+        self.fcvs = [(v, v["setting"] * netref.GPM, netref.valve_link(v))
+                     for v in self.net["valves"] if v["kind"] == "fcv"]
+        assert all(v["status"] == "active" for v, _, _ in self.fcvs)
         self.valves = []
         for v in self.net["valves"]:
+            if v["kind"] == "fcv":
+                continue
             held = v["to"] if v["kind"] == "prv" else v["from"]
             assert v["kind"] in ("prv", "psv") and v["status"] == "active"
             set_head = self.elev[held] + v["setting"] * netref.PSI / netref.UNIT_WEIGHT
@@ -215,9 +227,14 @@ class ValveZone:
         return d
 
     def combinations(self):
-        """Every combination of states: one per PRV/PSV, then one per check-valve pipe."""
+        """Every combination of states: one per PRV/PSV, then one per check-valve pipe, pump
+        and FCV."""
         return itertools.product(*([STATES] * len(self.valves) + [CHECK_STATES] * len(self.checks)
-                                   + [PUMP_STATES] * len(self.pumps)))
+                                   + [PUMP_STATES] * len(self.pumps)
+                                   + [FCV_STATES] * len(self.fcvs)))
+
+    def _fcv_states(self, combo):
+        return zip(self.fcvs, combo[len(self.valves) + len(self.checks) + len(self.pumps):])
 
     def _solve_combo(self, combo, demands, others=()):
         fixed = dict(self.sources)
@@ -237,6 +254,13 @@ class ValveZone:
                 links.append(link)
         pumps = [p for p, state in zip(self.pumps, combo[len(self.valves) + len(self.checks):])
                  if state == "running"]
+        demands = dict(demands)
+        for (v, setting, vlink), state in self._fcv_states(combo):
+            if state == "regulating":
+                demands[v["from"]] = demands.get(v["from"], 0.0) + setting
+                demands[v["to"]] = demands.get(v["to"], 0.0) - setting
+            else:
+                links.append(vlink)
         free = [j for j in self.jids if j not in fixed]
         if not netref.has_supply_everywhere(free, fixed, links + pumps):
             return None
@@ -294,6 +318,13 @@ class ValveZone:
         for p, state in zip(self.pumps, combo[len(self.valves) + len(self.checks):]):
             rise, shutoff = h[p.j] - h[p.i], p.s * p.s * p.a
             ok = q[p.id] >= -FLOW_SLACK if state == "running" else rise >= shutoff - HEAD_SLACK
+            if not ok:
+                return False
+        for (v, setting, vlink), state in self._fcv_states(combo):
+            if state == "regulating":
+                ok = h[v["from"]] - h[v["to"]] >= vlink.loss(setting) - HEAD_SLACK
+            else:
+                ok = q[v["id"]] <= setting + FLOW_SLACK
             if not ok:
                 return False
         return True
@@ -374,7 +405,7 @@ class ValveZone:
 
 def describe(combo, zone):
     ids = ([v["id"] for v, _, _ in zone.valves] + [l.id for l in zone.checks]
-           + [p.id for p in zone.pumps])
+           + [p.id for p in zone.pumps] + [v["id"] for v, _, _ in zone.fcvs])
     return ";".join(f"{i}={s}" for i, s in zip(ids, combo))
 
 
@@ -387,6 +418,10 @@ def scenario_rows(zone, name, demands):
     for (v, _, _), s in zip(zone.valves, combo):
         rows.append((f"{name}_state", v["id"], s))
         rows.append((f"{name}_flow_gpm", v["id"], q.get(v["id"], 0.0) / netref.GPM))
+    for (v, setting, _), s in zone._fcv_states(combo):
+        rows.append((f"{name}_state", v["id"], s))
+        flow = setting if s == "regulating" else q.get(v["id"], 0.0)
+        rows.append((f"{name}_flow_gpm", v["id"], flow / netref.GPM))
     return rows
 
 
@@ -422,6 +457,7 @@ def write(zone, name, out, rows):
     header = [
         f"Steady states and fire flows of tests/data/{name} (US units): every combination of "
         + ("PRV/PSV/check-valve/pump" if zone.pumps else "PRV/PSV/check-valve")
+        + ("/FCV" if zone.fcvs else "")
         + " states solved and kept when its own rules hold",
         "scenarios at demand x max_day_factor (1.5) or x peak_hour_factor (2.5); fire flows: floor "
         "20 psi at every junction, cap 8000 gpm, first crossing, bracket < 0.001 gpm (passing end)",
@@ -450,7 +486,8 @@ def main():
     rows += hydrant_rows(zone)
     write(zone, "valve_zone", "expected.csv", rows)
     for name, out in (("valve_check", "expected_check.csv"), ("valve_flat", "expected_flat.csv"),
-                      ("valve_pump", "expected_pump.csv"), ("valve_two_prv", "expected_two_prv.csv")):
+                      ("valve_pump", "expected_pump.csv"), ("valve_two_prv", "expected_two_prv.csv"),
+                      ("valve_fcv", "expected_fcv.csv")):
         print(name)
         zone = ValveZone(os.path.join(ROOT, "tests", "data", name))
         f = zone.net["demand_factors"]
