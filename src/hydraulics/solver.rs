@@ -333,6 +333,11 @@ struct Iterate {
     /// Regulating valves taken out of regulation once already because a part they feed was
     /// cut off (see [`Hydraulics::pin_and_isolate`]).
     released: Vec<usize>,
+    /// The links that the last round of switching rules closed (see
+    /// [`Hydraulics::switch_controls`]), and those reopened alone once already as the
+    /// feeders of a cut-off part (see [`Hydraulics::pin_and_isolate`]).
+    just_closed: Vec<usize>,
+    reopened_alone: Vec<usize>,
 }
 
 impl Iterate {
@@ -904,6 +909,8 @@ impl<'n> Hydraulics<'n> {
             dirty: true,
             coupled: Vec::new(),
             released: Vec::new(),
+            just_closed: Vec::new(),
+            reopened_alone: Vec::new(),
             need_factor: true,
             previous_step: f64::INFINITY,
             previous_flow_step: f64::INFINITY,
@@ -1599,7 +1606,11 @@ impl<'n> Hydraulics<'n> {
                 .unwrap_or(0);
             wanted = vec![wanted[first]];
         }
+        it.just_closed.clear();
         for &(i, next) in &wanted {
+            if matches!(next, LinkState::Closed | LinkState::NoFlow) {
+                it.just_closed.push(i);
+            }
             it.switches[i] += 1;
             it.states[i] = next;
             if !next.conducts() && next != LinkState::Regulating {
@@ -1850,9 +1861,13 @@ impl<'n> Hydraulics<'n> {
     /// state would be declared unsolvable although a neighbouring state is not. When its rules
     /// send it back to regulating and the part is cut off again, the valve's throttling would
     /// draw the part's heads down: an element that a falling head there would open (see
-    /// [`Hydraulics::feeders_into`]) is then switched to conducting instead, so that a PSV holding the main's head shares
-    /// the zone with the PRV that takes up the rest. (Opening those feeders at the first
-    /// release cycled where the PSV alone, open, was the steady state.)
+    /// [`Hydraulics::feeders_into`]) is then switched to conducting instead, so that a PSV
+    /// holding the main's head shares the zone with the PRV that takes up the rest. (Opening
+    /// those feeders at the first release cycled where the PSV alone, open, was the steady
+    /// state.) Only a feeder that the last switching round closed is reopened, when there is
+    /// one; and FCVs whose settings cover the part's demand are released wide open again, with
+    /// no feeder opened (see [`Hydraulics::flow_controls_cover`]). Both cycled otherwise:
+    /// tests/data/valve_fcv_reopen and valve_fcv_open.
     fn pin_and_isolate(
         &self,
         ws: &mut Workspace,
@@ -1869,12 +1884,31 @@ impl<'n> Hydraulics<'n> {
                 Isolation::Release { valves, cut } => {
                     // A second release of the same valve means that, released, it went back
                     // to regulating: only then are the part's feeders opened.
-                    let again = valves.iter().any(|i| it.released.contains(i));
-                    let feeders = if again {
+                    let again = valves.iter().any(|i| it.released.contains(i))
+                        && !self.flow_controls_cover(ws, &valves, &cut, held);
+                    let mut feeders = if again {
                         self.feeders_into(&cut, request, it)
                     } else {
                         Vec::new()
                     };
+                    // Where the last switching round closed one of them, that closure cut the
+                    // part off: judged on flows that the other switches of that round were
+                    // about to change (a PSV passing reverse flow beside an FCV that was
+                    // about to start regulating), it is undone alone, once per link (should
+                    // its rules close it again, every feeder opens as before). Opening every
+                    // feeder there cycled between states around the one steady state.
+                    let undo: Vec<(usize, LinkState)> = feeders
+                        .iter()
+                        .filter(|(i, _)| {
+                            it.just_closed.contains(i) && !it.reopened_alone.contains(i)
+                        })
+                        .copied()
+                        .collect();
+                    if !undo.is_empty() {
+                        it.reopened_alone.extend(undo.iter().map(|&(i, _)| i));
+                        feeders = undo;
+                    }
+                    it.just_closed.clear();
                     if !feeders.is_empty() {
                         for (i, state) in feeders {
                             it.states[i] = state;
@@ -1894,6 +1928,39 @@ impl<'n> Hydraulics<'n> {
                 }
             }
         }
+    }
+
+    /// Whether the regulating valves `valves` at the cut-off part `cut` are all FCVs whose
+    /// settings, net of those leaving the part, cover the part's demand (and no junction of it
+    /// is held by the request): such FCVs cannot all carry their settings, so the part's heads
+    /// would rise, not fall, and released wide open they are its supply. Where the demand is
+    /// larger, the part's heads would fall and its feeders open (see
+    /// [`Hydraulics::pin_and_isolate`]).
+    fn flow_controls_cover(
+        &self,
+        ws: &Workspace,
+        valves: &[usize],
+        cut: &[usize],
+        held: Option<usize>,
+    ) -> bool {
+        let in_cut = |j: usize| cut.binary_search(&j).is_ok();
+        if held.is_some_and(in_cut) {
+            return false;
+        }
+        let mut inflow = 0.0;
+        for &i in valves {
+            if self.valve_kinds[i] != Some(ValveKind::Fcv) {
+                return false;
+            }
+            let l = &self.net.links[i];
+            match (in_cut(l.from), in_cut(l.to)) {
+                (false, true) => inflow += self.settings[i],
+                (true, false) => inflow -= self.settings[i],
+                _ => {}
+            }
+        }
+        let demand: f64 = cut.iter().map(|&j| ws.demand[j]).sum();
+        demand <= inflow
     }
 
     /// The elements that would start to deliver into the cut-off part `cut` (which has a
