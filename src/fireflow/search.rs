@@ -36,7 +36,7 @@ use crate::hydraulics::{
     LinkState, Region, Solution, SolveError, SolveRequest, Tolerance, Workspace,
 };
 use crate::model::Network;
-use crate::units::{pressure_kpa_from_head_m, UnitSystem, M3S_PER_GPM};
+use crate::units::{pressure_kpa_from_head_m, UnitSystem, KPA_PER_M_OF_HEAD, M3S_PER_GPM};
 
 /// Exponent of the supply-curve model used by the secant step: the Hazen-Williams flow
 /// exponent (1/0.54).
@@ -169,6 +169,10 @@ struct Search<'s, 'a> {
     /// The hydrant's surroundings, built for the required flow's start and solved again for
     /// the held start.
     region: Option<Region>,
+    /// The fastest rate at which a junction's pressure falls as the fire flow leaves the
+    /// static state (kPa per m³/s), from the max-day factorization: the slope that bounds a
+    /// state change's gap starting at zero flow (see [`gap_bound`]).
+    static_drop_rate: Option<f64>,
 }
 
 impl<'s, 'a> Search<'s, 'a> {
@@ -184,6 +188,7 @@ impl<'s, 'a> Search<'s, 'a> {
             role: SolveRole::Other,
             work: WorkByRole::default(),
             region: None,
+            static_drop_rate: None,
         }
     }
 
@@ -413,6 +418,9 @@ impl<'s, 'a> Search<'s, 'a> {
     fn region_start(&mut self, q: f64) -> Option<Solution> {
         let setup = self.setup;
         let (dh, dq) = setup.hydraulics.demand_response(self.ws, self.at)?;
+        let junctions = setup.network().junctions().len();
+        let fastest = dh[..junctions].iter().fold(0.0_f64, |m, &d| m.max(-d));
+        self.static_drop_rate = fastest.is_finite().then_some(fastest * KPA_PER_M_OF_HEAD);
         let mut start = shifted(&setup.base, &dh, &dq, q);
         self.region = setup
             .hydraulics
@@ -861,7 +869,8 @@ impl<'s, 'a> Search<'s, 'a> {
         let mut c_q = above.q;
         for round in 0..STATE_CHANGE_BISECTIONS + GAP_BISECTIONS {
             // Past the usual bisections, only while the gap left may still reach the floor.
-            if round >= STATE_CHANGE_BISECTIONS && gap_bound(&a, a_before.as_ref(), c_q) >= 0.0 {
+            let bound = gap_bound(&a, a_before.as_ref(), c_q, self.static_drop_rate);
+            if round >= STATE_CHANGE_BISECTIONS && bound >= 0.0 {
                 break;
             }
             let mid = 0.5 * (a.q + c_q);
@@ -891,7 +900,7 @@ impl<'s, 'a> Search<'s, 'a> {
                 });
             }
         }
-        if gap_bound(&a, a_before.as_ref(), c_q) < 0.0 {
+        if gap_bound(&a, a_before.as_ref(), c_q, self.static_drop_rate) < 0.0 {
             Located::GapUnsafe(Box::new(a))
         } else {
             Located::Clear
@@ -946,13 +955,17 @@ impl<'s, 'a> Search<'s, 'a> {
 
 /// The least pressure margin (kPa) the gap (a, c) left before a state change can reach: the
 /// drop across it extrapolated by the secant slope of the margin over the last two flows with
-/// the old states, doubled. Negative infinity when there is no flow before `a` to take a slope
-/// from.
-fn gap_bound(a: &Point, a_before: Option<&Point>, c_q: f64) -> f64 {
-    let slope = match a_before {
-        Some(p) if a.q > p.q => {
+/// the old states, doubled. Where `a` is the static state (zero flow), which has no flow before
+/// it, the slope is the fastest fall of any junction's pressure there, `static_drop_rate`
+/// (the derivative of the old states' branch at zero flow, doubled alike): an element that
+/// the max-day state leaves just inside its switching tolerance changes state at a vanishing
+/// fire flow, and the gap it leaves is as narrow. Negative infinity when no slope is known.
+fn gap_bound(a: &Point, a_before: Option<&Point>, c_q: f64, static_drop_rate: Option<f64>) -> f64 {
+    let slope = match (a_before, static_drop_rate) {
+        (Some(p), _) if a.q > p.q => {
             ((p.check.pressure_margin_kpa - a.check.pressure_margin_kpa) / (a.q - p.q)).max(0.0)
         }
+        (None, Some(rate)) if a.q == 0.0 => rate,
         _ => return f64::NEG_INFINITY,
     };
     a.check.pressure_margin_kpa - GAP_SLOPE_FACTOR * slope * (c_q - a.q)
