@@ -156,3 +156,45 @@ fn zone_with_a_flow_control_valve_matches_state_enumeration_reference() {
     // its setting was not re-fed through its closed PSV) and every hydrant read 0 gpm.
     compare_with_state_enumeration("valve_fcv", "reference/valve_zone/expected_fcv.csv");
 }
+
+#[test]
+fn zone_whose_psv_is_reopened_alone_beside_a_flow_control_valve_matches_reference() {
+    // Reference: as above (same script). Found by the zone property with a flow control valve
+    // (seed 5151, 60,000 cases): the max-day solve closed a PSV passing reverse flow in the
+    // same round as the FCV beside it started regulating, which cut the zone off; every feeder
+    // of the zone was then opened, and the states cycled for 200 iterations. Now the closure
+    // alone is undone.
+    compare_with_state_enumeration(
+        "valve_fcv_reopen",
+        "reference/valve_zone/expected_fcv_reopen.csv",
+    );
+}
+
+#[test]
+fn zone_supplied_by_a_wide_open_flow_control_valve_matches_reference() {
+    // Reference: as above (same script). Found by the same property (seed 60606, 60,000
+    // cases): at max day the zone's demand is just below the FCV's setting, so the FCV is wide
+    // open and the PSV closed. The solve opened the zone's feeders instead and ended with the
+    // PSV passing 1.9 gpm of reverse flow; two hydrants were reported at 0 gpm where 1 gpm
+    // passes (on the safe side, but wrong). FCVs that cover a cut-off zone's demand now stay
+    // wide open.
+    compare_with_state_enumeration(
+        "valve_fcv_open",
+        "reference/valve_zone/expected_fcv_open.csv",
+    );
+}
+
+#[test]
+fn zone_whose_prv_sits_at_its_setting_at_max_day_matches_reference() {
+    // Reference: as above (same script). Found by the same property (seed 60606, 60,000
+    // cases): at max day PRVA's downstream junction sits at its setting within a millimetre
+    // (the reference has PRVA regulating 0.2 gpm; firemain, inside its switching tolerance,
+    // closed). PRVA changes state at a vanishing fire flow at the zone's hydrants, and with no
+    // flow before the static state to take a slope from, the gap before the change could not
+    // be bounded: four hydrants were reported at 0 gpm where 1 gpm passes. A gap that starts
+    // at zero flow is now bounded by the fastest fall of any pressure there.
+    compare_with_state_enumeration(
+        "valve_prv_band",
+        "reference/valve_zone/expected_prv_band.csv",
+    );
+}

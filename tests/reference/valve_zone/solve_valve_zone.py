@@ -2,7 +2,9 @@
 """Independent steady states and fire flows of tests/data/valve_zone -> expected.csv, of
 tests/data/valve_check -> expected_check.csv, of tests/data/valve_flat -> expected_flat.csv and
 of tests/data/valve_pump -> expected_pump.csv, of tests/data/valve_two_prv ->
-expected_two_prv.csv and of tests/data/valve_fcv -> expected_fcv.csv, beside this script.
+expected_two_prv.csv, of tests/data/valve_fcv -> expected_fcv.csv and of
+tests/data/valve_fcv_reopen, valve_fcv_open and valve_prv_band -> expected_fcv_reopen.csv,
+expected_fcv_open.csv and expected_prv_band.csv, beside this script.
 
 Ran with: Python 3.11.7, numpy 2.4.6, scipy 1.17.1, fluids 1.3.1 (written into the CSV header).
 
@@ -15,7 +17,8 @@ A pump is running (its flow one more unknown, its curve head = s^2 a - b s^(2-c)
 through the three points one more equation; q >= 0) or off (no link; rise >= shutoff s^2 a).
 valve_two_prv is another layout: a looped main (M1-M4) and a looped zone (Z1-Z4) fed by two PRVs
 (M2 -> Z1, M4 -> Z3) and a PSV (M3 -> Z2); valve_fcv is that layout with a flow control valve
-(M1 -> Z4) as a fourth feed. Demands x max_day_factor (1.5) or x peak_hour_factor
+(M1 -> Z4) as a fourth feed, and valve_fcv_reopen and valve_fcv_open the same with other numbers
+(valve_prv_band: without the PSV, with a plain pipe Z4 -> M1). Demands x max_day_factor (1.5) or x peak_hour_factor
 (2.5) from model.toml; a fire flow is one extra demand at the hydrant's junction.
 
 Formulation: NODE-HEAD (../netref.py): unknown junction heads (offsets from the source grade),
@@ -76,8 +79,8 @@ Re-run (from the repository root):
     python3 tests/reference/valve_zone/solve_valve_zone.py
     python3 tests/reference/valve_zone/solve_valve_zone.py FOLDER   # prints another network's
                                                                     # available flows, writes nothing
-Deterministic; runs in about seven minutes (most of it valve_pump's 36 combinations and
-valve_fcv's 54).
+Deterministic; runs in about fifteen minutes (most of it valve_pump's 36 combinations and
+the 54 of each FCV network).
 """
 import itertools
 import math
@@ -487,7 +490,10 @@ def main():
     write(zone, "valve_zone", "expected.csv", rows)
     for name, out in (("valve_check", "expected_check.csv"), ("valve_flat", "expected_flat.csv"),
                       ("valve_pump", "expected_pump.csv"), ("valve_two_prv", "expected_two_prv.csv"),
-                      ("valve_fcv", "expected_fcv.csv")):
+                      ("valve_fcv", "expected_fcv.csv"),
+                      ("valve_fcv_reopen", "expected_fcv_reopen.csv"),
+                      ("valve_fcv_open", "expected_fcv_open.csv"),
+                      ("valve_prv_band", "expected_prv_band.csv")):
         print(name)
         zone = ValveZone(os.path.join(ROOT, "tests", "data", name))
         f = zone.net["demand_factors"]
