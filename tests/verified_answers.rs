@@ -940,9 +940,11 @@ proptest! {
     ) {
         // Common practice, no source: as above, with a flow control valve from M1 into Z4 too.
         // Its first failing case (seed 2, 3,000 cases) reported 0 gpm at every hydrant: the
-        // max-day controls did not settle where the state-enumeration method (an FCV variant
-        // of tests/reference/valve_zone's script, run by hand) finds one steady state, and
-        // after the fix the answers lie 0.10-0.13 % below that method's.
+        // max-day controls did not settle where the state-enumeration method
+        // (tests/reference/valve_zone's script) finds one steady state, and after the fix the
+        // answers lie 0.10-0.15 % below that method's (tests/data/valve_fcv). Seeds 5151 and
+        // 60606 at 60,000 cases found three more (valve_fcv_reopen, valve_fcv_open,
+        // valve_prv_band; tests/fireflow_reference.rs).
         let mut files = n.files();
         files.valve("FCV", "M1", "Z4", "fcv", 6.0, fcv_gpm, 3.0);
         answers_resolve(files, true)?;
