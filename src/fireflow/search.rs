@@ -776,7 +776,8 @@ impl<'s, 'a> Search<'s, 'a> {
         let mut q = first;
         let mut step = tolerance(q, units);
         for _ in 0..MAX_STEP_DOWNS {
-            match self.failing_start(q) {
+            let above = failing_states_above(b);
+            match self.failing_start(q, above.as_ref()) {
                 None if q == first => return true,
                 None => {
                     if let Some(p) = self.verified_below(q, b) {
@@ -822,7 +823,8 @@ impl<'s, 'a> Search<'s, 'a> {
             if mid <= lo.q {
                 break;
             }
-            let candidate = match self.failing_start(mid) {
+            let above = failing_states_above(b);
+            let candidate = match self.failing_start(mid, above.as_ref()) {
                 None => self.evaluate(mid, &lo.sol).ok().filter(|p| p.passes),
                 Some(_) => None,
             };
@@ -834,15 +836,21 @@ impl<'s, 'a> Search<'s, 'a> {
         Some(lo)
     }
 
-    /// An ordinary solve at `q` from the static state and from a cold start: the first that
-    /// fails the constraints (or cannot be solved), if any.
-    fn failing_start(&mut self, q: f64) -> Option<Above> {
+    /// An ordinary solve at `q` from the static state, from a cold start and from `above`
+    /// (the state of a failing flow above, where its elements settled otherwise): the first
+    /// that fails the constraints (or cannot be solved), if any. Where two steady states
+    /// overlap around a change of state (a PSV that starts regulating and a PRV that starts
+    /// with it, dropping the zone's pressures by 80 kPa at once), the failing one can still be
+    /// reached below the change from its own side, while the static and cold starts settle in
+    /// the passing one.
+    fn failing_start(&mut self, q: f64, above: Option<&Solution>) -> Option<Above> {
         let cold = self.setup.hydraulics.cold_start();
-        let starts = if self.states_changed {
+        let mut starts = if self.states_changed {
             vec![self.setup.base.clone(), cold]
         } else {
             vec![cold]
         };
+        starts.extend(above.cloned());
         for start in starts {
             self.ws.forget_factor();
             match self.evaluate(q, &start) {
@@ -950,6 +958,16 @@ impl<'s, 'a> Search<'s, 'a> {
             ProbeError::Solve(e) => e.describe(self.setup.network().units),
             ProbeError::Unsettled(links) => unsettled_reason(self.setup.network(), links),
         }
+    }
+}
+
+/// The state of the bracket's failing upper end, where its elements settled in other states
+/// than the verified lower end's: a start from which a flow below may settle in the failing
+/// state too (see [`Search::failing_start`]).
+fn failing_states_above(b: &Bracket) -> Option<Solution> {
+    match &b.hi {
+        Some(Above::Failing(p)) if p.sol.states != b.lo.sol.states => Some(p.sol.clone()),
+        _ => None,
     }
 }
 
