@@ -272,15 +272,17 @@ fn compare_max_day_with_state_enumeration(network: &str, fixture: &str) {
     let (ft, gpm) = (firemain::units::M_PER_FT, firemain::units::M3S_PER_GPM);
     let mut compared = 0;
     for ((kind, id), value) in &expected {
-        let value_f = || -> f64 { value.parse().expect("number") };
+        let near = |got: f64, within: f64, what: &str| {
+            let want: f64 = value.parse().expect("number");
+            assert!(
+                (got - want).abs() < within,
+                "{network} {id}: {what} {got} vs {want}"
+            );
+        };
         match kind.as_str() {
             "max_day_head_ft" => {
                 let j = net.node_by_id(id).expect("junction");
-                let head = sol.heads_m[j] / ft;
-                assert!(
-                    (head - value_f()).abs() < 1e-5,
-                    "{network} {id}: head {head} vs {value} ft"
-                );
+                near(sol.heads_m[j] / ft, 1e-5, "head (ft)");
             }
             "max_day_state" => {
                 let i = net.link_by_id(id).expect("valve");
@@ -288,11 +290,7 @@ fn compare_max_day_with_state_enumeration(network: &str, fixture: &str) {
             }
             "max_day_flow_gpm" => {
                 let i = net.link_by_id(id).expect("valve");
-                let q = sol.flows_m3s[i] / gpm;
-                assert!(
-                    (q - value_f()).abs() < 1e-4,
-                    "{network} {id}: flow {q} vs {value} gpm"
-                );
+                near(sol.flows_m3s[i] / gpm, 1e-4, "flow (gpm)");
             }
             _ => continue,
         }

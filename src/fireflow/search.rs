@@ -414,7 +414,8 @@ impl<'s, 'a> Search<'s, 'a> {
     /// A start for the solve at fire flow `q`: the max-day state plus its linear response to
     /// the fire flow (from the max-day factorization at hand), with the hydrant's surroundings
     /// solved alone (`Hydraulics::refine_in`, on the region kept for the held start); `None`
-    /// where that region cannot be solved.
+    /// where that region cannot be solved. The same response, taken once per hydrant at the
+    /// max-day factorization, gives [`Search::static_drop_rate`].
     fn region_start(&mut self, q: f64) -> Option<Solution> {
         let setup = self.setup;
         let (dh, dq) = setup.hydraulics.demand_response(self.ws, self.at)?;
@@ -776,8 +777,7 @@ impl<'s, 'a> Search<'s, 'a> {
         let mut q = first;
         let mut step = tolerance(q, units);
         for _ in 0..MAX_STEP_DOWNS {
-            let above = failing_states_above(b);
-            match self.failing_start(q, above.as_ref()) {
+            match self.failing_start(q, failing_states_above(b)) {
                 None if q == first => return true,
                 None => {
                     if let Some(p) = self.verified_below(q, b) {
@@ -823,8 +823,7 @@ impl<'s, 'a> Search<'s, 'a> {
             if mid <= lo.q {
                 break;
             }
-            let above = failing_states_above(b);
-            let candidate = match self.failing_start(mid, above.as_ref()) {
+            let candidate = match self.failing_start(mid, failing_states_above(b)) {
                 None => self.evaluate(mid, &lo.sol).ok().filter(|p| p.passes),
                 Some(_) => None,
             };
@@ -843,14 +842,14 @@ impl<'s, 'a> Search<'s, 'a> {
     /// with it, dropping the zone's pressures by 80 kPa at once), the failing one can still be
     /// reached below the change from its own side, while the static and cold starts settle in
     /// the passing one.
-    fn failing_start(&mut self, q: f64, above: Option<&Solution>) -> Option<Above> {
+    fn failing_start(&mut self, q: f64, above: Option<Solution>) -> Option<Above> {
         let cold = self.setup.hydraulics.cold_start();
         let mut starts = if self.states_changed {
             vec![self.setup.base.clone(), cold]
         } else {
             vec![cold]
         };
-        starts.extend(above.cloned());
+        starts.extend(above);
         for start in starts {
             self.ws.forget_factor();
             match self.evaluate(q, &start) {

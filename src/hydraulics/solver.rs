@@ -1599,7 +1599,6 @@ impl<'n> Hydraulics<'n> {
             .iter()
             .any(|&i| it.switches[i] >= ONE_AT_A_TIME_AFTER);
         if one_at_a_time && wanted.len() > 1 {
-            let stops_flow = |s: LinkState| matches!(s, LinkState::Closed | LinkState::NoFlow);
             let first = wanted
                 .iter()
                 .position(|&(_, next)| stops_flow(next))
@@ -1608,7 +1607,7 @@ impl<'n> Hydraulics<'n> {
         }
         it.just_closed.clear();
         for &(i, next) in &wanted {
-            if matches!(next, LinkState::Closed | LinkState::NoFlow) {
+            if stops_flow(next) {
                 it.just_closed.push(i);
             }
             it.switches[i] += 1;
@@ -2186,6 +2185,11 @@ impl<'n> Hydraulics<'n> {
                 .collect(),
         }
     }
+}
+
+/// Whether a link in state `s` stops its flow (a closed valve or pipe, a stopped pump).
+fn stops_flow(s: LinkState) -> bool {
+    matches!(s, LinkState::Closed | LinkState::NoFlow)
 }
 
 /// Switches of one link after which the links switch one per converged solve (see
