@@ -12,8 +12,8 @@ use std::path::{Path, PathBuf};
 
 use firemain::criteria::{load_criteria, Criteria};
 use firemain::fireflow::{
-    sweep, ConstraintCheck, FireFlowSetup, HydrantNote, HydrantResult, LimitedBy, Outcome,
-    FLOOR_TOLERANCE_KPA,
+    combined_available_flow, sweep, ConstraintCheck, FireFlowSetup, GroupNote, GroupResult,
+    HydrantNote, HydrantResult, LimitedBy, Outcome, Split, FLOOR_TOLERANCE_KPA,
 };
 use firemain::hydraulics::{Hydraulics, Solution, SolveError, SolveRequest, Tolerance};
 use firemain::model::{load_network, Network};
@@ -51,11 +51,19 @@ fn ordinary(
     at: usize,
     q: f64,
 ) -> Result<(Solution, ConstraintCheck), SolveError> {
+    ordinary_with(setup, &[(at, q)])
+}
+
+/// [`ordinary`] with fire flows at several junctions at once (a group of hydrants flowing
+/// together, `extra` as (junction, m³/s)), judged by `FireFlowSetup::constraints_for` them.
+fn ordinary_with(
+    setup: &FireFlowSetup<'_>,
+    extra: &[(usize, f64)],
+) -> Result<(Solution, ConstraintCheck), SolveError> {
     let hydraulics = setup.hydraulics;
-    let extra = [(at, q)];
     let request = SolveRequest {
         demand_factor: setup.demand_factor,
-        extra_demand: &extra,
+        extra_demand: extra,
         fixed_head: None,
     };
     let from = |start: &Solution, tolerance: Tolerance| {
@@ -69,8 +77,13 @@ fn ordinary(
     let sol = from(&hydraulics.cold_start(), Tolerance::STEADY)
         .or_else(|_| from(&setup.base, Tolerance::STEADY))
         .or_else(|_| from(&setup.base, Tolerance::SEARCH))?;
-    let check = setup.constraints(&sol, at);
+    let check = setup.constraints_for(&sol, &junctions_of(extra));
     Ok((sol, check))
+}
+
+/// The junctions of a set of withdrawals.
+fn junctions_of(extra: &[(usize, f64)]) -> Vec<usize> {
+    extra.iter().map(|&(j, _)| j).collect()
 }
 
 /// Whether an ordinary solve at `q` meets every constraint (within the floor tolerance the
@@ -98,11 +111,21 @@ fn meets_by(
     q: f64,
     judge: &dyn Fn(&ConstraintCheck) -> bool,
 ) -> bool {
+    meets_with_by(setup, &[(at, q)], judge)
+}
+
+/// [`meets_by`] with fire flows at several junctions at once (`extra`, as in
+/// [`ordinary_with`]).
+fn meets_with_by(
+    setup: &FireFlowSetup<'_>,
+    extra: &[(usize, f64)],
+    judge: &dyn Fn(&ConstraintCheck) -> bool,
+) -> bool {
+    let junctions = junctions_of(extra);
     let from_max_day = || {
-        let extra = [(at, q)];
         let request = SolveRequest {
             demand_factor: setup.demand_factor,
-            extra_demand: &extra,
+            extra_demand: extra,
             fixed_head: None,
         };
         let mut ws = setup.hydraulics.workspace();
@@ -111,10 +134,10 @@ fn meets_by(
             .any(|tolerance| {
                 ws.set_tolerance(tolerance);
                 matches!(setup.hydraulics.solve(&mut ws, &request, &setup.base),
-                Ok(sol) if judge(&setup.constraints(&sol, at)))
+                Ok(sol) if judge(&setup.constraints_for(&sol, &junctions)))
             })
     };
-    matches!(ordinary(setup, at, q), Ok((_, c)) if judge(&c)) && from_max_day()
+    matches!(ordinary_with(setup, extra), Ok((_, c)) if judge(&c)) && from_max_day()
 }
 
 /// Whether the ordinary solve at `next`, started from the ordinary solve at `q` (the fire flow
@@ -122,21 +145,31 @@ fn meets_by(
 /// two steady states, one passing and one failing, a flow counts as passing only when every
 /// start tried passes: the safe reading (common practice, no source).
 fn continues_to_pass(setup: &FireFlowSetup<'_>, at: usize, q: f64, next: f64) -> bool {
-    let solve = |flow: f64, start: &Solution| {
-        let extra = [(at, flow)];
+    continues_to_pass_with(setup, &[(at, q)], &[(at, next)])
+}
+
+/// [`continues_to_pass`] with fire flows at several junctions (`answer`, then `next`: the same
+/// junctions, as in [`ordinary_with`]).
+fn continues_to_pass_with(
+    setup: &FireFlowSetup<'_>,
+    answer: &[(usize, f64)],
+    next: &[(usize, f64)],
+) -> bool {
+    let solve = |extra: &[(usize, f64)], start: &Solution| {
         let request = SolveRequest {
             demand_factor: setup.demand_factor,
-            extra_demand: &extra,
+            extra_demand: extra,
             fixed_head: None,
         };
         let mut ws = setup.hydraulics.workspace();
         ws.set_tolerance(Tolerance::SEARCH);
         setup.hydraulics.solve(&mut ws, &request, start)
     };
-    let Ok(at_answer) = solve(q, &setup.base) else {
+    let Ok(at_answer) = solve(answer, &setup.base) else {
         return true;
     };
-    matches!(solve(next, &at_answer), Ok(sol) if setup.constraints(&sol, at).feasible())
+    matches!(solve(next, &at_answer),
+        Ok(sol) if setup.constraints_for(&sol, &junctions_of(next)).feasible())
 }
 
 /// By how much (%) a reported flow `q` that fails exceeds the limit of the ordinary solver,
@@ -1001,4 +1034,144 @@ fn answers_hold_where_a_failing_state_overlaps_the_passing_one_at_a_change() {
     };
     let result = answers_resolve(n.files(), true);
     assert!(result.is_ok(), "{result:?}");
+}
+
+// 7. Groups of hydrants flowing together (`fireflow::combined_available_flow`).
+
+/// A group's reported total against the ordinary solver, as [`random_disagreement`] does for
+/// one hydrant: the reported shares pass from every start, and with the even split the next
+/// total up by the promised accuracy does not (unless the cap binds or the notes say that
+/// other states or a failing window lie above).
+fn group_disagreement(setup: &FireFlowSetup<'_>, r: &GroupResult) -> Option<String> {
+    let net = setup.network();
+    let ids: Vec<&str> = r
+        .hydrants
+        .iter()
+        .map(|&h| net.hydrants[h].id.as_str())
+        .collect();
+    let total = r.total_m3s?;
+    if r.notes
+        .iter()
+        .any(|n| matches!(n, GroupNote::FloorViolatedWithoutFireFlow { .. }))
+    {
+        return None;
+    }
+    let junctions: Vec<usize> = r
+        .hydrants
+        .iter()
+        .map(|&h| net.hydrants[h].junction)
+        .collect();
+    let at = |shares: &[f64]| -> Vec<(usize, f64)> {
+        junctions
+            .iter()
+            .copied()
+            .zip(shares.iter().copied())
+            .collect()
+    };
+    let gpm = total / M3S_PER_GPM;
+    let answer = at(&r.shares_m3s);
+    if !meets_with_by(setup, &answer, &|c| c.feasible()) {
+        let said = match ordinary_with(setup, &answer) {
+            Ok((_, c)) => format!(
+                "{:.3} kPa below the floor at {}",
+                -c.pressure_margin_kpa, net.nodes[c.pressure_junction].id
+            ),
+            Err(e) => format!("does not solve: {e}"),
+        };
+        return Some(format!(
+            "{ids:?} ({}): reported {gpm:.1} gpm, shares {:?}: {said}",
+            r.split.name(),
+            r.shares_m3s
+        ));
+    }
+    let above_is_unsure = r.notes.iter().any(|n| {
+        matches!(
+            n,
+            GroupNote::OtherStatesFail { .. }
+                | GroupNote::NonMonotone { .. }
+                | GroupNote::SolveFailedAbove { .. }
+        )
+    });
+    let cap = setup.criteria.search_cap_m3s * junctions.len() as f64;
+    let next = (total / 0.995).max(total + promised_accuracy(0.0, net.units)) * (1.0 + 1e-4);
+    if r.split != Split::Even
+        || r.limited_by == Some(LimitedBy::Cap)
+        || above_is_unsure
+        || next > cap
+    {
+        return None;
+    }
+    let even = at(&vec![next / junctions.len() as f64; junctions.len()]);
+    let clearly = |c: &ConstraintCheck| {
+        c.pressure_margin_kpa >= FLOOR_TOLERANCE_KPA && c.velocity.is_none_or(|(m, _)| m >= 0.0)
+    };
+    (meets_with_by(setup, &even, &clearly) && continues_to_pass_with(setup, &answer, &even)).then(
+        || {
+            format!(
+                "{ids:?} (even): {:.1} gpm, above the reported {gpm:.1} gpm ({:?}) by the \
+                 accuracy, passes; notes {:?}",
+                next / M3S_PER_GPM,
+                r.limited_by,
+                r.notes
+            )
+        },
+    )
+}
+
+/// Every group in `groups` (hydrant indices) of the network `files`, with both splits, against
+/// the ordinary solver (`group_disagreement`), with the common-practice criteria. A max-day
+/// state the solver cannot find rejects the case.
+fn group_answers_resolve(files: NetFiles, groups: &[Vec<usize>]) -> Result<(), TestCaseError> {
+    let net = files.load();
+    let criteria = shipped_criteria("common-practice-us.toml", &net);
+    let hydraulics = Hydraulics::new(&net).expect("prepare");
+    let setup = FireFlowSetup::new(&hydraulics, &criteria);
+    prop_assume!(setup.is_ok(), "max-day: {:?}", setup.err());
+    let setup = setup.expect("max-day");
+    let mut ws = hydraulics.workspace();
+    let mut failures = Vec::new();
+    for group in groups {
+        for split in [Split::Even, Split::EqualResidual] {
+            let r = combined_available_flow(&setup, &mut ws, group, split)
+                .map_err(|e| TestCaseError::fail(format!("{group:?}: {e}")))?;
+            failures.extend(group_disagreement(&setup, &r));
+        }
+    }
+    prop_assert!(failures.is_empty(), "\n{}", failures.join("\n"));
+    Ok(())
+}
+
+/// Two or three distinct hydrants out of `n`.
+fn hydrant_group(n: usize) -> impl Strategy<Value = Vec<usize>> {
+    prop::sample::subsequence((0..n).collect::<Vec<_>>(), 2..=3)
+}
+
+proptest! {
+    #![proptest_config(config())]
+
+    #[test]
+    fn group_answers_on_networks_with_pumps_and_valves_resolve(
+        n in controlled_net(),
+        group in hydrant_group(5),
+    ) {
+        // Common practice, no source: a group's total carries the single hydrant's promise
+        // (docs/fire-flow-method.md §2a): verified by an ordinary solve at the reported shares,
+        // accurate to max(0.5 %, 1 gpm).
+        group_answers_resolve(n.files(), &[group])?;
+    }
+
+    #[test]
+    fn group_answers_on_zones_behind_valves_resolve(
+        n in zone_net(),
+        fcv_gpm in prop::option::of(50.0..800.0_f64),
+        group in hydrant_group(6),
+    ) {
+        // Common practice, no source: as above, on the zones of the single-hydrant properties,
+        // with or without their flow control valve from M1 into Z4.
+        let mut files = n.files();
+        if let Some(q) = fcv_gpm {
+            files.valve("FCV", "M1", "Z4", "fcv", 6.0, q, 3.0);
+        }
+        group_answers_resolve(files, &[group])?;
+    }
 }
