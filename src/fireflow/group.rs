@@ -57,7 +57,7 @@ use thiserror::Error;
 
 use super::search::{
     binding_of, closing_width, margin, on_grid, solve_or_from_base, tolerance, unsettled_reason,
-    verdict, Binding,
+    velocity_continuation, verdict, Binding,
 };
 use super::{ConstraintCheck, FireFlowSetup, LimitedBy};
 use crate::hydraulics::laws::LinkLaw;
@@ -313,6 +313,9 @@ impl GroupSearch<'_, '_> {
             demands,
         );
         let fails = verdict(self.setup, &check, tolerance);
+        if let Some(tighter) = velocity_continuation(&check, tolerance, fails) {
+            return self.solve_demands(demands, &sol, tighter);
+        }
         Ok(GPoint {
             total: demands.iter().sum(),
             demands: demands.to_vec(),

@@ -245,6 +245,19 @@ pub fn criteria_with_scope(
     scope: &str,
     exempt: &[&str],
 ) -> Criteria {
+    criteria_with_limits(net, floor, cap, default_required, scope, exempt, 0.0)
+}
+
+/// As [`criteria_with_scope`], with a velocity limit (ft/s | m/s; 0 for none).
+pub fn criteria_with_limits(
+    net: &Network,
+    floor: f64,
+    cap: f64,
+    default_required: f64,
+    scope: &str,
+    exempt: &[&str],
+    max_velocity: f64,
+) -> Criteria {
     let exempt: Vec<String> = exempt.iter().map(|e| format!("\"{e}\"")).collect();
     let exempt = exempt.join(", ");
     let (units, service_min, service_max) = match net.units {
@@ -254,7 +267,7 @@ pub fn criteria_with_scope(
     let text = format!(
         "name = \"analytic test criteria\"\nreference = \"tests\"\nunits = \"{units}\"\n\
          [service]\nmin_pressure = {service_min}\nmax_pressure = {service_max}\n\
-         [fire]\nresidual_floor = {floor}\nscope = \"{scope}\"\nexempt = [{exempt}]\nmax_velocity = 0\n\
+         [fire]\nresidual_floor = {floor}\nscope = \"{scope}\"\nexempt = [{exempt}]\nmax_velocity = {max_velocity}\n\
          search_cap = {cap}\ndefault_required_flow = {default_required}\n"
     );
     let dir = tempfile::tempdir().expect("tempdir");
