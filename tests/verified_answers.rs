@@ -1258,8 +1258,21 @@ fn group_disagreement(setup: &FireFlowSetup<'_>, r: &GroupResult) -> Option<Stri
 /// the ordinary solver (`group_disagreement`), with the common-practice criteria. A max-day
 /// state the solver cannot find rejects the case.
 fn group_answers_resolve(files: NetFiles, groups: &[Vec<usize>]) -> Result<(), TestCaseError> {
+    group_answers_resolve_under(
+        files,
+        &|net| shipped_criteria("common-practice-us.toml", net),
+        groups,
+    )
+}
+
+/// [`group_answers_resolve`] with the criteria that `criteria` makes for the loaded network.
+fn group_answers_resolve_under(
+    files: NetFiles,
+    criteria: &dyn Fn(&Network) -> Criteria,
+    groups: &[Vec<usize>],
+) -> Result<(), TestCaseError> {
     let net = files.load();
-    let criteria = shipped_criteria("common-practice-us.toml", &net);
+    let criteria = criteria(&net);
     let hydraulics = Hydraulics::new(&net).expect("prepare");
     let setup = FireFlowSetup::new(&hydraulics, &criteria);
     prop_assume!(setup.is_ok(), "max-day: {:?}", setup.err());
@@ -1294,6 +1307,19 @@ proptest! {
         // (docs/fire-flow-method.md §2a): verified by an ordinary solve at the reported shares,
         // accurate to max(0.5 %, 1 gpm).
         group_answers_resolve(n.files(), &[group])?;
+    }
+
+    #[test]
+    fn group_answers_under_a_velocity_limit_resolve(
+        n in controlled_net(),
+        group in hydrant_group(5),
+        limit_ft_s in 5.0..15.0_f64,
+    ) {
+        // Common practice, no source: as above, with a velocity limit in every pipe.
+        let velocity = |net: &Network| {
+            netkit::criteria_with_limits(net, 20.0, 8000.0, 1000.0, "system", &[], limit_ft_s)
+        };
+        group_answers_resolve_under(n.files(), &velocity, &[group])?;
     }
 
     #[test]
