@@ -314,7 +314,10 @@ impl GroupSearch<'_, '_> {
         );
         let fails = verdict(self.setup, &check, tolerance);
         if let Some(tighter) = velocity_continuation(&check, tolerance, fails) {
-            return self.solve_demands(demands, &sol, tighter);
+            // Where the tighter solve cannot be finished, the failing verdict stands.
+            if let Ok(point) = self.solve_demands(demands, &sol, tighter) {
+                return Ok(point);
+            }
         }
         Ok(GPoint {
             total: demands.iter().sum(),

@@ -219,7 +219,10 @@ impl<'s, 'a> Search<'s, 'a> {
         let check = self.setup.constraints(&sol, self.at);
         let fails = self.verdict(&check, tolerance);
         if let Some(tighter) = velocity_continuation(&check, tolerance, fails) {
-            return self.solve_at(q, &sol, tighter);
+            // Where the tighter solve cannot be finished, the failing verdict stands.
+            if let Ok(point) = self.solve_at(q, &sol, tighter) {
+                return Ok(point);
+            }
         }
         Ok(Point {
             q,
