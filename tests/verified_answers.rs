@@ -825,6 +825,14 @@ proptest! {
     }
 
     #[test]
+    fn answers_on_si_networks_with_pumps_and_valves_resolve(n in controlled_net()) {
+        // Common practice, no source: as above, the same networks written in SI units and
+        // checked with criteria/common-practice-si.toml (accuracy max(0.5 %, 0.1 L/s)).
+        let si = |net: &Network| shipped_criteria("common-practice-si.toml", net);
+        answers_resolve_under(in_si(n.files()), &si, false)?;
+    }
+
+    #[test]
     fn answers_on_networks_with_pumps_and_valves_under_a_velocity_limit_resolve(
         n in controlled_net(),
         limit_ft_s in 5.0..15.0_f64,
@@ -836,6 +844,56 @@ proptest! {
         };
         answers_resolve_under(n.files(), &velocity, false)?;
     }
+}
+
+/// `files` (US units) rewritten in SI units: the same network, every number converted by the
+/// factors of docs/network-format.md (ft → m, in → mm, gpm → L/s, psi → kPa).
+fn in_si(files: NetFiles) -> NetFiles {
+    const FT: f64 = M_PER_FT;
+    const IN: f64 = M_PER_IN * 1000.0;
+    const GPM: f64 = M3S_PER_GPM * 1000.0;
+    let convert = |rows: &mut Vec<String>, factor_of: &dyn Fn(usize, &[&str]) -> f64| {
+        for row in rows.iter_mut() {
+            let cells: Vec<&str> = row.split(',').collect();
+            let out: Vec<String> = cells
+                .iter()
+                .enumerate()
+                .map(|(k, cell)| match cell.parse::<f64>() {
+                    Ok(x) if k > 0 => format!("{}", x * factor_of(k, &cells)),
+                    _ => cell.to_string(),
+                })
+                .collect();
+            *row = out.join(",");
+        }
+    };
+    let mut si = files;
+    si.units = "si";
+    // junctions: id, elevation, demand, zone
+    convert(&mut si.junctions, &|k, _| [1.0, FT, GPM][k.min(2)]);
+    // sources: id, kind, grade
+    convert(&mut si.sources, &|_, _| FT);
+    // pipes: id, from, to, length, diameter, roughness (C), minor loss, status
+    convert(&mut si.pipes, &|k, _| match k {
+        3 => FT,
+        4 => IN,
+        _ => 1.0,
+    });
+    // pumps: id, from, to, shutoff head, design flow, design head, runout flow, runout head, speed
+    convert(&mut si.pumps, &|k, _| match k {
+        3 | 5 | 7 => FT,
+        4 | 6 => GPM,
+        _ => 1.0,
+    });
+    // valves: id, from, to, kind, diameter, setting (psi or gpm), minor loss, status
+    convert(&mut si.valves, &|k, cells| match (k, cells[3]) {
+        (4, _) => IN,
+        (5, "prv" | "psv") => KPA_PER_PSI,
+        (5, "fcv") => GPM,
+        _ => 1.0,
+    });
+    // hydrants: id, junction, required flow
+    convert(&mut si.hydrants, &|_, _| GPM);
+    si
 }
 
 /// `files` with Darcy-Weisbach pipes: each Hazen-Williams C of 80-130 becomes an absolute
