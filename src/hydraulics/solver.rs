@@ -330,6 +330,8 @@ struct Iterate {
     /// Whether the last step left every regulating valve's flow where it was (no continuity
     /// pending after it): only then does the next step's ratio to it estimate a rate.
     last_step_settled: bool,
+    /// Whether the last step was a Newton step (see `converged`).
+    last_step_newton: bool,
     /// The regulating valves coupled into the Newton step under the present states (see
     /// [`Hydraulics::couple_regulating_valves`]).
     coupled: Vec<CoupledValve>,
@@ -841,7 +843,12 @@ impl<'n> Hydraulics<'n> {
                 step_q = step_q.max((now - *q).abs());
                 *q = now;
             }
-            if self.converged(ws, &mut it, iteration, step_h, step_q, factored_now) {
+            let dbg_pending = it.continuity_pending;
+            let conv = self.converged(ws, &mut it, iteration, step_h, step_q, factored_now);
+            if std::env::var("FM_DEBUG").is_ok() {
+                eprintln!("  it {iteration} dh {step_h:.3e} dq {step_q:.3e} fresh {factored_now} pending {dbg_pending} floored {} conv {conv} states {:?}", ws.floored, &it.states);
+            }
+            if conv {
                 if !self.switch_controls(request, &mut it) {
                     return Ok(it.into_solution(iteration));
                 }
@@ -920,6 +927,7 @@ impl<'n> Hydraulics<'n> {
             factorizations: 0,
             continuity_pending: true,
             last_step_settled: false,
+            last_step_newton: false,
         }
     }
 
@@ -1550,6 +1558,7 @@ impl<'n> Hydraulics<'n> {
     ) -> bool {
         let ratio = step_h / it.previous_step;
         let flow_ratio = step_q / it.previous_flow_step;
+        let previous_small = it.previous_step <= CHORD_MAX_STEP_M;
         it.previous_step = step_h;
         it.previous_flow_step = step_q;
         let flow_tolerance = match it.drawn {
@@ -1572,12 +1581,15 @@ impl<'n> Hydraulics<'n> {
         // it still carries that move to the rest of the network. Such a chord step counts as a
         // first one (no rate known): on a generated zone a chord step of 1.3 mm after one of
         // 11 mm (ratio 0.11) was taken as converged with 3.5 mm of head error left.
-        let (ratio, flow_ratio) = if newton || it.last_step_settled {
+        let (ratio, flow_ratio) = if (newton && it.last_step_newton && previous_small)
+            || (!newton && it.last_step_settled)
+        {
             (ratio, flow_ratio)
         } else {
             (f64::INFINITY, f64::INFINITY)
         };
         it.last_step_settled = !it.continuity_pending;
+        it.last_step_newton = newton;
         let flows_converged = Self::within(step_q, flow_ratio, newton, flow_tolerance);
         let heads_converged = Self::within(step_h, ratio, newton, ws.tolerance.head_m)
             || (iteration >= STALL_CHECK_AFTER
