@@ -7,7 +7,7 @@ use firemain::fireflow::{HydrantResult, LimitedBy, FLOOR_TOLERANCE_KPA};
 use firemain::hydraulics::Tolerance;
 use firemain::model::Network;
 use netkit::{
-    criteria, criteria_with_scope, fire_sweep, hw_resistance, NetFiles, KPA_PER_M, KPA_PER_PSI,
+    criteria, criteria_with_limits, fire_sweep, hw_resistance, NetFiles, KPA_PER_M, KPA_PER_PSI,
     M3S_PER_GPM, M_PER_FT, M_PER_IN,
 };
 
@@ -269,7 +269,7 @@ fn zone_scope_and_exempt_junctions_leave_other_junctions_unconstrained() {
         ("system", vec!["B"], exact(0.0), LimitedBy::HydrantPressure),
     ];
     for (scope, exempt, q, limit) in cases {
-        let c = criteria_with_scope(&net, floor_kpa, 2000.0, 10.0, scope, &exempt);
+        let c = criteria_with_limits(&net, floor_kpa, 2000.0, 10.0, scope, &exempt, 0.0);
         let r = &fire_sweep(&net, &c, 1)[0];
         let got = r.available_m3s.expect("available");
         assert!(

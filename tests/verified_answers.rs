@@ -1150,7 +1150,7 @@ proptest! {
             row.push_str(zone);
         }
         let by_zone =
-            |net: &Network| netkit::criteria_with_scope(net, 20.0, 8000.0, 1000.0, "zone", &[]);
+            |net: &Network| netkit::criteria_with_limits(net, 20.0, 8000.0, 1000.0, "zone", &[], 0.0);
         answers_resolve_under(files, &by_zone, true)?;
     }
 }

@@ -233,22 +233,11 @@ pub fn load_dir(dir: &Path) -> Network {
 /// A criteria set in the network's units: `floor` residual pressure (psi | kPa) at every
 /// junction, search cap and default required flow (gpm | L/s), no velocity limit.
 pub fn criteria(net: &Network, floor: f64, cap: f64, default_required: f64) -> Criteria {
-    criteria_with_scope(net, floor, cap, default_required, "system", &[])
+    criteria_with_limits(net, floor, cap, default_required, "system", &[], 0.0)
 }
 
-/// As [`criteria`], with the `scope` ("system" | "zone") and `exempt` junctions given.
-pub fn criteria_with_scope(
-    net: &Network,
-    floor: f64,
-    cap: f64,
-    default_required: f64,
-    scope: &str,
-    exempt: &[&str],
-) -> Criteria {
-    criteria_with_limits(net, floor, cap, default_required, scope, exempt, 0.0)
-}
-
-/// As [`criteria_with_scope`], with a velocity limit (ft/s | m/s; 0 for none).
+/// As [`criteria`], with the `scope` ("system" | "zone"), the `exempt` junctions and a velocity
+/// limit (ft/s | m/s; 0 for none) given.
 pub fn criteria_with_limits(
     net: &Network,
     floor: f64,
