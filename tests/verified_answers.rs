@@ -92,7 +92,12 @@ fn junctions_of(extra: &[(usize, f64)]) -> Vec<usize> {
 /// constraints only when the solve from a cold start and the one from the max-day state both
 /// do (the safe reading the search promises).
 fn meets(setup: &FireFlowSetup<'_>, at: usize, q: f64) -> bool {
-    meets_by(setup, at, q, &|c| c.feasible())
+    meets_with(setup, &[(at, q)])
+}
+
+/// [`meets`] with fire flows at several junctions at once (`extra`, as in [`ordinary_with`]).
+fn meets_with(setup: &FireFlowSetup<'_>, extra: &[(usize, f64)]) -> bool {
+    meets_with_by(setup, extra, &ConstraintCheck::feasible)
 }
 
 /// Whether an ordinary solve at `q` clears every constraint by the floor tolerance: the test
@@ -100,9 +105,12 @@ fn meets(setup: &FireFlowSetup<'_>, at: usize, q: f64) -> bool {
 /// pass from a failure, and where the binding pressure nears the floor almost flat (0.002 psi
 /// per gpm on a generated two-PRV zone) the band spans more than the promised 1 gpm.
 fn clearly_meets(setup: &FireFlowSetup<'_>, at: usize, q: f64) -> bool {
-    meets_by(setup, at, q, &|c| {
-        c.pressure_margin_kpa >= FLOOR_TOLERANCE_KPA && c.velocity.is_none_or(|(m, _)| m >= 0.0)
-    })
+    meets_by(setup, at, q, &clears)
+}
+
+/// Whether a check clears every pressure by the floor tolerance and every velocity limit.
+fn clears(c: &ConstraintCheck) -> bool {
+    c.pressure_margin_kpa >= FLOOR_TOLERANCE_KPA && c.velocity.is_none_or(|(m, _)| m >= 0.0)
 }
 
 fn meets_by(
@@ -1334,15 +1342,6 @@ fn group_disagreement(setup: &FireFlowSetup<'_>, r: &GroupResult) -> Option<Stri
         .map(|&h| net.hydrants[h].id.as_str())
         .collect();
     let total = r.total_m3s?;
-    if r.notes.iter().any(|n| {
-        matches!(
-            n,
-            GroupNote::FloorViolatedWithoutFireFlow { .. }
-                | GroupNote::VelocityExceededWithoutFireFlow { .. }
-        )
-    }) {
-        return None;
-    }
     let junctions: Vec<usize> = r
         .hydrants
         .iter()
@@ -1355,9 +1354,19 @@ fn group_disagreement(setup: &FireFlowSetup<'_>, r: &GroupResult) -> Option<Stri
             .zip(shares.iter().copied())
             .collect()
     };
+    if r.notes.iter().any(|n| {
+        matches!(
+            n,
+            GroupNote::FloorViolatedWithoutFireFlow { .. }
+                | GroupNote::VelocityExceededWithoutFireFlow { .. }
+        )
+    }) {
+        let nothing = at(&vec![0.0; junctions.len()]);
+        return meets_with(setup, &nothing).then(|| format!("{ids:?}: 0 gpm passes after all"));
+    }
     let gpm = total / M3S_PER_GPM;
     let answer = at(&r.shares_m3s);
-    if !meets_with_by(setup, &answer, &|c| c.feasible()) {
+    if !meets_with(setup, &answer) {
         let said = match ordinary_with(setup, &answer) {
             Ok((_, c)) => format!(
                 "{:.3} kPa below the floor at {}",
@@ -1389,18 +1398,14 @@ fn group_disagreement(setup: &FireFlowSetup<'_>, r: &GroupResult) -> Option<Stri
         return None;
     }
     let even = at(&vec![next / junctions.len() as f64; junctions.len()]);
-    let clearly = |c: &ConstraintCheck| {
-        c.pressure_margin_kpa >= FLOOR_TOLERANCE_KPA && c.velocity.is_none_or(|(m, _)| m >= 0.0)
-    };
     let between = |f: f64| {
         let t = total + f * (next - total);
-        meets_with_by(
+        meets_with(
             setup,
             &at(&vec![t / junctions.len() as f64; junctions.len()]),
-            &|c| c.feasible(),
         )
     };
-    (meets_with_by(setup, &even, &clearly)
+    (meets_with_by(setup, &even, &clears)
         && continues_to_pass_with(setup, &answer, &even)
         && passes_throughout(&between))
     .then(|| {

@@ -843,12 +843,7 @@ impl<'n> Hydraulics<'n> {
                 step_q = step_q.max((now - *q).abs());
                 *q = now;
             }
-            let dbg_pending = it.continuity_pending;
-            let conv = self.converged(ws, &mut it, iteration, step_h, step_q, factored_now);
-            if std::env::var("FM_DEBUG").is_ok() {
-                eprintln!("  it {iteration} dh {step_h:.3e} dq {step_q:.3e} fresh {factored_now} pending {dbg_pending} floored {} conv {conv} states {:?}", ws.floored, &it.states);
-            }
-            if conv {
+            if self.converged(ws, &mut it, iteration, step_h, step_q, factored_now) {
                 if !self.switch_controls(request, &mut it) {
                     return Ok(it.into_solution(iteration));
                 }
@@ -1577,10 +1572,13 @@ impl<'n> Hydraulics<'n> {
         // such a flow converges only linearly, whatever the factorization, so the step alone
         // does not bound the remaining error; nor does a step on a floored matrix.
         let newton = factored_now && !it.continuity_pending && !ws.floored;
-        // Nor is a chord step's ratio to a step that moved a valve flow a rate: the step after
-        // it still carries that move to the rest of the network. Such a chord step counts as a
-        // first one (no rate known): on a generated zone a chord step of 1.3 mm after one of
-        // 11 mm (ratio 0.11) was taken as converged with 3.5 mm of head error left.
+        // The ratio of two steps is a rate only where both belong to one converging sequence.
+        // A Newton step's ratio counts only to a Newton step of at most CHORD_MAX_STEP_M before
+        // it (a 2.7 cm step after one of 6.6 m, taken far from the answer, was taken as
+        // converged with 0.6 mm left); a chord step's only to a step that left no valve flow
+        // moving, since the step after such a move still carries it to the rest of the network
+        // (a chord step of 1.3 mm after one of 11 mm, ratio 0.11, left 3.5 mm). Without a rate
+        // the step is judged as a first one.
         let (ratio, flow_ratio) = if (newton && it.last_step_newton && previous_small)
             || (!newton && it.last_step_settled)
         {
