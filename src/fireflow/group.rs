@@ -56,8 +56,8 @@
 use thiserror::Error;
 
 use super::search::{
-    binding_of, closing_width, confirmation, margin, on_grid, solve_or_from_base, tolerance,
-    unsettled_reason, velocity_continuation, verdict, Binding,
+    binding_of, closing_width, margin, on_grid, solve_or_from_base, tolerance, unsettled_reason,
+    verdict, Binding, Continuation,
 };
 use super::{ConstraintCheck, FireFlowSetup, LimitedBy};
 use crate::hydraulics::laws::LinkLaw;
@@ -313,12 +313,10 @@ impl GroupSearch<'_, '_> {
             demands,
         );
         let fails = verdict(self.setup, &check, tolerance);
-        if let Some(tighter) = velocity_continuation(&check, tolerance, fails)
-            .or_else(|| confirmation(&check, tolerance, fails))
-        {
-            // Where the tighter solve cannot be finished, the verdict at `tolerance` stands.
-            if let Ok(point) = self.solve_demands(demands, &sol, tighter) {
-                return Ok(point);
+        if let Some(continuation) = Continuation::of(&check, tolerance, fails) {
+            let tighter = self.solve_demands(demands, &sol, continuation.tolerance);
+            if let Some(outcome) = continuation.outcome(tighter) {
+                return outcome;
             }
         }
         Ok(GPoint {

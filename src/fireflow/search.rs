@@ -218,12 +218,10 @@ impl<'s, 'a> Search<'s, 'a> {
         let sol = self.run_solve(&request, start)?;
         let check = self.setup.constraints(&sol, self.at);
         let fails = self.verdict(&check, tolerance);
-        if let Some(tighter) = velocity_continuation(&check, tolerance, fails)
-            .or_else(|| confirmation(&check, tolerance, fails))
-        {
-            // Where the tighter solve cannot be finished, the verdict at `tolerance` stands.
-            if let Ok(point) = self.solve_at(q, &sol, tighter) {
-                return Ok(point);
+        if let Some(continuation) = Continuation::of(&check, tolerance, fails) {
+            let tighter = self.solve_at(q, &sol, continuation.tolerance);
+            if let Some(outcome) = continuation.outcome(tighter) {
+                return outcome;
             }
         }
         Ok(Point {
@@ -1160,7 +1158,7 @@ const VELOCITY_VERDICT_FLOW_M3S: f64 = 1.0e-8;
 /// tests/verified_answers.rs). Continued to 1e-8 m³/s, the room is 0.0002 gpm of the pipe's
 /// flow: small even where the pipe takes a small part of the fire flow (at 1e-6 m³/s a group's
 /// answer was still 0.6 % low where the binding pipe carried a tenth of it).
-pub(super) fn velocity_continuation(
+fn velocity_continuation(
     check: &ConstraintCheck,
     tolerance: Tolerance,
     fails: Option<Binding>,
@@ -1175,6 +1173,51 @@ pub(super) fn velocity_continuation(
         })
 }
 
+/// A verdict at a looser tolerance that must be continued to a tighter one before it counts:
+/// a velocity failure within the flow tolerance's share of the limit
+/// ([`velocity_continuation`]), or a pass within [`CONFIRM_MARGIN_KPA`] of the floor
+/// ([`confirmation`]).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(super) struct Continuation {
+    pub(super) tolerance: Tolerance,
+    /// Whether the verdict continued is a pass (a confirmation).
+    confirming: bool,
+}
+
+impl Continuation {
+    /// The continuation a verdict `fails` at `tolerance` needs, if any.
+    pub(super) fn of(
+        check: &ConstraintCheck,
+        tolerance: Tolerance,
+        fails: Option<Binding>,
+    ) -> Option<Continuation> {
+        velocity_continuation(check, tolerance, fails)
+            .map(|tolerance| Continuation {
+                tolerance,
+                confirming: false,
+            })
+            .or_else(|| {
+                confirmation(check, tolerance, fails).map(|tolerance| Continuation {
+                    tolerance,
+                    confirming: true,
+                })
+            })
+    }
+
+    /// What the tighter solve's outcome makes of the verdict: the tighter point where it was
+    /// finished (`Some(Ok)`). Where it was not, a failing verdict at the looser tolerance
+    /// stands (`None`): it can only err to the safe side. A pass near the floor that could not
+    /// be confirmed does not stand: the flow counts as unsolved (`Some(Err)`), so the search
+    /// reports a lower, verified flow instead (the safe side).
+    pub(super) fn outcome<T, E>(self, tighter: Result<T, E>) -> Option<Result<T, E>> {
+        match tighter {
+            Ok(point) => Some(Ok(point)),
+            Err(e) if self.confirming => Some(Err(e)),
+            Err(_) => None,
+        }
+    }
+}
+
 /// The margin (kPa) below which a passing verdict at the search's tolerance is confirmed at
 /// the steady one (see [`confirmation`]).
 const CONFIRM_MARGIN_KPA: f64 = 0.1;
@@ -1186,7 +1229,7 @@ const CONFIRM_MARGIN_KPA: f64 = 0.1;
 /// fall short several times over (head errors of 3-25 times the search's 2e-4 m were seen at
 /// the answers of generated networks with pumps and valves), which is more than the head
 /// tolerance's worth of room a passing verdict asks.
-pub(super) fn confirmation(
+fn confirmation(
     check: &ConstraintCheck,
     tolerance: Tolerance,
     fails: Option<Binding>,
@@ -1739,5 +1782,27 @@ mod tests {
         }
         let q = on_grid(630.4567 * M3S_PER_GPM, UnitSystem::Us);
         assert!(q / M3S_PER_GPM <= 630.4567 && q / M3S_PER_GPM > 630.455);
+    }
+
+    /// A continuation that cannot be finished leaves a failing verdict standing, and turns an
+    /// unconfirmed pass into an unsolved flow: either way the answer can only move down
+    /// (common practice, no source: the safe side of a screening figure).
+    #[test]
+    fn unfinished_continuations_err_to_the_safe_side() {
+        let velocity = Continuation {
+            tolerance: Tolerance::SEARCH,
+            confirming: false,
+        };
+        let confirm = Continuation {
+            tolerance: Tolerance::STEADY,
+            confirming: true,
+        };
+        assert_eq!(velocity.outcome::<u8, &str>(Ok(1)), Some(Ok(1)));
+        assert_eq!(confirm.outcome::<u8, &str>(Ok(1)), Some(Ok(1)));
+        assert_eq!(velocity.outcome::<u8, &str>(Err("no convergence")), None);
+        assert_eq!(
+            confirm.outcome::<u8, &str>(Err("no convergence")),
+            Some(Err("no convergence"))
+        );
     }
 }
