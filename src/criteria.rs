@@ -207,7 +207,7 @@ impl Criteria {
 
 /// Reads a criteria file and checks it against the network it will be applied to.
 ///
-/// Each section is one named step of [`Reader`]; every problem is collected, in the order of
+/// Each section is one named step of `Reader`; every problem is collected, in the order of
 /// the steps, before any is reported.
 pub fn load_criteria(path: &Path, net: &Network) -> Result<Criteria, Diagnostics> {
     let file = path.display().to_string();

@@ -260,7 +260,7 @@ impl<'a> FireFlowSetup<'a> {
     }
 
     /// Checks the constraints on a solution with fire flows at the junctions `at` (a group of
-    /// hydrants flowing together; see [`group`]): a junction is constrained when it is
+    /// hydrants flowing together; see the `group` module): a junction is constrained when it is
     /// constrained for any of them, so every flowing junction is. With one junction this is
     /// [`FireFlowSetup::constraints`] exactly.
     pub fn constraints_for(&self, sol: &Solution, at: &[usize]) -> ConstraintCheck {

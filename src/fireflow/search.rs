@@ -1382,7 +1382,7 @@ fn predict(a: &Point, b: &Point, q: f64) -> Solution {
 /// Analyses hydrant `index` of the network. Never fails: a failed analysis is an `error` row.
 ///
 /// In steps: the workspace back at the max-day state, the hydrant's required flow, the search
-/// ([`run`]), then for a failing hydrant its delivered state, and the work it took.
+/// (`run`), then for a failing hydrant its delivered state, and the work it took.
 pub fn analyse_hydrant(
     setup: &FireFlowSetup<'_>,
     ws: &mut Workspace,

@@ -8,9 +8,9 @@
 //! Sensitivities come from the solver, not from finite differences of whole solves: after the
 //! residual state of a test is solved, one solve with the factorization already made gives the
 //! head response h of every node to a draw at the residual junction r
-//! ([`Hydraulics::demand_response`]). The junction matrix is symmetric, so h[n] is also the
+//! ([`Hydraulics::demand_response`]). The junction matrix is symmetric, so h\[n\] is also the
 //! response of the head at r to a draw at n (the adjoint). Raising the head loss of pipe i
-//! (a → b) by δ at fixed flow moves the head at r by g_i·δ·(h[b] − h[a]), g_i = 1/(dφ_i/dQ);
+//! (a → b) by δ at fixed flow moves the head at r by g_i·δ·(h\[b\] − h\[a\]), g_i = 1/(dφ_i/dQ);
 //! summing over a group's pipes gives its column of the Jacobian: one extra solve per test.
 //! The pipe's own δ = ∂φ_i/∂θ at fixed flow comes from its head-loss law alone.
 

@@ -9,7 +9,7 @@
 
 use crate::units::{UnitSystem, KPA_PER_PSI, M3S_PER_GPM, MM_PER_IN};
 
-/// Constant of the US pitot formula Q [gpm] = 29.83·c·d²·√p, d in in, p in psi (NFPA 291 §4.9.3).
+/// Constant of the US pitot formula Q \[gpm\] = 29.83·c·d²·√p, d in in, p in psi (NFPA 291 §4.9.3).
 pub const PITOT_US: f64 = 29.83;
 /// Constant of the SI pitot formula Q [L/min] = 0.0666·c·d²·√p, d in mm, p in kPa (NFPA 291,
 /// metric formula added in the 2019 edition).

@@ -90,7 +90,7 @@ impl OrderedPattern {
         Ok(Self::with_positions(n, pairs, perm_inv))
     }
 
-    /// The pattern ordered by `rank` (index i goes before j when rank[i] < rank[j]; ranks
+    /// The pattern ordered by `rank` (index i goes before j when rank\[i\] < rank\[j\]; ranks
     /// distinct), without an ordering of its own: for a part of a matrix already ordered, whose
     /// positions there are a good order for the part too (elimination in a fill-reducing
     /// order restricted to a subgraph only creates fill that the whole would — from memory).

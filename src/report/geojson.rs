@@ -100,7 +100,7 @@ const TEXT_COLUMNS: &[&str] = &[
     "material_or_class",
 ];
 
-/// The set with a `.geojson` twin added after each CSV file of [`TWINS`] it holds.
+/// The set with a `.geojson` twin added after each CSV file of `TWINS` it holds.
 pub fn with_twins(mut set: OutputSet, net: &Network) -> Result<OutputSet, ReportError> {
     let placement = Placement::of(net);
     let mut files = Vec::with_capacity(set.files.len() * 2);

@@ -2,7 +2,7 @@
 //! sources, a TOML mapping of their attributes, optional elevation and demand points).
 //!
 //! Reading and checking are here; the topology is [`build`]; the network's files are written by
-//! [`write`]; the report of what was changed (import.md, import.csv) is `report::import`.
+//! [`mod@write`]; the report of what was changed (import.md, import.csv) is `report::import`.
 //! docs/gis.md describes the mapping format and every rule.
 
 pub mod build;
