@@ -92,6 +92,81 @@ fn single_pipe_hydrant_flow_matches_closed_form() {
     }
 }
 
+/// The root in [0, hi] of a decreasing `f` with f(0) > 0 > f(hi), by bisection to round-off.
+fn decreasing_root(f: impl Fn(f64) -> f64, hi: f64) -> f64 {
+    let (mut lo, mut hi) = (0.0, hi);
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if f(mid) > 0.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    lo
+}
+
+#[test]
+fn hydrant_lead_lowers_the_available_flow_to_its_closed_form() {
+    // Closed form: as `single_pipe_hydrant_flow_matches_closed_form`, with a lead of resistance
+    // r_L between the junction and the hydrant, which carries the fire flow Q alone. The
+    // hydrant holds the floor while G − r (Q + D)^1.852 − r_L Q^1.852 ≥ z + floor/γ
+    // (Hazen-Williams, Williams & Hazen 1920, for both pipes in series); with D = 0,
+    // Q = ((G − z − floor/γ)/(r + r_L))^(1/1.852), and with D > 0 the same equation's root.
+    // The residual reported at the required flow is the hydrant's, after its lead.
+    let (grade_ft, z_ft) = (950.0, 800.0);
+    let (length_ft, d_in, c) = (2000.0, 8.0, 120.0);
+    let (lead_ft, lead_in, lead_c) = (50.0, 6.0, 100.0);
+    let required_gpm = 800.0;
+    for demand_gpm in [0.0, 100.0] {
+        let mut f = NetFiles::us_hw();
+        f.max_day(MAX_DAY)
+            .reservoir("R", grade_ft)
+            .junction("H", z_ft, demand_gpm)
+            .pipe("P", "R", "H", length_ft, d_in, c)
+            .hydrant_with_lead(
+                "FH",
+                "H",
+                Some(required_gpm),
+                (lead_ft, lead_in, Some(lead_c)),
+            );
+        let net = f.load();
+        let r = r_us(length_ft, d_in, c);
+        let r_lead = r_us(lead_ft, lead_in, lead_c);
+        let background = MAX_DAY * demand_gpm * M3S_PER_GPM;
+        let head = (grade_ft - z_ft) * M_PER_FT - floor_head_m();
+        let room = |q: f64, extra: f64| {
+            head + extra - r * (q + background).powf(1.852) - r_lead * q.powf(1.852)
+        };
+        let exact_at = |extra: f64| decreasing_root(|q| room(q, extra), 1.0);
+        let exact = exact_at(0.0);
+        if demand_gpm == 0.0 {
+            let closed = flow_for_head(r + r_lead, head);
+            assert!((exact - closed).abs() < 1e-12, "{exact} vs {closed}");
+        }
+        // The lead matters here: without it the limit is several per cent higher.
+        assert!(flow_for_head(r, head) - background > 1.05 * exact);
+        let res = only_result(&net);
+        let got = res.available_m3s.expect("available");
+        assert_within_promise("FH", got, exact, exact_at);
+        assert_eq!(res.limited_by, Some(LimitedBy::HydrantPressure));
+        assert_eq!(res.critical_junction, Some(net.node_by_id("H").unwrap()));
+        let q_r = required_gpm * M3S_PER_GPM;
+        let residual_kpa = ((grade_ft - z_ft) * M_PER_FT
+            - r * (q_r + background).powf(1.852)
+            - r_lead * q_r.powf(1.852))
+            * KPA_PER_M;
+        let got_residual = res.residual_kpa.expect("residual");
+        assert!(
+            (got_residual - residual_kpa).abs() < 0.01,
+            "{got_residual} vs {residual_kpa}"
+        );
+        // No flow in the lead without a fire flow: the static pressure is the junction's.
+        let static_kpa = ((grade_ft - z_ft) * M_PER_FT - r * background.powf(1.852)) * KPA_PER_M;
+        assert!((res.static_kpa.unwrap() - static_kpa).abs() < 1e-4);
+    }
+}
+
 #[test]
 fn higher_junction_on_the_line_binds_first() {
     // Closed form: reservoir → pipe 1 → junction M (high ground, no demand) → pipe 2 →

@@ -104,6 +104,57 @@ fn single_pipe_curve_matches_the_closed_form() {
 }
 
 #[test]
+fn a_hydrant_lead_lowers_its_curve_by_the_leads_loss() {
+    // Source: the closed form above with a second Hazen-Williams pipe in series that carries
+    // the fire flow alone (Williams & Hazen 1920): the hydrant's own pressure is
+    // (G − z − r (q + D)^1.852 − r_L q^1.852)·γ. Its available flow is the point where that
+    // reaches the floor, and it lies on the curve at or above the floor.
+    let allowed_kpa = 1.1 * Tolerance::STEADY.head_m * KPA_PER_M;
+    let (lead_ft, lead_in, lead_c) = (60.0, 6.0, 100.0);
+    let r_lead = hw_resistance(lead_ft * M_PER_FT, lead_in * 0.0254, lead_c);
+    let mut f = NetFiles::us_hw();
+    f.max_day(MAX_DAY)
+        .reservoir("R", GRADE_FT)
+        .junction("H", Z_FT, 0.0)
+        .pipe("P", "R", "H", LENGTH_FT, D_IN, C)
+        .hydrant_with_lead(
+            "FH",
+            "H",
+            Some(REQUIRED_GPM),
+            (lead_ft, lead_in, Some(lead_c)),
+        );
+    let net = f.load();
+    let criteria = criteria(&net, FLOOR_PSI, 8000.0, 1000.0);
+    let (results, curves) = sweep_and_curves(&net, &criteria, 1);
+    let curve = &curves[0];
+    let h = net.node_by_id("H").unwrap();
+    assert!(curve.unsolved.is_empty(), "{:?}", curve.unsolved);
+    for p in &curve.points {
+        let exact = closed_form_kpa(p.flow_m3s, 0.0) - r_lead * p.flow_m3s.powf(1.852) * KPA_PER_M;
+        assert!(
+            (p.hydrant_kpa - exact).abs() <= allowed_kpa,
+            "{:.3} gpm: {} kPa vs closed form {exact} kPa",
+            p.flow_m3s / M3S_PER_GPM,
+            p.hydrant_kpa
+        );
+        assert_eq!(p.critical_kpa, Some(p.hydrant_kpa));
+        assert_eq!((p.lowest_junction, p.lowest_kpa), (h, p.hydrant_kpa));
+    }
+    let available = results[0].available_m3s.expect("available");
+    let at_available = curve
+        .points
+        .iter()
+        .find(|p| p.flow_m3s == available)
+        .expect("the available flow is a point of the curve");
+    let floor_kpa = FLOOR_PSI * KPA_PER_PSI;
+    assert!(at_available.hydrant_kpa >= floor_kpa - FLOOR_TOLERANCE_KPA);
+    let residual = results[0].residual_kpa.expect("residual");
+    let required = REQUIRED_GPM * M3S_PER_GPM;
+    let exact = closed_form_kpa(required, 0.0) - r_lead * required.powf(1.852) * KPA_PER_M;
+    assert!((residual - exact).abs() < 0.01, "{residual} vs {exact}");
+}
+
+#[test]
 fn single_pipe_curve_spans_zero_to_beyond_the_available_flow() {
     // Sources: the chart's abscissa is Q^1.85 (NFPA 291, supply graph of the flow-test
     // chapter, N^1.85 paper; from memory), so the evenly spaced flows are (i/n)^(1/1.85) of the

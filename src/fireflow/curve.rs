@@ -10,6 +10,7 @@
 
 use rayon::prelude::*;
 
+use super::lateral::{lead_loss_kpa, lead_of};
 use super::search::{on_grid, solve_or_from_base, unsettled_reason};
 use super::sweep::SweepError;
 use super::{FireFlowSetup, HydrantResult};
@@ -33,8 +34,9 @@ const CAP_GUARD_FACTOR: f64 = 2.0;
 pub struct CurvePoint {
     /// Fire flow at the hydrant's junction, m³/s, on the reporting grid (the flow solved).
     pub flow_m3s: f64,
-    /// Pressure at the hydrant's junction, kPa (a demand-driven model: below the floor, and
-    /// even below zero, it is what the model gives, not what a hydrant would deliver).
+    /// Pressure at the hydrant, kPa: its junction's, less its lead's loss when it has one (a
+    /// demand-driven model: below the floor, and even below zero, it is what the model gives,
+    /// not what a hydrant would deliver).
     pub hydrant_kpa: f64,
     /// Pressure at the curve's critical junction, kPa; `None` without one, or where that
     /// junction is cut off by closed elements (its head means nothing).
@@ -86,7 +88,7 @@ pub fn supply_curve(
     let mut start = setup.base.clone();
     for q in curve_flows(setup, result, points) {
         match solve_point(setup, ws, result.junction, q, &start) {
-            Ok(sol) => match point_of(setup, &sol, result.junction, curve.critical_junction, q) {
+            Ok(sol) => match point_of(setup, &sol, result, curve.critical_junction, q) {
                 Ok(p) => {
                     curve.points.push(p);
                     start = sol;
@@ -181,11 +183,14 @@ fn solve_point(
 fn point_of(
     setup: &FireFlowSetup<'_>,
     sol: &Solution,
-    at: usize,
+    result: &HydrantResult,
     critical: Option<usize>,
     q: f64,
 ) -> Result<CurvePoint, String> {
     let net = setup.network();
+    let at = result.junction;
+    // The hydrant's own pressure is taken after its lead, as the search takes it.
+    let lead = lead_loss_kpa(lead_of(net, result.hydrant).as_ref(), q);
     if sol.isolated.contains(&at) {
         // Cut off with no demand, which only a zero fire flow allows: its head means nothing.
         return Err(
@@ -193,13 +198,16 @@ fn point_of(
         );
     }
     let not_finite = || "the solution's pressures are not finite numbers".to_string();
-    let hydrant_kpa = sol.pressure_kpa(net, at);
+    let hydrant_kpa = sol.pressure_kpa(net, at) - lead;
     let check = setup.constraints(sol, at);
     // Read off the solution rather than margin + floor, which would differ in the last bits.
-    let lowest_kpa = sol.pressure_kpa(net, check.pressure_junction);
+    let (lowest_kpa, lowest_junction) = match sol.pressure_kpa(net, check.pressure_junction) {
+        p if hydrant_kpa < p => (hydrant_kpa, at),
+        p => (p, check.pressure_junction),
+    };
     let critical_kpa = critical
         .filter(|j| !sol.isolated.contains(j))
-        .map(|j| sol.pressure_kpa(net, j));
+        .map(|j| sol.pressure_kpa(net, j) - if j == at { lead } else { 0.0 });
     // Every junction is checked, not only those drawn: a non-finite head anywhere means the
     // solve did not give a steady state.
     let all_finite = sol.heads_m[..net.n_junctions].iter().all(|h| h.is_finite());
@@ -215,7 +223,7 @@ fn point_of(
         hydrant_kpa,
         critical_kpa,
         lowest_kpa,
-        lowest_junction: check.pressure_junction,
+        lowest_junction,
     })
 }
 

@@ -55,6 +55,7 @@
 
 use thiserror::Error;
 
+use super::lateral::lead_of;
 use super::search::{
     binding_of, closing_width, margin, on_grid, solve_or_from_base, tolerance, unsettled_reason,
     verdict, Binding, Continuation,
@@ -62,7 +63,6 @@ use super::search::{
 use super::{ConstraintCheck, FireFlowSetup, LimitedBy};
 use crate::hydraulics::laws::LinkLaw;
 use crate::hydraulics::{Solution, SolveError, SolveRequest, Tolerance, Workspace};
-use crate::model::{HeadlossFormula, Lateral};
 use crate::units::pressure_kpa_from_head_m;
 
 /// Spread of the flowing hydrants' residual pressures at which equal-residual shares count as
@@ -620,14 +620,7 @@ impl GroupSearch<'_, '_> {
             ws,
             split,
             hydrants: hydrants.to_vec(),
-            laterals: hydrants
-                .iter()
-                .map(|&h| {
-                    net.hydrants[h]
-                        .lateral
-                        .map(|l| lateral_law(net.headloss, &l))
-                })
-                .collect(),
+            laterals: hydrants.iter().map(|&h| lead_of(net, h)).collect(),
             junctions,
             distinct,
             slot_of,
@@ -1156,30 +1149,6 @@ pub fn group_at_flow(
         notes,
         solves: s.solves,
     })
-}
-
-/// The head-loss law of a lateral, by the network's formula (Hazen-Williams or Darcy-Weisbach,
-/// the laws of docs/fire-flow-method.md §1, without minor loss).
-fn lateral_law(formula: HeadlossFormula, lateral: &Lateral) -> LinkLaw {
-    use crate::hydraulics::headloss::{darcy_weisbach_coefficient, hazen_williams_resistance};
-    match formula {
-        HeadlossFormula::HazenWilliams => LinkLaw::HazenWilliams {
-            r: hazen_williams_resistance(lateral.length_m, lateral.diameter_m, lateral.roughness),
-            m: 0.0,
-        },
-        HeadlossFormula::DarcyWeisbach => LinkLaw::DarcyWeisbach {
-            d: darcy_weisbach_coefficient(lateral.length_m, lateral.diameter_m),
-            diameter_m: lateral.diameter_m,
-            relative_roughness: lateral.roughness / lateral.diameter_m,
-            m: 0.0,
-        },
-    }
-}
-
-/// Head loss of a hydrant's lateral at flow `q_m3s`, m (the network's head-loss formula; the
-/// zero-flow smoothing of the solver below 1e-4 m³/s).
-pub fn lateral_headloss_m(formula: HeadlossFormula, lateral: &Lateral, q_m3s: f64) -> f64 {
-    lateral_law(formula, lateral).headloss(q_m3s)
 }
 
 #[cfg(test)]

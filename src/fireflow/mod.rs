@@ -12,6 +12,7 @@
 mod curve;
 pub mod delivered;
 mod group;
+mod lateral;
 mod search;
 pub mod supply_paths;
 mod sweep;
@@ -19,9 +20,10 @@ mod work;
 
 pub use curve::{supply_curve, supply_curves, CurvePoint, SupplyCurve, CHART_FLOW_EXPONENT};
 pub use group::{
-    combined_available_flow, group_at_flow, lateral_headloss_m, GroupError, GroupNote, GroupPoint,
-    GroupResult, Split, SPLIT_TOLERANCE_KPA,
+    combined_available_flow, group_at_flow, GroupError, GroupNote, GroupPoint, GroupResult, Split,
+    SPLIT_TOLERANCE_KPA,
 };
+pub use lateral::lateral_headloss_m;
 pub use search::analyse_hydrant;
 pub use sweep::{sweep, sweep_each, SweepError, SweepStats};
 pub use work::{SolveRole, SolveWork, WorkByRole};

@@ -27,11 +27,13 @@
 //! a flow, it never is the answer. A solve whose controls do not settle makes the hydrant an
 //! `error` row.
 
+use super::lateral::{lead_loss_kpa, lead_of};
 use super::work::{SolveRole, SolveWork, WorkByRole};
 use super::{
     ConstraintCheck, FireFlowSetup, HydrantNote, HydrantResult, LimitedBy, Outcome,
     FLOOR_TOLERANCE_KPA,
 };
+use crate::hydraulics::laws::LinkLaw;
 use crate::hydraulics::{
     LinkState, Region, Solution, SolveError, SolveRequest, Tolerance, Workspace,
 };
@@ -97,6 +99,8 @@ const GAP_BISECTIONS: u32 = 12;
 const GAP_SLOPE_FACTOR: f64 = 2.0;
 /// Steps down from an answer that another start does not verify.
 const MAX_STEP_DOWNS: u32 = 16;
+/// Held solves at most, for a hydrant with a lead, to place its flow (see `Search::held_solve`).
+const LEAD_HOLDS: usize = 6;
 /// State-change notes kept per hydrant.
 const STATE_CHANGES_NOTED: usize = 3;
 
@@ -173,11 +177,20 @@ struct Search<'s, 'a> {
     /// static state (kPa per m³/s), from the max-day factorization: the slope that bounds a
     /// state change's gap starting at zero flow (see [`gap_bound`]).
     static_drop_rate: Option<f64>,
+    /// The flowing hydrant's lead from the main, when it has one: the hydrant's own pressure
+    /// is then its junction's less the lead's loss at the fire flow (module `lateral`).
+    lead: Option<LinkLaw>,
 }
 
 impl<'s, 'a> Search<'s, 'a> {
     /// A search at junction `at` up to `cap`, with no solve made yet.
-    fn new(setup: &'s FireFlowSetup<'a>, ws: &'s mut Workspace, at: usize, cap: f64) -> Self {
+    fn new(
+        setup: &'s FireFlowSetup<'a>,
+        ws: &'s mut Workspace,
+        at: usize,
+        cap: f64,
+        lead: Option<LinkLaw>,
+    ) -> Self {
         Search {
             setup,
             ws,
@@ -189,6 +202,44 @@ impl<'s, 'a> Search<'s, 'a> {
             work: WorkByRole::default(),
             region: None,
             static_drop_rate: None,
+            lead,
+        }
+    }
+
+    /// The constraints on a solution with fire flow `q` at the hydrant: every constrained
+    /// junction's pressure, the hydrant's own taken after its lead (which binds, at the
+    /// hydrant's junction, when it is the lowest), and the velocities.
+    fn constraints(&self, sol: &Solution, q: f64) -> ConstraintCheck {
+        let mut check = self.setup.constraints(sol, self.at);
+        let loss = lead_loss_kpa(self.lead.as_ref(), q);
+        if loss > 0.0 && !sol.isolated.contains(&self.at) {
+            let margin = self.hydrant_kpa(sol, q) - self.setup.criteria.residual_floor_kpa;
+            if margin < check.pressure_margin_kpa {
+                check.pressure_margin_kpa = margin;
+                check.pressure_junction = self.at;
+            }
+        }
+        check
+    }
+
+    /// The hydrant's own pressure drawing `q`, kPa: its junction's, less its lead's loss.
+    fn hydrant_kpa(&self, sol: &Solution, q: f64) -> f64 {
+        sol.pressure_kpa(self.setup.network(), self.at) - lead_loss_kpa(self.lead.as_ref(), q)
+    }
+
+    /// The head at the hydrant's junction that puts the hydrant itself at the floor while it
+    /// draws `q`, m: the floor's head plus its lead's loss.
+    fn floor_head_m(&self, q: f64) -> f64 {
+        self.setup.floor_head_m(self.at) + lead_loss_kpa(self.lead.as_ref(), q) / KPA_PER_M_OF_HEAD
+    }
+
+    /// The margin of `binding` at point `p` (kPa for a pressure, m/s for a velocity), the
+    /// hydrant's own pressure taken after its lead.
+    fn margin_at(&self, p: &Point, binding: Binding) -> f64 {
+        let m = margin(self.setup, &p.sol, binding);
+        match binding {
+            Binding::Pressure(j) if j == self.at => m - lead_loss_kpa(self.lead.as_ref(), p.q),
+            _ => m,
         }
     }
 
@@ -216,7 +267,7 @@ impl<'s, 'a> Search<'s, 'a> {
             fixed_head: None,
         };
         let sol = self.run_solve(&request, start)?;
-        let check = self.setup.constraints(&sol, self.at);
+        let check = self.constraints(&sol, q);
         let fails = self.verdict(&check, tolerance);
         if let Some(continuation) = Continuation::of(&check, tolerance, fails) {
             let tighter = self.solve_at(q, &sol, continuation.tolerance);
@@ -276,7 +327,7 @@ impl<'s, 'a> Search<'s, 'a> {
     /// A point for the static state (a steady solve).
     fn static_point(&self) -> Point {
         let sol = self.setup.base.clone();
-        let check = self.setup.constraints(&sol, self.at);
+        let check = self.constraints(&sol, 0.0);
         let fails = self.verdict(&check, Tolerance::STEADY);
         Point {
             q: 0.0,
@@ -348,25 +399,53 @@ impl<'s, 'a> Search<'s, 'a> {
         }
     }
 
-    /// Solves with the hydrant's junction held at the floor; returns the flow it draws and the
+    /// Solves with the hydrant held at the floor; returns the flow it draws and the
     /// constraint check of that state (a point that places a flow, never an answer).
-    fn held_solve(&mut self, start: &Solution) -> Result<(f64, Point), ProbeError> {
+    ///
+    /// With a lead, the junction is held at the floor plus the lead's loss at `q_guess`, then
+    /// at the loss of the flow drawn (by secant steps from the second solve on, see
+    /// [`fixed_point_secant`]), until the loss held for and the loss at the flow drawn agree
+    /// to the bracket tolerance's head. `None` when they do not within [`LEAD_HOLDS`] solves
+    /// (behind a regulating valve the flow drawn can jump with the head held): the flow is
+    /// then left to the ordinary search, since one placed off the fixed point would be
+    /// verified short of the limit.
+    fn held_solve(
+        &mut self,
+        start: &Solution,
+        q_guess: f64,
+    ) -> Result<Option<(f64, Point)>, ProbeError> {
         // The start is an extrapolation to a larger flow, where the pipes near the hydrant are
         // stiffer than in the last factorization: a fresh one serves the first step better.
         self.ws.forget_factor();
         self.ws.set_tolerance(Tolerance::BRACKET);
-        let request = SolveRequest {
-            demand_factor: self.setup.demand_factor,
-            extra_demand: &[],
-            fixed_head: Some((self.at, self.setup.floor_head_m(self.at))),
-        };
-        let sol = self.run_solve(&request, start)?;
-        let q = sol.fixed_head_outflow_m3s.unwrap_or(0.0).max(0.0);
+        let mut held_for = q_guess;
+        let mut sol = self.held_at(start, held_for)?;
+        let mut q = sol.fixed_head_outflow_m3s.unwrap_or(0.0).max(0.0);
+        let mut previous: Option<(f64, f64)> = None;
+        for _ in 1..LEAD_HOLDS {
+            let gap = (self.floor_head_m(q) - self.floor_head_m(held_for)).abs();
+            if self.lead.is_none() || gap <= Tolerance::BRACKET.head_m {
+                break;
+            }
+            let next = match previous {
+                Some((p0, q0)) => fixed_point_secant((p0, q0), (held_for, q)),
+                None => q,
+            };
+            previous = Some((held_for, q));
+            held_for = next;
+            sol = self.held_at(&sol, held_for)?;
+            q = sol.fixed_head_outflow_m3s.unwrap_or(0.0).max(0.0);
+        }
+        if (self.floor_head_m(q) - self.floor_head_m(held_for)).abs() > Tolerance::BRACKET.head_m {
+            return Ok(None);
+        }
+        // The junction's own pressure (not the hydrant's after its lead, which sits at the
+        // floor only at the fixed point) with every other constraint.
         let check = self.setup.constraints(&sol, self.at);
         // The hydrant sits at the floor by construction: what counts is every other
         // constraint, without room for tolerance (this point only places a flow).
         let fails = (!check.feasible()).then(|| binding_of(&check));
-        Ok((
+        Ok(Some((
             q,
             Point {
                 q,
@@ -375,7 +454,18 @@ impl<'s, 'a> Search<'s, 'a> {
                 passes: fails.is_none(),
                 fails,
             },
-        ))
+        )))
+    }
+
+    /// One solve with the hydrant's junction held at the head that puts the hydrant at the
+    /// floor while it draws `q`.
+    fn held_at(&mut self, start: &Solution, q: f64) -> Result<Solution, ProbeError> {
+        let request = SolveRequest {
+            demand_factor: self.setup.demand_factor,
+            extra_demand: &[],
+            fixed_head: Some((self.at, self.floor_head_m(q))),
+        };
+        self.run_solve(&request, start)
     }
 
     /// Step 2: the ordinary solve at the required flow; records the residual pressure, the
@@ -394,7 +484,7 @@ impl<'s, 'a> Search<'s, 'a> {
         });
         match outcome {
             Ok(p) => {
-                result.residual_kpa = Some(p.sol.pressure_kpa(net, self.at));
+                result.residual_kpa = Some(self.hydrant_kpa(&p.sol, p.q));
                 result.min_pressure_kpa =
                     Some(p.check.pressure_margin_kpa + setup.criteria.residual_floor_kpa);
                 result.min_pressure_junction = Some(p.check.pressure_junction);
@@ -491,9 +581,10 @@ impl<'s, 'a> Search<'s, 'a> {
         }
         .unwrap_or_else(|| predicted(estimate.as_ref().map_or(0.0, |e| e.flow.min(cap))));
         // A held state that cannot be solved leaves the ordinary search to take over.
+        let q_guess = estimate.as_ref().map_or(b.lo.q, |e| e.flow.min(cap));
         let (q_held, held) = self
-            .in_role(SolveRole::Held, |s| s.held_solve(&start))
-            .ok()?;
+            .in_role(SolveRole::Held, |s| s.held_solve(&start, q_guess))
+            .ok()??;
         self.settle_held(b, at_required, q_held, held)
     }
 
@@ -524,7 +615,7 @@ impl<'s, 'a> Search<'s, 'a> {
     ) -> Option<Solution> {
         let setup = self.setup;
         let mut start = curve.linear(at_required, q);
-        let floor = setup.floor_head_m(self.at);
+        let floor = self.floor_head_m(q);
         // The region's links are plain (`Hydraulics::region` refuses controlled ones), so it is
         // the same around this start as around the required flow's.
         match self.region.as_mut() {
@@ -636,8 +727,17 @@ impl<'s, 'a> Search<'s, 'a> {
         } else {
             SUPPLY_CURVE_EXPONENT
         };
-        (drop > 1e-9 && to_floor > drop).then(|| SupplyCurve {
-            flow: at_required.q * (to_floor / drop).powf(1.0 / n),
+        let q_t = at_required.q;
+        // The hydrant reaches the floor where the junction's drop, k·Q^n, and its lead's loss
+        // use the static head above it; without a lead, in closed form.
+        let lead_m = |q: f64| lead_loss_kpa(self.lead.as_ref(), q) / KPA_PER_M_OF_HEAD;
+        let room = |q: f64| to_floor - drop * (q / q_t).powf(n) - lead_m(q);
+        (drop > 1e-9 && room(q_t) > 0.0).then(|| SupplyCurve {
+            flow: if self.lead.is_some() {
+                bisect_root(room, q_t, q_t * (to_floor / drop).powf(1.0 / n))
+            } else {
+                q_t * (to_floor / drop).powf(1.0 / n)
+            },
             exponent: n,
             flow_response: dq,
             head_response: dh,
@@ -1280,19 +1380,19 @@ pub(super) fn margin(setup: &FireFlowSetup<'_>, sol: &Solution, binding: Binding
 /// margin is nearly linear; n = 1 for velocities): quadratic through three points when a third
 /// is known, else linear; the bisection point when neither lands inside the bracket.
 fn estimate_root(
-    setup: &FireFlowSetup<'_>,
     lo: &Point,
     hi: &Point,
     third: Option<&Point>,
     binding: Binding,
+    margin_at: impl Fn(&Point) -> f64,
 ) -> f64 {
     let n = match binding {
         Binding::Pressure(_) => SUPPLY_CURVE_EXPONENT,
         Binding::Velocity(_) => 1.0,
     };
     let inside = |q: f64| q.is_finite() && q > lo.q && q < hi.q;
-    let (u0, m0) = (lo.q.powf(n), margin(setup, &lo.sol, binding));
-    let (u1, m1) = (hi.q.powf(n), margin(setup, &hi.sol, binding));
+    let (u0, m0) = (lo.q.powf(n), margin_at(lo));
+    let (u1, m1) = (hi.q.powf(n), margin_at(hi));
     let linear = {
         let u = u0 + m0 * (u1 - u0) / (m0 - m1);
         if m0 > m1 && u > 0.0 {
@@ -1302,7 +1402,7 @@ fn estimate_root(
         }
     };
     if let Some(t) = third {
-        let (u2, m2) = (t.q.powf(n), margin(setup, &t.sol, binding));
+        let (u2, m2) = (t.q.powf(n), margin_at(t));
         if let Some(u) = quadratic_root(u0, m0, u1, m1, u2, m2) {
             let q = u.max(0.0).powf(1.0 / n);
             if inside(q) {
@@ -1315,6 +1415,35 @@ fn estimate_root(
     } else {
         0.5 * (lo.q + hi.q)
     }
+}
+
+/// The next flow to hold a hydrant with a lead for, from the last two held solves (the flow
+/// each was held for, the flow it drew): the secant step on g(p) = q(p) − p, whose root is the
+/// flow that draws exactly the loss it was held for. A lead whose loss rises faster with the
+/// flow than the junction's head falls makes the plain step q(p) oscillate; the secant
+/// converges either way. The plain step where the secant is undefined.
+fn fixed_point_secant((p0, q0): (f64, f64), (p1, q1): (f64, f64)) -> f64 {
+    let (g0, g1) = (q0 - p0, q1 - p1);
+    let p = p1 - g1 * (p1 - p0) / (g1 - g0);
+    if p.is_finite() && p > 0.0 {
+        p
+    } else {
+        q1
+    }
+}
+
+/// The root of a decreasing `f` between `lo` (f ≥ 0) and `hi` by bisection to a millionth of
+/// the interval (a start's estimate, never an answer).
+fn bisect_root(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64) -> f64 {
+    for _ in 0..20 {
+        let mid = 0.5 * (lo + hi);
+        if f(mid) > 0.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    lo
 }
 
 /// The root between u0 and u1 of the parabola through three points (m0 ≥ 0 > m1).
@@ -1403,7 +1532,13 @@ pub fn analyse_hydrant(
     result.required_m3s = required;
     result.required_source = source;
     let cap = setup.criteria.search_cap_m3s;
-    let mut search = Search::new(setup, ws, at, search_cap(required, cap, net.units));
+    let mut search = Search::new(
+        setup,
+        ws,
+        at,
+        search_cap(required, cap, net.units),
+        lead_of(net, index),
+    );
     if required > cap {
         // The search must reach the required flow for pass/fail to be decided.
         result
@@ -1712,7 +1847,9 @@ fn bracket_search(s: &mut Search<'_, '_>, b: &mut Bracket, mut third: Option<Poi
         let (q, expect_pass) = match h {
             Above::Failing(hp) if surprises < 2 => {
                 let binding = hp.fails.unwrap_or_else(|| binding_of(&hp.check));
-                let estimate = estimate_root(s.setup, &b.lo, hp, third.as_ref(), binding);
+                let estimate = estimate_root(&b.lo, hp, third.as_ref(), binding, |p| {
+                    s.margin_at(p, binding)
+                });
                 let step = PROBE_OFFSET * tolerance(estimate, units);
                 let guard = 0.1 * step;
                 let below = estimate - step;

@@ -43,6 +43,9 @@ pub struct NetFiles {
     pub pumps: Vec<String>,
     pub valves: Vec<String>,
     pub hydrants: Vec<String>,
+    /// Each hydrant's lead as "length,diameter,roughness" (empty cells for none); written
+    /// only when some hydrant has one.
+    pub leads: Vec<String>,
 }
 
 impl NetFiles {
@@ -57,6 +60,7 @@ impl NetFiles {
             pumps: Vec::new(),
             valves: Vec::new(),
             hydrants: Vec::new(),
+            leads: Vec::new(),
         }
     }
 
@@ -169,6 +173,24 @@ impl NetFiles {
     pub fn hydrant(&mut self, id: &str, junction: &str, required_flow: Option<f64>) -> &mut Self {
         let q = required_flow.map(|q| q.to_string()).unwrap_or_default();
         self.hydrants.push(format!("{id},{junction},{q}"));
+        self.leads.push(",,".into());
+        self
+    }
+
+    /// A hydrant with a lead from its junction (`lateral_length`, `lateral_diameter`,
+    /// `lateral_roughness` in the network's units; an empty roughness takes the default).
+    pub fn hydrant_with_lead(
+        &mut self,
+        id: &str,
+        junction: &str,
+        required_flow: Option<f64>,
+        lead: (f64, f64, Option<f64>),
+    ) -> &mut Self {
+        self.hydrant(id, junction, required_flow);
+        let roughness = lead.2.map(|c| c.to_string()).unwrap_or_default();
+        if let Some(last) = self.leads.last_mut() {
+            *last = format!("{},{},{roughness}", lead.0, lead.1);
+        }
         self
     }
 
@@ -182,7 +204,7 @@ impl NetFiles {
             self.max_day_factor.max(2.5),
         );
         std::fs::write(dir.join("model.toml"), model).expect("write model.toml");
-        let tables: [(&str, &str, &[String]); 6] = [
+        let tables: [(&str, &str, &[String]); 5] = [
             ("junctions.csv", "id,elevation,demand,zone", &self.junctions),
             ("sources.csv", "id,kind,grade", &self.sources),
             (
@@ -200,8 +222,26 @@ impl NetFiles {
                 "id,from,to,kind,diameter,setting,minor_loss,status",
                 &self.valves,
             ),
-            ("hydrants.csv", "id,junction,required_flow", &self.hydrants),
         ];
+        let with_leads = self.leads.iter().any(|l| l != ",,");
+        let hydrants: Vec<String> = if with_leads {
+            self.hydrants
+                .iter()
+                .zip(&self.leads)
+                .map(|(h, l)| format!("{h},{l}"))
+                .collect()
+        } else {
+            self.hydrants.clone()
+        };
+        let hydrant_header = if with_leads {
+            "id,junction,required_flow,lateral_length,lateral_diameter,lateral_roughness"
+        } else {
+            "id,junction,required_flow"
+        };
+        let tables =
+            tables
+                .into_iter()
+                .chain([("hydrants.csv", hydrant_header, hydrants.as_slice())]);
         for (file, header, rows) in tables {
             if rows.is_empty() && !matches!(file, "junctions.csv" | "sources.csv" | "pipes.csv") {
                 continue;

@@ -130,6 +130,13 @@ impl CheckReport<'_> {
             ),
             None => String::new(),
         };
+        // Hydrants with a lead are judged and reported after its loss (docs/fire-flow-method.md,
+        // "Laterals"); the wording says so only where the network has one.
+        let lead = if self.network.hydrants.iter().any(|h| h.lateral.is_some()) {
+            ", less the loss in the hydrant's lead where hydrants.csv gives one (the hydrant itself is then held to the floor)"
+        } else {
+            ""
+        };
         let meanings = [
             "The hydrant's id (hydrants.csv).".to_string(),
             "The pressure zone of the hydrant's junction (empty when it has none).".to_string(),
@@ -142,7 +149,7 @@ impl CheckReport<'_> {
             ),
             format!("Available minus required, in {f}; negative when the hydrant fails."),
             format!("Pressure at the hydrant's junction, in {p}, with max-day demand and no fire flow."),
-            format!("Pressure at the hydrant's junction, in {p}, while the required flow is drawn (not the available flow); \"below 0\" when the mains cannot carry the required flow."),
+            format!("Pressure at the hydrant's junction, in {p}, while the required flow is drawn (not the available flow){lead}; \"below 0\" when the mains cannot carry the required flow."),
             format!(
                 "What stops the available flow: \"{}\", the hydrant's own junction reaches the floor; \"{}\", another constrained junction reaches the floor first; \"{}\", a pipe reaches the velocity limit; \"{}\", the search cap is reached with every constraint still met; \"{}\", there is no hydraulic solution at a larger flow (the notes say why). Empty for an error.",
                 LimitedBy::HydrantPressure.name(),
