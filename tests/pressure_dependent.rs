@@ -23,6 +23,7 @@ fn relation(p_min: f64, p_serv: f64) -> PressureDependence {
     PressureDependence {
         customers: r,
         extra: r,
+        extra_lead: None,
     }
 }
 
@@ -313,6 +314,69 @@ fn failing_hydrant_delivers_the_closed_form_fire_flow() {
     // The demand-driven figures are unchanged beside it: the residual at 3000 gpm is far below
     // zero (the impossible number the pressure-dependent state replaces).
     assert!(result.residual_kpa.expect("residual") < 0.0);
+}
+
+#[test]
+fn a_failing_hydrant_behind_a_lead_delivers_less_by_its_closed_form() {
+    // As `failing_hydrant_delivers_the_closed_form_fire_flow`, with no customer demand and a
+    // lead of 50 ft of 6-in pipe (C 100) to the hydrant: the fire demand follows the relation
+    // at the hydrant, after the lead, so with the junction's pressure p the fire flow solves
+    //   q_f = 3000 gpm·√((p − r_L q_f^1.852)/20 psi),
+    // and p = G − z − r q_f^1.852: both Hazen-Williams (Williams & Hazen 1920,
+    // netkit::hw_resistance) with the Wagner-Shamir-Marks relation (1988, from memory),
+    // solved by nested bisection. The hydrant's own pressure is p − r_L q_f^1.852.
+    use netkit::{KPA_PER_M, KPA_PER_PSI, M3S_PER_GPM, M_PER_FT, M_PER_IN};
+    let (grade_ft, z_ft) = (950.0, 800.0);
+    let mut f = NetFiles::us_hw();
+    f.max_day(1.5)
+        .reservoir("R", grade_ft)
+        .junction("H", z_ft, 0.0)
+        .pipe("P", "R", "H", 2000.0, 8.0, 120.0)
+        .hydrant_with_lead("FH", "H", Some(3000.0), (50.0, 6.0, Some(100.0)));
+    let net = f.load();
+    let criteria = pdd_criteria(&net, 5.0, 20.0);
+    let floor = 20.0 * KPA_PER_PSI / KPA_PER_M;
+    let r = hw_resistance(2000.0 * M_PER_FT, 8.0 * M_PER_IN, 120.0);
+    let r_lead = hw_resistance(50.0 * M_PER_FT, 6.0 * M_PER_IN, 100.0);
+    let qr = 3000.0 * M3S_PER_GPM;
+    let fire_at = |p: f64| {
+        bisect(0.0, qr, |q| {
+            qr * ((p - hw_loss(r_lead, q)) / floor).clamp(0.0, 1.0).sqrt() - q
+        })
+    };
+    let head = (grade_ft - z_ft) * M_PER_FT;
+    let p = bisect(1e-6, head, |p| head - hw_loss(r, fire_at(p)) - p);
+    let q = fire_at(p);
+    let outlet = p - hw_loss(r_lead, q);
+    assert!(
+        (0.06..0.94).contains(&(outlet / floor)),
+        "{}",
+        outlet / floor
+    );
+    let without_lead = qr * (p / floor).sqrt();
+    assert!(q < 0.97 * without_lead, "the lead matters here");
+
+    let result = netkit::fire_sweep(&net, &criteria, 1)
+        .pop()
+        .expect("one hydrant");
+    assert_eq!(result.outcome, firemain::fireflow::Outcome::Fail);
+    let d = result
+        .delivered
+        .as_ref()
+        .expect("a pressure-dependent state");
+    // Tolerance as in the test above: heads to 2e-4 m, flows to well under 0.1 %.
+    assert!(
+        (d.fire_flow_m3s - q).abs() < 1e-3 * q,
+        "fire flow delivered {} gpm, closed form {} gpm",
+        d.fire_flow_m3s / M3S_PER_GPM,
+        q / M3S_PER_GPM
+    );
+    assert!(
+        (d.hydrant_kpa - outlet * KPA_PER_M).abs() < 0.05,
+        "{} vs {}",
+        d.hydrant_kpa,
+        outlet * KPA_PER_M
+    );
 }
 
 #[test]

@@ -10,14 +10,17 @@
 //! Relations (see `hydraulics::demand` and docs/fire-flow-method.md §2b):
 //! - customers' demands (max-day): none at or below the criteria's `minimum`, all at or above
 //!   `service`;
-//! - the hydrant's fire demand: none at or below 0 (the hydrant's junction at atmospheric
-//!   pressure) and all of it at or above the residual floor, the pressure the required flow
-//!   must be delivered at.
+//! - the hydrant's fire demand: none at or below 0 (the hydrant at atmospheric pressure) and
+//!   all of it at or above the residual floor, the pressure the required flow must be
+//!   delivered at; for a hydrant with a lead, the pressure after the lead's loss at the flow
+//!   drawn.
 //!
 //! The available flow keeps its demand-driven definition; only this state is pressure-dependent.
 
+use super::lateral::lead_loss_kpa;
 use super::supply_paths::{supply_path_shares, PipeShare, PIPES_PER_HYDRANT};
 use super::FireFlowSetup;
+use crate::hydraulics::laws::LinkLaw;
 use crate::hydraulics::{DemandRelation, PressureDependence, SolveRequest, Tolerance, Workspace};
 use crate::units::head_m_from_pressure_kpa;
 
@@ -41,7 +44,7 @@ pub struct ShortJunction {
 pub struct DeliveredState {
     /// Fire flow the hydrant delivers when the required flow is asked, m³/s.
     pub fire_flow_m3s: f64,
-    /// Pressure at the hydrant's junction, kPa.
+    /// Pressure at the hydrant, kPa: its junction's, less its lead's loss when it has one.
     pub hydrant_kpa: f64,
     /// Lowest pressure at a junction with customer demand, kPa, and that junction.
     pub min_customer_kpa: Option<(usize, f64)>,
@@ -56,8 +59,9 @@ pub struct DeliveredState {
     pub factorizations: u32,
 }
 
-/// The relations of one hydrant's pressure-dependent solve (module doc).
-pub fn relations(setup: &FireFlowSetup<'_>) -> Option<PressureDependence> {
+/// The relations of one hydrant's pressure-dependent solve (module doc), the fire demand's on
+/// the pressure after the hydrant's `lead` where it has one.
+pub fn relations(setup: &FireFlowSetup<'_>, lead: Option<LinkLaw>) -> Option<PressureDependence> {
     let pd = setup.criteria.pressure_dependent?;
     Some(PressureDependence {
         customers: DemandRelation::new(
@@ -68,6 +72,7 @@ pub fn relations(setup: &FireFlowSetup<'_>) -> Option<PressureDependence> {
             0.0,
             head_m_from_pressure_kpa(setup.criteria.residual_floor_kpa),
         ),
+        extra_lead: lead,
     })
 }
 
@@ -82,10 +87,11 @@ pub fn delivered_state(
     setup: &FireFlowSetup<'_>,
     ws: &mut Workspace,
     at: usize,
+    lead: Option<LinkLaw>,
     required_m3s: f64,
     start: &crate::hydraulics::Solution,
 ) -> Result<Option<DeliveredState>, String> {
-    let Some(pdd) = relations(setup) else {
+    let Some(pdd) = relations(setup, lead) else {
         return Ok(None);
     };
     let net = setup.network();
@@ -132,7 +138,7 @@ pub fn delivered_state(
     });
     Ok(Some(DeliveredState {
         fire_flow_m3s: delivered[at].1,
-        hydrant_kpa: sol.pressure_kpa(net, at),
+        hydrant_kpa: sol.pressure_kpa(net, at) - lead_loss_kpa(lead.as_ref(), delivered[at].1),
         min_customer_kpa,
         short,
         customer_shortfall_m3s,

@@ -1626,7 +1626,8 @@ impl Search<'_, '_> {
     ) {
         let setup = self.setup;
         let start = answer_state.unwrap_or(&setup.base);
-        let delivered = super::delivered::delivered_state(setup, self.ws, self.at, required, start);
+        let delivered =
+            super::delivered::delivered_state(setup, self.ws, self.at, self.lead, required, start);
         let (iterations, factorizations) = match &delivered {
             Ok(Some(d)) => (d.iterations, d.factorizations),
             _ => (0, 0),

@@ -97,7 +97,7 @@ fn smoothed_power_content(c: f64, p: f64, q: f64) -> f64 {
 pub const MIN_SLOPE_S_PER_M2: f64 = 1.0e-6;
 
 /// A link's law when it conducts (pipe open, pump running, valve open or throttling).
-#[derive(Clone, Debug)]
+#[derive(Clone, Copy, Debug, PartialEq)]
 pub enum LinkLaw {
     /// h = r·|Q|^0.852·Q + m·|Q|·Q.
     HazenWilliams { r: f64, m: f64 },

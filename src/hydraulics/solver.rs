@@ -786,8 +786,8 @@ impl<'n> Hydraulics<'n> {
     ) -> (f64, f64) {
         let p = head_m - self.net.nodes[j].elevation_m;
         let (fc, sc) = pdd.customers.fraction(p);
-        let (fe, se) = pdd.extra.fraction(p);
-        (asked.0 * fc + asked.1 * fe, asked.0 * sc + asked.1 * se)
+        let (qe, se) = pdd.extra_delivered(asked.1, p);
+        (asked.0 * fc + qe, asked.0 * sc + se)
     }
 
     /// The (customer, extra) outflow each junction delivers in `sol`, a solution of
@@ -804,7 +804,7 @@ impl<'n> Hydraulics<'n> {
                 let p = sol.heads_m[j] - self.net.nodes[j].elevation_m;
                 (
                     asked[j].0 * pdd.customers.fraction(p).0,
-                    asked[j].1 * pdd.extra.fraction(p).0,
+                    pdd.extra_delivered(asked[j].1, p).0,
                 )
             })
             .collect()
