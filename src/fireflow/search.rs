@@ -1966,6 +1966,34 @@ mod tests {
         assert!(q / M3S_PER_GPM <= 630.4567 && q / M3S_PER_GPM > 630.455);
     }
 
+    /// The steps that place a hydrant behind a lead. On a held flow that is linear in the flow
+    /// held for, q(p) = a − b·p, the secant step lands on the fixed point p = a/(1 + b) at once,
+    /// even where b > 1 makes the plain step diverge (the secant method is exact for linear
+    /// functions: common practice, no source). With a junction head linear in the flow,
+    /// H(q) = H₀ + s·q, and a lead of loss m·q², the Newton step from one held solve comes
+    /// closer to the fixed point H(q) = floor + m·q² than the flow drawn did.
+    #[test]
+    fn lead_steps_reach_the_fixed_point() {
+        let (a, b) = (0.09, 1.5);
+        let held = |p: f64| a - b * p;
+        let (p0, p1) = (0.02, 0.05);
+        let p = fixed_point_secant((p0, held(p0)), (p1, held(p1)));
+        assert!((p - a / (1.0 + b)).abs() < 1e-15, "{p}");
+
+        let lead = LinkLaw::MinorLoss { m: 2000.0 };
+        let (h0, s, floor, m): (f64, f64, f64, f64) = (60.0, -300.0, 14.0, 2000.0);
+        // The fixed point: h0 + s·q = floor + m·q².
+        let exact = (s + (s * s + 4.0 * m * (h0 - floor)).sqrt()) / (2.0 * m);
+        let held_for = 0.8 * exact;
+        // The held solve at the loss of `held_for` draws the q where h0 + s·q = floor + L.
+        let q = (floor + lead.headloss(held_for) - h0) / s;
+        let next = lead_newton_step(&lead, s, held_for, q);
+        assert!(
+            (next - exact).abs() < 0.1 * (q - exact).abs(),
+            "{next} {q} {exact}"
+        );
+    }
+
     /// A continuation that cannot be finished leaves a failing verdict standing, and turns an
     /// unconfirmed pass into an unsolved flow: either way the answer can only move down
     /// (common practice, no source: the safe side of a screening figure).
