@@ -52,6 +52,27 @@ fn assert_within_promise(id: &str, got: f64, exact: f64, exact_at: impl Fn(f64) 
     );
 }
 
+/// Reservoir R (grade ft) → one pipe (length ft, diameter in, C) → junction H (elevation ft,
+/// average-day demand gpm) with hydrant FH requiring `required_gpm`, on a lead when given.
+fn single_pipe_net(
+    (grade_ft, z_ft): (f64, f64),
+    (length_ft, d_in, c): (f64, f64, f64),
+    demand_gpm: f64,
+    required_gpm: f64,
+    lead: Option<(f64, f64, Option<f64>)>,
+) -> Network {
+    let mut f = NetFiles::us_hw();
+    f.max_day(MAX_DAY)
+        .reservoir("R", grade_ft)
+        .junction("H", z_ft, demand_gpm)
+        .pipe("P", "R", "H", length_ft, d_in, c);
+    match lead {
+        Some(lead) => f.hydrant_with_lead("FH", "H", Some(required_gpm), lead),
+        None => f.hydrant("FH", "H", Some(required_gpm)),
+    };
+    f.load()
+}
+
 fn only_result(net: &Network) -> HydrantResult {
     let criteria = criteria(net, FLOOR_PSI, 8000.0, 1000.0);
     let mut results = fire_sweep(net, &criteria, 1);
@@ -69,13 +90,13 @@ fn single_pipe_hydrant_flow_matches_closed_form() {
     let (grade_ft, z_ft) = (950.0, 800.0);
     let (length_ft, d_in, c) = (2000.0, 8.0, 120.0);
     for demand_gpm in [0.0, 100.0] {
-        let mut f = NetFiles::us_hw();
-        f.max_day(MAX_DAY)
-            .reservoir("R", grade_ft)
-            .junction("H", z_ft, demand_gpm)
-            .pipe("P", "R", "H", length_ft, d_in, c)
-            .hydrant("FH", "H", Some(1000.0));
-        let net = f.load();
+        let net = single_pipe_net(
+            (grade_ft, z_ft),
+            (length_ft, d_in, c),
+            demand_gpm,
+            1000.0,
+            None,
+        );
         let r = r_us(length_ft, d_in, c);
         let background = MAX_DAY * demand_gpm * M3S_PER_GPM;
         let head = (grade_ft - z_ft) * M_PER_FT - floor_head_m();
@@ -119,18 +140,13 @@ fn hydrant_lead_lowers_the_available_flow_to_its_closed_form() {
     let (lead_ft, lead_in, lead_c) = (50.0, 6.0, 100.0);
     let required_gpm = 800.0;
     for demand_gpm in [0.0, 100.0] {
-        let mut f = NetFiles::us_hw();
-        f.max_day(MAX_DAY)
-            .reservoir("R", grade_ft)
-            .junction("H", z_ft, demand_gpm)
-            .pipe("P", "R", "H", length_ft, d_in, c)
-            .hydrant_with_lead(
-                "FH",
-                "H",
-                Some(required_gpm),
-                (lead_ft, lead_in, Some(lead_c)),
-            );
-        let net = f.load();
+        let net = single_pipe_net(
+            (grade_ft, z_ft),
+            (length_ft, d_in, c),
+            demand_gpm,
+            required_gpm,
+            Some((lead_ft, lead_in, Some(lead_c))),
+        );
         let r = r_us(length_ft, d_in, c);
         let r_lead = r_us(lead_ft, lead_in, lead_c);
         let background = MAX_DAY * demand_gpm * M3S_PER_GPM;

@@ -215,6 +215,34 @@ fn pdd_criteria(
     firemain::criteria::load_criteria(&path, net).unwrap_or_else(|d| panic!("{d}"))
 }
 
+/// The one hydrant's result, which must fail and carry a pressure-dependent state.
+fn failing_with_a_delivered_state(
+    net: &firemain::model::Network,
+    criteria: &firemain::criteria::Criteria,
+) -> firemain::fireflow::HydrantResult {
+    let result = netkit::fire_sweep(net, criteria, 1)
+        .pop()
+        .expect("one hydrant");
+    assert_eq!(result.outcome, firemain::fireflow::Outcome::Fail);
+    assert!(result.delivered.is_some(), "a pressure-dependent state");
+    result
+}
+
+/// A hydrant junction H 150 ft below reservoir R, fed by 2000 ft of 8-in pipe (C 120), with
+/// `demand_gpm` of customer demand, hydrant FH requiring 3000 gpm, on `lead` when given.
+fn single_pipe_hydrant(demand_gpm: f64, lead: Option<(f64, f64, Option<f64>)>) -> NetFiles {
+    let mut f = NetFiles::us_hw();
+    f.max_day(1.5)
+        .reservoir("R", 950.0)
+        .junction("H", 800.0, demand_gpm)
+        .pipe("P", "R", "H", 2000.0, 8.0, 120.0);
+    match lead {
+        Some(lead) => f.hydrant_with_lead("FH", "H", Some(3000.0), lead),
+        None => f.hydrant("FH", "H", Some(3000.0)),
+    };
+    f
+}
+
 #[test]
 fn failing_hydrant_delivers_the_closed_form_fire_flow() {
     // A hydrant junction 150 ft below a reservoir, fed by 2000 ft of 8-in pipe (C 120), with
@@ -227,13 +255,7 @@ fn failing_hydrant_delivers_the_closed_form_fire_flow() {
     // (1988, from memory), solved by bisection on p.
     use netkit::{KPA_PER_M, KPA_PER_PSI, M3S_PER_GPM, M_PER_FT, M_PER_IN};
     let (grade_ft, z_ft) = (950.0, 800.0);
-    let mut f = NetFiles::us_hw();
-    f.max_day(1.5)
-        .reservoir("R", grade_ft)
-        .junction("H", z_ft, 100.0)
-        .pipe("P", "R", "H", 2000.0, 8.0, 120.0)
-        .hydrant("FH", "H", Some(3000.0));
-    let net = f.load();
+    let net = single_pipe_hydrant(100.0, None).load();
     let criteria = pdd_criteria(&net, 5.0, 20.0);
     let psi_m = KPA_PER_PSI / KPA_PER_M;
     let r = hw_resistance(2000.0 * M_PER_FT, 8.0 * M_PER_IN, 120.0);
@@ -251,14 +273,8 @@ fn failing_hydrant_delivers_the_closed_form_fire_flow() {
         "{xc} {xf}"
     );
 
-    let result = netkit::fire_sweep(&net, &criteria, 1)
-        .pop()
-        .expect("one hydrant");
-    assert_eq!(result.outcome, firemain::fireflow::Outcome::Fail);
-    let d = result
-        .delivered
-        .as_ref()
-        .expect("a pressure-dependent state");
+    let result = failing_with_a_delivered_state(&net, &criteria);
+    let d = result.delivered.as_ref().expect("checked");
     // Tolerance: the search's solves converge heads to 2e-4 m (Tolerance::SEARCH); the flows
     // then agree to well under 0.1 %.
     assert!(
@@ -327,13 +343,7 @@ fn a_failing_hydrant_behind_a_lead_delivers_less_by_its_closed_form() {
     // solved by nested bisection. The hydrant's own pressure is p − r_L q_f^1.852.
     use netkit::{KPA_PER_M, KPA_PER_PSI, M3S_PER_GPM, M_PER_FT, M_PER_IN};
     let (grade_ft, z_ft) = (950.0, 800.0);
-    let mut f = NetFiles::us_hw();
-    f.max_day(1.5)
-        .reservoir("R", grade_ft)
-        .junction("H", z_ft, 0.0)
-        .pipe("P", "R", "H", 2000.0, 8.0, 120.0)
-        .hydrant_with_lead("FH", "H", Some(3000.0), (50.0, 6.0, Some(100.0)));
-    let net = f.load();
+    let net = single_pipe_hydrant(0.0, Some((50.0, 6.0, Some(100.0)))).load();
     let criteria = pdd_criteria(&net, 5.0, 20.0);
     let floor = 20.0 * KPA_PER_PSI / KPA_PER_M;
     let r = hw_resistance(2000.0 * M_PER_FT, 8.0 * M_PER_IN, 120.0);
@@ -356,14 +366,8 @@ fn a_failing_hydrant_behind_a_lead_delivers_less_by_its_closed_form() {
     let without_lead = qr * (p / floor).sqrt();
     assert!(q < 0.97 * without_lead, "the lead matters here");
 
-    let result = netkit::fire_sweep(&net, &criteria, 1)
-        .pop()
-        .expect("one hydrant");
-    assert_eq!(result.outcome, firemain::fireflow::Outcome::Fail);
-    let d = result
-        .delivered
-        .as_ref()
-        .expect("a pressure-dependent state");
+    let result = failing_with_a_delivered_state(&net, &criteria);
+    let d = result.delivered.as_ref().expect("checked");
     // Tolerance as in the test above: heads to 2e-4 m, flows to well under 0.1 %.
     assert!(
         (d.fire_flow_m3s - q).abs() < 1e-3 * q,
