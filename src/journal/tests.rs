@@ -153,6 +153,13 @@ fn merge_lists_missing_shards_and_refuses_duplicates_and_other_inputs() {
     let mut other = header(Some(s(1)), 1);
     other.criteria.sha256 = "cc".into();
     write_partial(&b, s(1), other, &[1]);
-    let e = gather(&[b]).unwrap_err().to_string();
+    let e = gather(std::slice::from_ref(&b)).unwrap_err().to_string();
     assert!(e.contains("the criteria differ"), "{e}");
+
+    // A partial of another version (its figures may come from another method) is refused.
+    let mut older = header(Some(s(1)), 1);
+    older.generator = "firemain 0.1.0".into();
+    write_partial(&b, s(1), older, &[1]);
+    let e = gather(&[b]).unwrap_err().to_string();
+    assert!(e.contains("written by different firemain versions"), "{e}");
 }
