@@ -406,7 +406,7 @@ impl<'s, 'a> Search<'s, 'a> {
     /// at the loss of the flow drawn (the first step along the supply curve's `head_slope`
     /// where it is known, see [`lead_newton_step`]; secant steps from the second solve on, see
     /// [`fixed_point_secant`]), until the loss held for and the loss at the flow drawn agree
-    /// to the bracket tolerance's head. `None` when they do not within [`LEAD_HOLDS`] solves
+    /// (see `lead_settled`). `None` when they do not within [`LEAD_HOLDS`] solves
     /// (behind a regulating valve the flow drawn can jump with the head held): the flow is
     /// then left to the ordinary search, since one placed off the fixed point would be
     /// verified short of the limit.
