@@ -424,11 +424,8 @@ impl<'s, 'a> Search<'s, 'a> {
         let mut sol = self.held_at(start, held_for)?;
         let mut q = sol.fixed_head_outflow_m3s.unwrap_or(0.0).max(0.0);
         let mut previous: Option<(f64, f64)> = None;
-        // The flattest slope of the junction's head against the flow drawn measured between
-        // two held solves, m per m³/s: what the settling test may count on.
-        let mut flattest: Option<f64> = None;
         for _ in 1..LEAD_HOLDS {
-            if self.lead.is_none() || self.lead_settled(held_for, q, flattest) {
+            if self.lead_settled(held_for, q) {
                 break;
             }
             let next = match (previous, &self.lead, head_slope) {
@@ -436,18 +433,12 @@ impl<'s, 'a> Search<'s, 'a> {
                 (None, Some(lead), Some(slope)) => lead_newton_step(lead, slope, held_for, q),
                 (None, _, _) => q,
             };
-            let (p0, q0) = (held_for, q);
-            previous = Some((p0, q0));
+            previous = Some((held_for, q));
             held_for = next;
             sol = self.held_at(&sol, held_for)?;
             q = sol.fixed_head_outflow_m3s.unwrap_or(0.0).max(0.0);
-            let measured = (self.floor_head_m(held_for) - self.floor_head_m(p0)) / (q - q0);
-            if measured.is_finite() {
-                let flatter = head_slope.map_or(measured.abs(), |s| s.abs().min(measured.abs()));
-                flattest = Some(flattest.map_or(flatter, |f: f64| f.min(flatter)));
-            }
         }
-        if !self.lead_settled(held_for, q, flattest) {
+        if !self.lead_settled(held_for, q) {
             return Ok(None);
         }
         // The junction's own pressure (not the hydrant's after its lead, which sits at the
@@ -468,25 +459,17 @@ impl<'s, 'a> Search<'s, 'a> {
         )))
     }
 
-    /// Whether a held solve at the lead's loss for `held_for` that drew `q` places the flow
-    /// well enough: the hydrant's own head there misses the floor by the gap between the two
-    /// losses, which must stay within the bracket tolerance's head, or within half the head
-    /// that [`HELD_VERIFY_OFFSET`] of the flow is worth along the hydrant's own slope (the
-    /// lead's plus the junction's, `junction_slope` in m per m³/s as a magnitude), so that the
-    /// verification just below passes and lies at most 0.05 % further below the limit. The
-    /// junction's slope must be one measured between held solves (the flattest, so the test
-    /// errs to the tighter side): the supply curve's estimate from the required flow can be
-    /// steeper many times over where a regulating valve changes state in between. Always
-    /// settled without a lead.
-    fn lead_settled(&self, held_for: f64, q: f64, junction_slope: Option<f64>) -> bool {
-        let Some(lead) = &self.lead else {
-            return true;
-        };
-        let gap = (lead.headloss(q) - lead.headloss(held_for)).abs();
-        let offset_worth = junction_slope.map_or(0.0, |s| {
-            0.5 * (lead.evaluate(q).1 + s) * HELD_VERIFY_OFFSET * q
-        });
-        gap <= Tolerance::BRACKET.head_m.max(offset_worth)
+    /// Whether a held solve at the lead's loss for `held_for` that drew `q` places the flow as
+    /// well as a held solve without a lead does: the hydrant's own head there misses the floor
+    /// by the gap between the two losses, which must stay within the held solve's own head
+    /// tolerance ([`Tolerance::BRACKET`]). A looser test on the slope of the junction's head,
+    /// estimated from the supply curve or measured between held solves, left answers 0.5 %
+    /// short where a regulating valve bends that slope (two generated cases, kept as tests).
+    /// Always settled without a lead.
+    fn lead_settled(&self, held_for: f64, q: f64) -> bool {
+        self.lead.as_ref().is_none_or(|lead| {
+            (lead.headloss(q) - lead.headloss(held_for)).abs() <= Tolerance::BRACKET.head_m
+        })
     }
 
     /// One solve with the hydrant's junction held at the head that puts the hydrant at the
