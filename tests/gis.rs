@@ -1054,3 +1054,93 @@ fn upsize_geojson_proposed_upsizings_are_lines() {
     assert!(hydrants.iter().all(|f| geometry_type(f) == "Point"));
     parse(&out.join("weak_mains_after.geojson"));
 }
+
+#[test]
+fn hydrant_leads_are_imported_in_the_networks_units_and_checked() {
+    use serde_json::json;
+    let tmp = tempfile::tempdir().expect("tempdir");
+    let dir = tmp.path();
+    small_layers(dir);
+    let mapping = SMALL_MAPPING.replace(
+        "class = \"CLASS\"",
+        "class = \"CLASS\"\nlateral_length = \"LEAD_LEN\"\nlateral_length_unit = \"m\"\n\
+         lateral_diameter = \"LEAD_DIA\"\nlateral_roughness = \"LEAD_C\"",
+    );
+    std::fs::write(dir.join("leads.toml"), &mapping).expect("written");
+    let hydrants = |name: &str, lead: &[(&str, JsonValue)]| {
+        let mut first = vec![("HYD", json!("H1"))];
+        first.extend(lead.iter().cloned());
+        write_layer(
+            &dir.join(name),
+            vec![
+                point([100.0, 2.0], props(&first)),
+                point([200.0, 2.0], props(&[("HYD", json!("H2"))])),
+            ],
+        );
+    };
+    let run = |layer: &str, out: &str| {
+        import(
+            dir,
+            &[
+                ("--pipes", "pipes.geojson"),
+                ("--sources", "sources.geojson"),
+                ("--hydrants", layer),
+                ("--mapping", "leads.toml"),
+                ("--out", out),
+            ],
+        )
+    };
+    // 12.192 m is 40 ft exactly (1 ft = 0.3048 m, the 1959 international foot); the diameter
+    // is in the network's own inches, the C factor a plain number. A hydrant without lead
+    // attributes gets empty cells: hydrants.csv reads it as having no lead.
+    hydrants(
+        "leads.geojson",
+        &[
+            ("LEAD_LEN", json!(12.192)),
+            ("LEAD_DIA", json!("6")),
+            ("LEAD_C", json!(120)),
+        ],
+    );
+    ok(&run("leads.geojson", "n1"));
+    assert_eq!(
+        data_lines(&dir.join("n1/hydrants.csv")),
+        [
+            "id,junction,required_flow,class,x,y,lateral_length,lateral_diameter,lateral_roughness",
+            "H1,J-0001,,,100,2,40,6,120",
+            "H2,J-0003,,,200,2,,,",
+        ]
+    );
+    ok(&firemain(&[
+        "validate",
+        &dir.join("n1").display().to_string(),
+    ]));
+    // Errors name the layer's file and the feature, and nothing is written.
+    for (lead, says) in [
+        (
+            vec![("LEAD_LEN", json!(12))],
+            "feature 0 (id `H1`): the lead's diameter is empty while its length or roughness is given",
+        ),
+        (
+            vec![("LEAD_LEN", json!(12)), ("LEAD_DIA", json!("six"))],
+            "feature 0 (id `H1`): lateral diameter \"six\" is not a number",
+        ),
+        (
+            vec![("LEAD_LEN", json!(12)), ("LEAD_DIA", json!(0))],
+            "feature 0 (id `H1`): the lateral diameter 0 in is not above 0",
+        ),
+        (
+            vec![
+                ("LEAD_LEN", json!(12)),
+                ("LEAD_DIA", json!(6)),
+                ("LEAD_C", json!(5)),
+            ],
+            "feature 0 (id `H1`): the lateral roughness 5 is beyond",
+        ),
+    ] {
+        hydrants("bad.geojson", &lead);
+        let o = run("bad.geojson", "bad");
+        assert_refused(&o, "bad.geojson: error: ");
+        assert_refused(&o, says);
+        assert!(!dir.join("bad").exists());
+    }
+}

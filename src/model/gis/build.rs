@@ -126,6 +126,16 @@ pub struct BHydrant {
     pub required_m3s: Option<f64>,
     pub class: Option<String>,
     pub pos: [f64; 2],
+    pub lateral: Option<BLateral>,
+}
+
+/// A hydrant's lead from its GIS attributes, SI.
+#[derive(Clone, Copy, Debug)]
+pub struct BLateral {
+    pub length_m: f64,
+    pub diameter_m: f64,
+    /// A C factor, or a Darcy-Weisbach roughness in m; `None`: hydrants.csv's default.
+    pub roughness: Option<f64>,
 }
 
 /// The network being built.
@@ -431,15 +441,20 @@ fn roughness_of(
 /// Why a pipe's roughness would be refused when the imported network is read, if it would:
 /// the bounds of the network loader (a Hazen-Williams C within the C factors pipes have; a
 /// Darcy-Weisbach roughness at most half the diameter), so that the import never writes a
-/// pipe the network files refuse.
-fn implausible_roughness(roughness: f64, diameter_m: f64, hazen_williams: bool) -> Option<String> {
+/// pipe the network files refuse. `what` names the value ("the roughness").
+pub fn implausible_roughness(
+    what: &str,
+    roughness: f64,
+    diameter_m: f64,
+    hazen_williams: bool,
+) -> Option<String> {
     if hazen_williams {
         (!limits::C_FACTOR.holds(roughness))
-            .then(|| limits::C_FACTOR.message("the roughness", roughness, UnitSystem::Si))
+            .then(|| limits::C_FACTOR.message(what, roughness, UnitSystem::Si))
     } else {
         (roughness > limits::MAX_RELATIVE_ROUGHNESS * diameter_m).then(|| {
             format!(
-                "the roughness {} m is more than {} of the diameter {} m",
+                "{what} {} m is more than {} of the diameter {} m",
                 display_value(roughness),
                 display_value(limits::MAX_RELATIVE_ROUGHNESS),
                 display_value(diameter_m)
@@ -506,7 +521,9 @@ fn pipe_values(
         roughness * units.roughness_m
     };
     let diameter_m = diameter * units.diameter_m;
-    if let Some(problem) = implausible_roughness(roughness, diameter_m, units.hazen_williams) {
+    if let Some(problem) =
+        implausible_roughness("the roughness", roughness, diameter_m, units.hazen_williams)
+    {
         err(
             problem,
             "give the Hazen-Williams C factor (about 40 to 150), or for Darcy-Weisbach the absolute roughness in [pipes] roughness_unit (docs/gis.md)",
@@ -1027,13 +1044,13 @@ mod tests {
     fn an_imported_roughness_obeys_the_network_files_bounds() {
         // The bounds are the loader's own (limits::C_FACTOR, MAX_RELATIVE_ROUGHNESS), so that an
         // import never writes a pipe that pipes.csv refuses: a consistency check, no source.
-        assert!(implausible_roughness(120.0, 0.2, true).is_none());
-        assert!(implausible_roughness(10.0, 0.2, true).is_none());
-        assert!(implausible_roughness(300.0, 0.2, true).is_some());
-        assert!(implausible_roughness(1e308, 0.2, true).is_some());
-        assert!(implausible_roughness(1.5e-6, 0.2, false).is_none());
-        assert!(implausible_roughness(0.1, 0.2, false).is_none());
-        assert!(implausible_roughness(0.11, 0.2, false).is_some());
+        assert!(implausible_roughness("r", 120.0, 0.2, true).is_none());
+        assert!(implausible_roughness("r", 10.0, 0.2, true).is_none());
+        assert!(implausible_roughness("r", 300.0, 0.2, true).is_some());
+        assert!(implausible_roughness("r", 1e308, 0.2, true).is_some());
+        assert!(implausible_roughness("r", 1.5e-6, 0.2, false).is_none());
+        assert!(implausible_roughness("r", 0.1, 0.2, false).is_none());
+        assert!(implausible_roughness("r", 0.11, 0.2, false).is_some());
     }
 
     #[test]

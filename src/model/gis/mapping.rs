@@ -176,6 +176,15 @@ pub struct HydrantsSection {
     pub class: Option<String>,
     pub required_flow: Option<String>,
     pub flow_unit: Option<FlowUnit>,
+    /// Attribute with the length of the hydrant's lead (lateral) from the main.
+    pub lateral_length: Option<String>,
+    pub lateral_length_unit: Option<LengthUnit>,
+    /// Attribute with the lead's inside diameter.
+    pub lateral_diameter: Option<String>,
+    pub lateral_diameter_unit: Option<LengthUnit>,
+    /// Attribute with the lead's C factor (Hazen-Williams) or absolute roughness (Darcy-Weisbach,
+    /// in `[pipes] roughness_unit`); where empty, hydrants.csv's default.
+    pub lateral_roughness: Option<String>,
 }
 
 /// The sources layer.

@@ -20,10 +20,13 @@ use crate::model::diagnostic::{quoted, Diagnostics, Location};
 use crate::model::limits;
 use crate::model::table::{read_table, TableSpec};
 use crate::units::display_value;
-use build::{event, short, Action, AttributeUnits, BHydrant, BSource, Builder, Event};
+use build::{
+    event, implausible_roughness, short, Action, AttributeUnits, BHydrant, BLateral, BSource,
+    Builder, Event,
+};
 use mapping::{
     default_diameter, default_flow, default_length, ElevationMethod, ElevationSource, HeadlossWord,
-    Mapping, MappingFile,
+    LengthUnit, Mapping, MappingFile,
 };
 use read::{attribute_number, attribute_text, feature_label, read_layer, InFeature, Layer};
 
@@ -646,6 +649,9 @@ fn place_hydrants(
         else {
             continue;
         };
+        let Some(lateral) = lateral_of(f, mapping, &label, layer, diags) else {
+            continue;
+        };
         let id = unique_hydrant_id(b, &mut taken, id, f, pos);
         match b.place_point(pos, attach, split) {
             Some((junction, action, detail)) => {
@@ -663,6 +669,7 @@ fn place_hydrants(
                     required_m3s: required,
                     class: attribute_text(f, m.class.as_deref()),
                     pos,
+                    lateral,
                 });
             }
             None => b.events.push(event(
@@ -710,6 +717,119 @@ fn required_flow(
             None
         }
     }
+}
+
+/// A hydrant's lead from the attributes `[hydrants]` maps (`Some(None)`: none given); `None`
+/// after an error. The checks are those hydrants.csv's lateral columns get, so that the import
+/// never writes a lead the network's own reading would refuse.
+fn lateral_of(
+    f: &InFeature,
+    mapping: &Mapping,
+    label: &str,
+    layer: &Layer,
+    diags: &mut Diagnostics,
+) -> Option<Option<BLateral>> {
+    let m = &mapping.hydrants;
+    let units = mapping.network.units;
+    let mut number = |attribute: Option<&str>, what: &str| -> Result<Option<f64>, ()> {
+        match attribute.map(|a| attribute_number(f, a)) {
+            None | Some(Ok(None)) => Ok(None),
+            Some(Ok(Some(x))) => Ok(Some(x)),
+            Some(Err(text)) => {
+                diags.error(
+                    layer.at(),
+                    format!("{label}: lateral {what} {text} is not a number"),
+                    "give a plain number (no unit) in the GIS, or leave it empty",
+                );
+                Err(())
+            }
+        }
+    };
+    let length = number(m.lateral_length.as_deref(), "length");
+    let diameter = number(m.lateral_diameter.as_deref(), "diameter");
+    let roughness = number(m.lateral_roughness.as_deref(), "roughness");
+    let (Ok(length), Ok(diameter), Ok(roughness)) = (length, diameter, roughness) else {
+        return None;
+    };
+    let length_unit = m.lateral_length_unit.unwrap_or(default_length(units));
+    let diameter_unit = m.lateral_diameter_unit.unwrap_or(default_diameter(units));
+    let length_m = length.map(|l| l * length_unit.metres());
+    let diameter_m = diameter.map(|d| d * diameter_unit.metres());
+    let hazen_williams = mapping.network.headloss == HeadlossWord::HazenWilliams;
+    let roughness = roughness.map(|r| {
+        if hazen_williams {
+            r
+        } else {
+            r * attribute_units(mapping).roughness_m
+        }
+    });
+    let (length_m, diameter_m) = match (length_m, diameter_m) {
+        (None, None) if roughness.is_none() => return Some(None),
+        (Some(l), Some(d)) => (l, d),
+        (l, _) => {
+            let (given, missing) = if l.is_none() {
+                ("diameter", "length")
+            } else {
+                ("length", "diameter")
+            };
+            diags.error(
+                layer.at(),
+                format!("{label}: the lead's {missing} is empty while its {given} or roughness is given"),
+                "fill both the lateral length and diameter attributes (the roughness is optional), or neither",
+            );
+            return None;
+        }
+    };
+    // In the attribute's own unit, as the GIS shows it.
+    let outside = |what: &str, si: f64, unit: LengthUnit, low: &str, max_si: f64| {
+        format!(
+            "the lateral {what} {} {u} is not {low} and at most {} {u}",
+            display_value(si / unit.metres()),
+            display_value(max_si / unit.metres()),
+            u = unit.symbol()
+        )
+    };
+    let problem = if !(length_m >= 0.0 && limits::PIPE_LENGTH.holds(length_m)) {
+        Some(outside(
+            "length",
+            length_m,
+            length_unit,
+            "0 or more",
+            limits::MAX_PIPE_LENGTH_M,
+        ))
+    } else if !(diameter_m > 0.0 && limits::DIAMETER.holds(diameter_m)) {
+        Some(outside(
+            "diameter",
+            diameter_m,
+            diameter_unit,
+            "above 0",
+            limits::MAX_DIAMETER_M,
+        ))
+    } else {
+        roughness.and_then(|r| {
+            if r > 0.0 {
+                implausible_roughness("the lateral roughness", r, diameter_m, hazen_williams)
+            } else {
+                Some(format!(
+                    "the lateral roughness {} is not above 0",
+                    display_value(r)
+                ))
+            }
+        })
+    };
+    if let Some(problem) = problem {
+        diags.error(
+            layer.at(),
+            format!("{label}: {problem}"),
+            "correct the lead's attributes in the GIS, or the units in [hydrants] (docs/gis.md)",
+        );
+        return None;
+    }
+    Some(Some(BLateral {
+        length_m,
+        diameter_m,
+        roughness,
+    }))
 }
 
 /// `id`, or `id~2`, `id~3`, ... when an earlier hydrant has it (reported): hydrants.csv needs

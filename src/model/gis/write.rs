@@ -2,7 +2,7 @@
 
 use std::collections::HashSet;
 
-use super::build::Builder;
+use super::build::{BLateral, Builder};
 use super::mapping::{HeadlossWord, Mapping};
 use crate::model::diagnostic::{Diagnostics, Location};
 use crate::model::{
@@ -89,7 +89,8 @@ pub fn network_files(
     push(SOURCES_FILE, sources_csv(b, &ids, u));
     push(PIPES_FILE, pipes_csv(b, &ids, pipe_ids, mapping));
     if !b.hydrants.is_empty() {
-        push(HYDRANTS_FILE, hydrants_csv(b, &ids, u));
+        let hw = mapping.network.headloss == HeadlossWord::HazenWilliams;
+        push(HYDRANTS_FILE, hydrants_csv(b, &ids, u, hw));
     }
     (files, n_junctions)
 }
@@ -227,12 +228,14 @@ fn pipes_csv(
     )
 }
 
-fn hydrants_csv(b: &Builder, ids: &[String], u: UnitSystem) -> Result<Vec<u8>, String> {
+fn hydrants_csv(b: &Builder, ids: &[String], u: UnitSystem, hw: bool) -> Result<Vec<u8>, String> {
+    // The lead's columns only when some hydrant has one: hydrants.csv reads them as optional.
+    let leads = b.hydrants.iter().any(|h| h.lateral.is_some());
     let rows: Vec<Vec<String>> = b
         .hydrants
         .iter()
         .map(|h| {
-            vec![
+            let mut row = vec![
                 h.id.clone(),
                 ids[h.junction].clone(),
                 h.required_m3s
@@ -241,15 +244,54 @@ fn hydrants_csv(b: &Builder, ids: &[String], u: UnitSystem) -> Result<Vec<u8>, S
                 h.class.clone().unwrap_or_default(),
                 plain(h.pos[0]),
                 plain(h.pos[1]),
-            ]
+            ];
+            if leads {
+                row.extend(lateral_cells(h.lateral.as_ref(), u, hw));
+            }
+            row
         })
         .collect();
+    let mut columns = vec!["id", "junction", "required_flow", "class", "x", "y"];
+    let mut units = format!(
+        "required_flow {} (empty: the criteria's value for the class)",
+        u.symbol(Quantity::Flow)
+    );
+    if leads {
+        columns.extend(["lateral_length", "lateral_diameter", "lateral_roughness"]);
+        units += &format!(
+            "; lateral_length {}, lateral_diameter {}, lateral_roughness = {} (empty: the default)",
+            u.symbol(Quantity::Length),
+            u.symbol(Quantity::Diameter),
+            if hw {
+                "Hazen-Williams C".to_string()
+            } else {
+                format!("absolute roughness in {}", u.symbol(Quantity::Diameter))
+            }
+        );
+    }
     csv(
-        &format!(
-            "written by firemain import geojson\nrequired_flow {} (empty: the criteria's value for the class)",
-            u.symbol(Quantity::Flow)
-        ),
-        &["id", "junction", "required_flow", "class", "x", "y"],
+        &format!("written by firemain import geojson\n{units}"),
+        &columns,
         &rows,
     )
+}
+
+/// A hydrant's lateral cells in the network's units; empty without a lead.
+fn lateral_cells(lateral: Option<&BLateral>, u: UnitSystem, hw: bool) -> [String; 3] {
+    let Some(l) = lateral else {
+        return Default::default();
+    };
+    [
+        plain(u.from_si(Quantity::Length, l.length_m)),
+        plain(u.from_si(Quantity::Diameter, l.diameter_m)),
+        l.roughness
+            .map(|r| {
+                plain(if hw {
+                    r
+                } else {
+                    u.from_si(Quantity::Diameter, r)
+                })
+            })
+            .unwrap_or_default(),
+    ]
 }
