@@ -217,11 +217,7 @@ fn pipes_csv(
             "written by firemain import geojson\nlength {}, diameter {}, roughness = {}",
             u.symbol(Quantity::Length),
             u.symbol(Quantity::Diameter),
-            if hw {
-                "Hazen-Williams C".to_string()
-            } else {
-                format!("absolute roughness in {}", u.symbol(Quantity::Diameter))
-            }
+            roughness_words(u, hw)
         ),
         crate::model::load::PIPE_COLUMNS,
         &rows,
@@ -262,11 +258,7 @@ fn hydrants_csv(b: &Builder, ids: &[String], u: UnitSystem, hw: bool) -> Result<
             "; lateral_length {}, lateral_diameter {}, lateral_roughness = {} (empty: the default)",
             u.symbol(Quantity::Length),
             u.symbol(Quantity::Diameter),
-            if hw {
-                "Hazen-Williams C".to_string()
-            } else {
-                format!("absolute roughness in {}", u.symbol(Quantity::Diameter))
-            }
+            roughness_words(u, hw)
         );
     }
     csv(
@@ -274,6 +266,15 @@ fn hydrants_csv(b: &Builder, ids: &[String], u: UnitSystem, hw: bool) -> Result<
         &columns,
         &rows,
     )
+}
+
+/// What a roughness column holds, for a file's header comment.
+fn roughness_words(u: UnitSystem, hw: bool) -> String {
+    if hw {
+        "Hazen-Williams C".to_string()
+    } else {
+        format!("absolute roughness in {}", u.symbol(Quantity::Diameter))
+    }
 }
 
 /// A hydrant's lateral cells in the network's units; empty without a lead.
