@@ -780,7 +780,31 @@ fn lateral_of(
             return None;
         }
     };
-    // In the attribute's own unit, as the GIS shows it.
+    let lateral = BLateral {
+        length_m,
+        diameter_m,
+        roughness,
+    };
+    let problem = lateral_problem(&lateral, length_unit, diameter_unit, hazen_williams);
+    if let Some(problem) = problem {
+        diags.error(
+            layer.at(),
+            format!("{label}: {problem}"),
+            "correct the lead's attributes in the GIS, or the units in [hydrants] (docs/gis.md)",
+        );
+        return None;
+    }
+    Some(Some(lateral))
+}
+
+/// Why hydrants.csv would refuse `lateral`, if it would; lengths and diameters in the
+/// attributes' own units, as the GIS shows them.
+fn lateral_problem(
+    lateral: &BLateral,
+    length_unit: LengthUnit,
+    diameter_unit: LengthUnit,
+    hazen_williams: bool,
+) -> Option<String> {
     let outside = |what: &str, si: f64, unit: LengthUnit, low: &str, max_si: f64| {
         format!(
             "the lateral {what} {} {u} is not {low} and at most {} {u}",
@@ -789,7 +813,12 @@ fn lateral_of(
             u = unit.symbol()
         )
     };
-    let problem = if !(length_m >= 0.0 && limits::PIPE_LENGTH.holds(length_m)) {
+    let BLateral {
+        length_m,
+        diameter_m,
+        roughness,
+    } = *lateral;
+    if !(length_m >= 0.0 && limits::PIPE_LENGTH.holds(length_m)) {
         Some(outside(
             "length",
             length_m,
@@ -816,20 +845,7 @@ fn lateral_of(
                 ))
             }
         })
-    };
-    if let Some(problem) = problem {
-        diags.error(
-            layer.at(),
-            format!("{label}: {problem}"),
-            "correct the lead's attributes in the GIS, or the units in [hydrants] (docs/gis.md)",
-        );
-        return None;
     }
-    Some(Some(BLateral {
-        length_m,
-        diameter_m,
-        roughness,
-    }))
 }
 
 /// `id`, or `id~2`, `id~3`, ... when an earlier hydrant has it (reported): hydrants.csv needs
