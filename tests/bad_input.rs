@@ -1064,13 +1064,14 @@ fn zero_length_pipe_without_minor_loss() {
 
 /// Magnitudes beyond any water system are errors at their cell, in the network's units, and
 /// never printed as hundreds of digits. The limits are firemain's own (docs/network-format.md,
-/// common practice, no source): diameter 10 m = 393.701 in = 10000 mm (1 in = 25.4 mm exactly),
+/// common practice, no source): diameter 1 mm = 0.0393701 in to 10 m = 393.701 in = 10000 mm (1 in = 25.4 mm exactly),
 /// length 100 km = 328084 ft (1 ft = 0.3048 m exactly), demand 100 m³/s = 1585032 gpm =
 /// 100000 L/s (1 US gal = 3.785411784 L exactly), elevation 10 km.
 #[test]
 fn magnitudes_beyond_any_water_system() {
-    let us_cases: [(&str, &str, &str, &str, &str); 5] = [
-        ("pipes.csv", "P2,J1,J2,500,8", "P2,J1,J2,500,1e300", "pipes.csv:3:5", "`diameter` 1e300 in is beyond any water main (firemain accepts at most 393.701 in)"),
+    let us_cases: [(&str, &str, &str, &str, &str); 6] = [
+        ("pipes.csv", "P2,J1,J2,500,8", "P2,J1,J2,500,1e300", "pipes.csv:3:5", "`diameter` 1e300 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.701 in)"),
+        ("pipes.csv", "P2,J1,J2,500,8", "P2,J1,J2,500,0.001", "pipes.csv:3:5", "`diameter` 0.001 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.701 in)"),
         ("pipes.csv", "P2,J1,J2,500", "P2,J1,J2,400000", "pipes.csv:3:4", "`length` 400000 ft is beyond any water main"),
         ("junctions.csv", "J2,105,20", "J2,105,1e12", "junctions.csv:3:3", "`demand` 1e12 gpm is beyond any water system (firemain accepts between -1585032 and 1585032 gpm)"),
         ("junctions.csv", "J2,105,20", "J2,-40000,20", "junctions.csv:3:2", "`elevation` -40000 ft is beyond any water system"),
@@ -1089,7 +1090,7 @@ fn magnitudes_beyond_any_water_system() {
     }
     // The same in an SI network: mm, m and L/s.
     let si_cases: [(&str, &str, &str, &str, &str); 2] = [
-        ("pipes.csv", "P2,J1,J2,150,200", "P2,J1,J2,150,20000", "pipes.csv:3:5", "`diameter` 20000 mm is beyond any water main (firemain accepts at most 10000 mm)"),
+        ("pipes.csv", "P2,J1,J2,150,200", "P2,J1,J2,150,20000", "pipes.csv:3:5", "`diameter` 20000 mm is beyond any water pipe (firemain accepts between 1 and 10000 mm)"),
         ("junctions.csv", "J2,32,2", "J2,32,-2e5", "junctions.csv:3:3", "`demand` -200000 L/s is beyond any water system (firemain accepts between -100000 and 100000 L/s)"),
     ];
     for (file, from, to, at, says) in si_cases {
@@ -1763,6 +1764,45 @@ fn warning_diameter_in_the_wrong_unit() {
             "a diameter at the limit was flagged:\n{}",
             run.stdout
         );
+    }
+}
+
+/// A hydrant's lead is read as a pipe is (docs/network-format.md, hydrants.csv): length and
+/// diameter go together, the diameter within 1 mm to 10 m (0.0393701 to 393.701 in: 1 in =
+/// 25.4 mm exactly), the C factor within 10 to 200; each error at its cell. A lead diameter in
+/// what looks like the wrong unit, or a C outside 40-160, is a warning, as for pipes (common
+/// practice, no source).
+#[test]
+fn hydrant_leads_are_checked_as_pipes_are() {
+    const HEADER: &str = "id,junction,lateral_length,lateral_diameter,lateral_roughness\n";
+    for (row, at, says) in [
+        (
+            "H1,J3,20,,",
+            "hydrants.csv:2:4",
+            "`lateral_diameter` is empty while the hydrant's other lateral columns are given",
+        ),
+        (
+            "H1,J3,20,0.001,",
+            "hydrants.csv:2:4",
+            "`lateral_diameter` 0.001 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.701 in)",
+        ),
+        (
+            "H1,J3,20,6,300",
+            "hydrants.csv:2:5",
+            "`lateral_roughness` 300 is beyond any pipe's Hazen-Williams C",
+        ),
+    ] {
+        let net = Net::us();
+        net.write("hydrants.csv", format!("{HEADER}{row}\n"));
+        assert_refused(&net, &[(at, says)]);
+    }
+    for (row, says) in [
+        ("H1,J3,20,0.5,", "lateral_diameter 0.5 in looks like the wrong unit"),
+        ("H1,J3,20,6,35", "the lead's Hazen-Williams C = 35 is outside the plausible 40-160"),
+    ] {
+        let net = Net::us();
+        net.write("hydrants.csv", format!("{HEADER}{row}\n"));
+        assert_warned(&net, "hydrants.csv:2", says);
     }
 }
 

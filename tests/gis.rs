@@ -1126,7 +1126,7 @@ fn hydrant_leads_are_imported_in_the_networks_units_and_checked() {
         ),
         (
             vec![("LEAD_LEN", json!(12)), ("LEAD_DIA", json!(0))],
-            "feature 0 (id `H1`): the lateral diameter 0 in is not above 0",
+            "feature 0 (id `H1`): the lateral diameter 0 in is not between 0.0393701 and 393.701 in",
         ),
         (
             vec![

@@ -12,6 +12,10 @@ use crate::units::{display_value, Quantity, UnitSystem, KPA_PER_M_OF_HEAD};
 /// The largest pipe or valve inside diameter, m. The largest water-supply tunnels are about
 /// 7 m across (from memory).
 pub const MAX_DIAMETER_M: f64 = 10.0;
+/// The smallest pipe, valve or hydrant-lead inside diameter, m (1 mm). The narrowest service
+/// lines are about 3/4 in, 19 mm (from memory); a diameter far below a millimetre is a unit
+/// slip, and at 1e-300 m a pipe's head-loss law overflows to infinity.
+pub const MIN_DIAMETER_M: f64 = 1e-3;
 /// The longest pipe between two nodes, m (100 km). Long aqueducts are modelled as many pipes
 /// between junctions; a distribution main between two junctions is rarely over a few km.
 pub const MAX_PIPE_LENGTH_M: f64 = 100_000.0;
@@ -69,6 +73,21 @@ impl Limit {
             quantity,
             min_si: -bound_si,
             max_si: bound_si,
+            beyond,
+            hint: "",
+        }
+    }
+
+    const fn between(
+        quantity: Option<Quantity>,
+        min_si: f64,
+        max_si: f64,
+        beyond: &'static str,
+    ) -> Limit {
+        Limit {
+            quantity,
+            min_si,
+            max_si,
             beyond,
             hint: "",
         }
@@ -142,8 +161,12 @@ fn unit_word(units: UnitSystem, q: Quantity) -> &'static str {
     }
 }
 
-pub const DIAMETER: Limit =
-    Limit::at_most(Some(Quantity::Diameter), MAX_DIAMETER_M, "any water main");
+pub const DIAMETER: Limit = Limit::between(
+    Some(Quantity::Diameter),
+    MIN_DIAMETER_M,
+    MAX_DIAMETER_M,
+    "any water pipe",
+);
 /// The largest tank diameter, m. The largest ground storage tanks are about 100 m across (from
 /// memory).
 pub const TANK_DIAMETER: Limit = Limit::at_most(Some(Quantity::Length), 1000.0, "any storage tank");
@@ -199,7 +222,7 @@ mod tests {
         let m = DIAMETER.message("diameter", 1e300, UnitSystem::Us);
         assert_eq!(
             m,
-            "diameter 1e300 in is beyond any water main (firemain accepts at most 393.701 in)"
+            "diameter 1e300 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.701 in)"
         );
         let m = DEMAND.message("demand", -200_000.0, UnitSystem::Si);
         assert!(

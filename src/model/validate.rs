@@ -28,6 +28,7 @@ pub fn check_network(net: &Network, diags: &mut Diagnostics) {
     check_pipes(net, diags);
     check_elevations(net, diags);
     check_hydrant_mains(net, diags);
+    check_hydrant_leads(net, diags);
     check_zones(net, diags);
 }
 
@@ -284,6 +285,61 @@ fn check_hydrant_mains(net: &Network, diags: &mut Diagnostics) {
                     units.symbol(Quantity::Diameter)
                 ),
                 "check the main's diameter; a small main limits the fire flow",
+            );
+        }
+    }
+}
+
+/// Warns about a hydrant lead whose diameter looks like the wrong unit or whose roughness is
+/// implausible, by the pipes' rules (common practice, no source).
+fn check_hydrant_leads(net: &Network, diags: &mut Diagnostics) {
+    let units = net.units;
+    let (lo, hi) = match units {
+        UnitSystem::Us => PLAUSIBLE_DIAMETER_IN,
+        UnitSystem::Si => PLAUSIBLE_DIAMETER_MM,
+    };
+    let dia = units.symbol(Quantity::Diameter);
+    for h in &net.hydrants {
+        let Some(lead) = &h.lateral else {
+            continue;
+        };
+        let at = Location::line("hydrants.csv", h.line);
+        let shown = units.from_si(Quantity::Diameter, lead.diameter_m);
+        if shown < lo || shown > hi {
+            diags.warning(
+                at.clone(),
+                format!(
+                    "hydrant `{}`: lateral_diameter {} {dia} looks like the wrong unit (plausible {lo}-{hi}; common practice)",
+                    h.id,
+                    display_value(shown)
+                ),
+                format!("diameters are in {dia} for units = \"{}\"", units.name()),
+            );
+        }
+        let (clo, chi) = PLAUSIBLE_HW_C;
+        let implausible = match net.headloss {
+            HeadlossFormula::HazenWilliams => {
+                (lead.roughness < clo || lead.roughness > chi).then(|| {
+                    format!(
+                        "Hazen-Williams C = {} is outside the plausible {clo}-{chi}",
+                        display_value(lead.roughness)
+                    )
+                })
+            }
+            HeadlossFormula::DarcyWeisbach => {
+                (lead.roughness > PLAUSIBLE_RELATIVE_ROUGHNESS * lead.diameter_m).then(|| {
+                    format!(
+                        "roughness {} {dia} is more than 5 % of the diameter",
+                        display_value(units.from_si(Quantity::Diameter, lead.roughness))
+                    )
+                })
+            }
+        };
+        if let Some(what) = implausible {
+            diags.warning(
+                at,
+                format!("hydrant `{}`: the lead's {what} (common practice)", h.id),
+                "check lateral_roughness: a C factor for Hazen-Williams, an absolute roughness in the diameter unit for Darcy-Weisbach",
             );
         }
     }

@@ -805,10 +805,11 @@ fn lateral_problem(
     diameter_unit: LengthUnit,
     hazen_williams: bool,
 ) -> Option<String> {
-    let outside = |what: &str, si: f64, unit: LengthUnit, low: &str, max_si: f64| {
+    let outside = |what: &str, si: f64, unit: LengthUnit, min_si: f64, max_si: f64| {
         format!(
-            "the lateral {what} {} {u} is not {low} and at most {} {u}",
+            "the lateral {what} {} {u} is not between {} and {} {u}",
             display_value(si / unit.metres()),
+            display_value(min_si / unit.metres()),
             display_value(max_si / unit.metres()),
             u = unit.symbol()
         )
@@ -823,15 +824,15 @@ fn lateral_problem(
             "length",
             length_m,
             length_unit,
-            "0 or more",
+            0.0,
             limits::MAX_PIPE_LENGTH_M,
         ))
-    } else if !(diameter_m > 0.0 && limits::DIAMETER.holds(diameter_m)) {
+    } else if !limits::DIAMETER.holds(diameter_m) {
         Some(outside(
             "diameter",
             diameter_m,
             diameter_unit,
-            "above 0",
+            limits::MIN_DIAMETER_M,
             limits::MAX_DIAMETER_M,
         ))
     } else {
