@@ -20,6 +20,7 @@
 use std::path::{Path, PathBuf};
 
 use firemain::criteria::load_criteria;
+use firemain::fireflow::lateral_headloss_m;
 use firemain::hydraulics::{Hydraulics, SolveRequest};
 use firemain::journal::read_journal;
 use firemain::model::buildings::load_buildings;
@@ -139,6 +140,25 @@ pub fn check_network(net: &Network) -> Result<(), String> {
         if let Some(d) = l.diameter_m() {
             if !(d.is_finite() && d > 0.0) {
                 return Err(format!("diameter {d} in link {}", l.id));
+            }
+        }
+    }
+    for hy in &net.hydrants {
+        if let Some(l) = &hy.lateral {
+            let ok = l.length_m.is_finite()
+                && l.length_m >= 0.0
+                && l.diameter_m.is_finite()
+                && l.diameter_m > 0.0
+                && l.roughness.is_finite()
+                && l.roughness > 0.0;
+            if !ok {
+                return Err(format!("lateral {l:?} of hydrant {}", hy.id));
+            }
+            // The lead's loss at a large fire flow (0.5 m³/s, about 8,000 gpm) is a finite
+            // number of metres.
+            let loss = lateral_headloss_m(net.headloss, l, 0.5);
+            if !(loss.is_finite() && loss >= 0.0) {
+                return Err(format!("lead loss {loss} m at hydrant {}", hy.id));
             }
         }
     }
@@ -324,6 +344,9 @@ impl Target {
         let demo = Path::new(DEMO);
         let seeds = Path::new(SEEDS);
         match self {
+            // The demo's hydrants have no leads: the seed adds them, so that the lateral
+            // columns are mutated too.
+            Target::NetworkFile("hydrants.csv") => seeds.join("hydrants.csv"),
             Target::NetworkFile(f) => demo.join(f),
             Target::Criteria => CRITERIA.into(),
             Target::Method => METHOD.into(),
