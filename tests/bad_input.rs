@@ -1797,8 +1797,14 @@ fn hydrant_leads_are_checked_as_pipes_are() {
         assert_refused(&net, &[(at, says)]);
     }
     for (row, says) in [
-        ("H1,J3,20,0.5,", "lateral_diameter 0.5 in looks like the wrong unit"),
-        ("H1,J3,20,6,35", "the lead's Hazen-Williams C = 35 is outside the plausible 40-160"),
+        (
+            "H1,J3,20,0.5,",
+            "lateral_diameter 0.5 in looks like the wrong unit",
+        ),
+        (
+            "H1,J3,20,6,35",
+            "the lead's Hazen-Williams C = 35 is outside the plausible 40-160",
+        ),
     ] {
         let net = Net::us();
         net.write("hydrants.csv", format!("{HEADER}{row}\n"));

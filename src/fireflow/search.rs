@@ -33,6 +33,7 @@ use super::{
     ConstraintCheck, FireFlowSetup, HydrantNote, HydrantResult, LimitedBy, Outcome,
     FLOOR_TOLERANCE_KPA,
 };
+use crate::hydraulics::demand::LeadOutflow;
 use crate::hydraulics::laws::LinkLaw;
 use crate::hydraulics::{
     LinkState, Region, Solution, SolveError, SolveRequest, Tolerance, Workspace,
@@ -99,8 +100,6 @@ const GAP_BISECTIONS: u32 = 12;
 const GAP_SLOPE_FACTOR: f64 = 2.0;
 /// Steps down from an answer that another start does not verify.
 const MAX_STEP_DOWNS: u32 = 16;
-/// Held solves at most, for a hydrant with a lead, to place its flow (see `Search::held_solve`).
-const LEAD_HOLDS: usize = 6;
 /// State-change notes kept per hydrant.
 const STATE_CHANGES_NOTED: usize = 3;
 
@@ -291,7 +290,40 @@ impl<'s, 'a> Search<'s, 'a> {
         request: &SolveRequest<'_>,
         start: &Solution,
     ) -> Result<Solution, ProbeError> {
-        let (outcome, attempts) = solve_or_from_base(self.setup, self.ws, request, start);
+        let outcome = solve_or_from_base(self.setup, self.ws, request, start);
+        self.account(request.fixed_head.is_none(), outcome)
+    }
+
+    /// A solve with the hydrant drawing through its lead whatever puts its outlet at
+    /// `outflow`'s head (see [`Search::held_solve`]), counted and checked as `run_solve` does.
+    fn run_behind_lead(
+        &mut self,
+        outflow: &LeadOutflow,
+        start: &Solution,
+    ) -> Result<Solution, ProbeError> {
+        let request = SolveRequest {
+            demand_factor: self.setup.demand_factor,
+            extra_demand: &[],
+            fixed_head: None,
+        };
+        let hydraulics = &self.setup.hydraulics;
+        let outcome = match hydraulics.solve_behind_lead(self.ws, &request, outflow, start) {
+            Ok(sol) => (Ok(sol), 1),
+            Err(_) => (
+                hydraulics.solve_behind_lead(self.ws, &request, outflow, &self.setup.base),
+                2,
+            ),
+        };
+        self.account(false, outcome)
+    }
+
+    /// Counts a solve's work under the current role and turns its outcome into a solution of
+    /// settled states; an `ordinary` solve's unsettled links are kept for the hydrant's notes.
+    fn account(
+        &mut self,
+        ordinary: bool,
+        (outcome, attempts): (Result<Solution, SolveError>, u32),
+    ) -> Result<Solution, ProbeError> {
         let (iterations, factorizations) = match &outcome {
             Ok(sol) => (sol.iterations, sol.factorizations),
             Err(_) => (0, 0),
@@ -305,7 +337,6 @@ impl<'s, 'a> Search<'s, 'a> {
             self.states_changed = true;
         }
         if !sol.unsettled.is_empty() {
-            let ordinary = request.fixed_head.is_none();
             for &i in sol.unsettled.iter().filter(|_| ordinary) {
                 if !self.unsettled.contains(&i) {
                     self.unsettled.push(i);
@@ -402,52 +433,40 @@ impl<'s, 'a> Search<'s, 'a> {
     /// Solves with the hydrant held at the floor; returns the flow it draws and the
     /// constraint check of that state (a point that places a flow, never an answer).
     ///
-    /// With a lead, the junction is held at the floor plus the lead's loss at `q_guess`, then
-    /// at the loss of the flow drawn (the first step along the supply curve's `head_slope`
-    /// where it is known, see [`lead_newton_step`]; secant steps from the second solve on, see
-    /// [`fixed_point_secant`]), until the loss held for and the loss at the flow drawn agree
-    /// (see `lead_settled`). `None` when they do not within [`LEAD_HOLDS`] solves
-    /// (behind a regulating valve the flow drawn can jump with the head held): the flow is
-    /// then left to the ordinary search, since one placed off the fixed point would be
-    /// verified short of the limit.
-    fn held_solve(
-        &mut self,
-        start: &Solution,
-        q_guess: f64,
-        head_slope: Option<f64>,
-    ) -> Result<Option<(f64, Point)>, ProbeError> {
+    /// Without a lead the hydrant's junction is pinned at the floor's head. With a lead the
+    /// junction stays free and the hydrant draws whatever flow puts its outlet, after the
+    /// lead, at the floor (`Hydraulics::solve_behind_lead`): the same point in one solve.
+    fn held_solve(&mut self, start: &Solution) -> Result<(f64, Point), ProbeError> {
         // The start is an extrapolation to a larger flow, where the pipes near the hydrant are
         // stiffer than in the last factorization: a fresh one serves the first step better.
         self.ws.forget_factor();
         self.ws.set_tolerance(Tolerance::BRACKET);
-        let mut held_for = q_guess;
-        let mut sol = self.held_at(start, held_for)?;
-        let mut q = sol.fixed_head_outflow_m3s.unwrap_or(0.0).max(0.0);
-        let mut previous: Option<(f64, f64)> = None;
-        for _ in 1..LEAD_HOLDS {
-            if self.lead_settled(held_for, q) {
-                break;
+        let sol = match self.lead {
+            None => {
+                let request = SolveRequest {
+                    demand_factor: self.setup.demand_factor,
+                    extra_demand: &[],
+                    fixed_head: Some((self.at, self.setup.floor_head_m(self.at))),
+                };
+                self.run_solve(&request, start)?
             }
-            let next = match (previous, &self.lead, head_slope) {
-                (Some((p0, q0)), _, _) => fixed_point_secant((p0, q0), (held_for, q)),
-                (None, Some(lead), Some(slope)) => lead_newton_step(lead, slope, held_for, q),
-                (None, _, _) => q,
-            };
-            previous = Some((held_for, q));
-            held_for = next;
-            sol = self.held_at(&sol, held_for)?;
-            q = sol.fixed_head_outflow_m3s.unwrap_or(0.0).max(0.0);
-        }
-        if !self.lead_settled(held_for, q) {
-            return Ok(None);
-        }
+            Some(lead) => {
+                let outflow = LeadOutflow {
+                    junction: self.at,
+                    outlet_head_m: self.setup.floor_head_m(self.at),
+                    lead,
+                };
+                self.run_behind_lead(&outflow, start)?
+            }
+        };
+        let q = sol.fixed_head_outflow_m3s.unwrap_or(0.0).max(0.0);
         // The junction's own pressure (not the hydrant's after its lead, which sits at the
-        // floor only at the fixed point) with every other constraint.
+        // floor by construction) with every other constraint.
         let check = self.setup.constraints(&sol, self.at);
         // The hydrant sits at the floor by construction: what counts is every other
         // constraint, without room for tolerance (this point only places a flow).
         let fails = (!check.feasible()).then(|| binding_of(&check));
-        Ok(Some((
+        Ok((
             q,
             Point {
                 q,
@@ -456,31 +475,7 @@ impl<'s, 'a> Search<'s, 'a> {
                 passes: fails.is_none(),
                 fails,
             },
-        )))
-    }
-
-    /// Whether a held solve at the lead's loss for `held_for` that drew `q` places the flow as
-    /// well as a held solve without a lead does: the hydrant's own head there misses the floor
-    /// by the gap between the two losses, which must stay within the held solve's own head
-    /// tolerance ([`Tolerance::BRACKET`]). A looser test on the slope of the junction's head,
-    /// estimated from the supply curve or measured between held solves, left answers 0.5 %
-    /// short where a regulating valve bends that slope (two generated cases, kept as tests).
-    /// Always settled without a lead.
-    fn lead_settled(&self, held_for: f64, q: f64) -> bool {
-        self.lead.as_ref().is_none_or(|lead| {
-            (lead.headloss(q) - lead.headloss(held_for)).abs() <= Tolerance::BRACKET.head_m
-        })
-    }
-
-    /// One solve with the hydrant's junction held at the head that puts the hydrant at the
-    /// floor while it draws `q`.
-    fn held_at(&mut self, start: &Solution, q: f64) -> Result<Solution, ProbeError> {
-        let request = SolveRequest {
-            demand_factor: self.setup.demand_factor,
-            extra_demand: &[],
-            fixed_head: Some((self.at, self.floor_head_m(q))),
-        };
-        self.run_solve(&request, start)
+        ))
     }
 
     /// Step 2: the ordinary solve at the required flow; records the residual pressure, the
@@ -596,13 +591,9 @@ impl<'s, 'a> Search<'s, 'a> {
         }
         .unwrap_or_else(|| predicted(estimate.as_ref().map_or(0.0, |e| e.flow.min(cap))));
         // A held state that cannot be solved leaves the ordinary search to take over.
-        let q_guess = estimate.as_ref().map_or(b.lo.q, |e| e.flow.min(cap));
-        let head_slope = estimate.as_ref().map(|e| e.head_slope);
         let (q_held, held) = self
-            .in_role(SolveRole::Held, |s| {
-                s.held_solve(&start, q_guess, head_slope)
-            })
-            .ok()??;
+            .in_role(SolveRole::Held, |s| s.held_solve(&start))
+            .ok()?;
         self.settle_held(b, at_required, q_held, held)
     }
 
@@ -759,8 +750,6 @@ impl<'s, 'a> Search<'s, 'a> {
             SupplyCurve {
                 flow,
                 exponent: n,
-                // d/dQ of −k·Q^n at the flow: −n·(the drop there)/Q.
-                head_slope: -n * drop * (flow / q_t).powf(n) / flow,
                 flow_response: dq,
                 head_response: dh,
             }
@@ -1173,8 +1162,6 @@ struct SupplyCurve {
     /// Flow at which it reaches the floor, m³/s.
     flow: f64,
     exponent: f64,
-    /// The slope of the junction's head against the fire flow at `flow`, m per m³/s (< 0).
-    head_slope: f64,
     /// Linear response of every link flow to the fire flow, at the required flow.
     flow_response: Vec<f64>,
     /// Linear response of every head to the fire flow, at the required flow.
@@ -1439,36 +1426,6 @@ fn estimate_root(
         linear
     } else {
         0.5 * (lo.q + hi.q)
-    }
-}
-
-/// The next flow to hold a hydrant with a lead for, from the last two held solves (the flow
-/// each was held for, the flow it drew): the secant step on g(p) = q(p) − p, whose root is the
-/// flow that draws exactly the loss it was held for. A lead whose loss rises faster with the
-/// flow than the junction's head falls makes the plain step q(p) oscillate; the secant
-/// converges either way. The plain step where the secant is undefined.
-fn fixed_point_secant((p0, q0): (f64, f64), (p1, q1): (f64, f64)) -> f64 {
-    let (g0, g1) = (q0 - p0, q1 - p1);
-    let p = p1 - g1 * (p1 - p0) / (g1 - g0);
-    if p.is_finite() && p > 0.0 {
-        p
-    } else {
-        q1
-    }
-}
-
-/// The first flow to hold a hydrant with a lead for after a held solve at the loss of
-/// `held_for` drew `q`: the junction's head near q moves along the supply curve's slope
-/// `head_slope` (m per m³/s, < 0) and the lead's loss along its own, so the flow whose loss
-/// the head meets is q + (L(held_for) − L(q))/(L′(q) − head_slope), a Newton step on the fixed
-/// point with the curve's slope. The plain step q where that is not a finite positive flow.
-fn lead_newton_step(lead: &LinkLaw, head_slope: f64, held_for: f64, q: f64) -> f64 {
-    let (loss_q, loss_slope) = lead.evaluate(q);
-    let next = q + (lead.headloss(held_for) - loss_q) / (loss_slope - head_slope);
-    if next.is_finite() && next > 0.0 {
-        next
-    } else {
-        q
     }
 }
 
@@ -1960,34 +1917,6 @@ mod tests {
         }
         let q = on_grid(630.4567 * M3S_PER_GPM, UnitSystem::Us);
         assert!(q / M3S_PER_GPM <= 630.4567 && q / M3S_PER_GPM > 630.455);
-    }
-
-    /// The steps that place a hydrant behind a lead. On a held flow that is linear in the flow
-    /// held for, q(p) = a − b·p, the secant step lands on the fixed point p = a/(1 + b) at once,
-    /// even where b > 1 makes the plain step diverge (the secant method is exact for linear
-    /// functions: common practice, no source). With a junction head linear in the flow,
-    /// H(q) = H₀ + s·q, and a lead of loss m·q², the Newton step from one held solve comes
-    /// closer to the fixed point H(q) = floor + m·q² than the flow drawn did.
-    #[test]
-    fn lead_steps_reach_the_fixed_point() {
-        let (a, b) = (0.09, 1.5);
-        let held = |p: f64| a - b * p;
-        let (p0, p1) = (0.02, 0.05);
-        let p = fixed_point_secant((p0, held(p0)), (p1, held(p1)));
-        assert!((p - a / (1.0 + b)).abs() < 1e-15, "{p}");
-
-        let lead = LinkLaw::MinorLoss { m: 2000.0 };
-        let (h0, s, floor, m): (f64, f64, f64, f64) = (60.0, -300.0, 14.0, 2000.0);
-        // The fixed point: h0 + s·q = floor + m·q².
-        let exact = (s + (s * s + 4.0 * m * (h0 - floor)).sqrt()) / (2.0 * m);
-        let held_for = 0.8 * exact;
-        // The held solve at the loss of `held_for` draws the q where h0 + s·q = floor + L.
-        let q = (floor + lead.headloss(held_for) - h0) / s;
-        let next = lead_newton_step(&lead, s, held_for, q);
-        assert!(
-            (next - exact).abs() < 0.1 * (q - exact).abs(),
-            "{next} {q} {exact}"
-        );
     }
 
     /// A continuation that cannot be finished leaves a failing verdict standing, and turns an

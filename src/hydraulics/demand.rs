@@ -150,6 +150,63 @@ impl PressureDependence {
     }
 }
 
+/// A hydrant behind a lead drawing whatever flow puts its outlet at a head: the outflow q at
+/// junction `junction` with head H solves L(q) = H − `outlet_head_m`, L the lead's loss. Held
+/// that way, the hydrant sits at its pressure floor after its lead in one solve, as a junction
+/// held at the floor without a lead does. Like an emitter's, the outflow's derivative
+/// dq/dH = 1/L′(q) joins the junction's diagonal (Giustolisi, Savic & Kapelan, 2008, as for
+/// [`PressureDependence`]). L is odd and rising, so q has the sign of H − `outlet_head_m`: a
+/// head below the outlet's would push water back into the main, which the fire-flow search
+/// reads as no flow.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct LeadOutflow {
+    pub junction: usize,
+    /// Head at the hydrant's outlet, after its lead, m.
+    pub outlet_head_m: f64,
+    pub lead: LinkLaw,
+}
+
+/// Bisection-safeguarded Newton steps at most for [`LeadOutflow::outflow`].
+const OUTFLOW_STEPS: usize = 100;
+
+impl LeadOutflow {
+    /// The outflow at head `head_m` (m³/s) and its derivative d/dH (m²/s).
+    pub fn outflow(&self, head_m: f64) -> (f64, f64) {
+        let drop = head_m - self.outlet_head_m;
+        if !drop.is_finite() {
+            return (0.0, 0.0);
+        }
+        let target = drop.abs();
+        // Bracket [0, hi] with L(hi) ≥ target, then Newton steps kept inside it.
+        let (mut lo, mut hi) = (0.0_f64, 1.0e-3_f64);
+        while self.lead.headloss(hi) < target && hi < 1.0e6 {
+            lo = hi;
+            hi *= 2.0;
+        }
+        let mut q = hi;
+        for _ in 0..OUTFLOW_STEPS {
+            let (loss, slope) = self.lead.evaluate(q);
+            let phi = loss - target;
+            if phi > 0.0 {
+                hi = q;
+            } else {
+                lo = q;
+            }
+            if phi == 0.0 || hi - lo <= 1e-15 * hi.max(1e-12) {
+                break;
+            }
+            let newton = q - phi / slope;
+            q = if newton > lo && newton < hi {
+                newton
+            } else {
+                0.5 * (lo + hi)
+            };
+        }
+        let slope = self.lead.evaluate(q).1;
+        (q.copysign(drop), 1.0 / slope)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -223,6 +280,27 @@ mod tests {
             let h = 1e-6;
             let fd = (rel.fraction(p + h).0 - rel.fraction(p - h).0) / (2.0 * h);
             assert!((rel.fraction(p).1 - fd).abs() < 1e-5, "at {p}");
+        }
+    }
+
+    /// Through a minor-loss lead L(q) = m·|q|·q the outflow at a head drop d above the outlet
+    /// is √(d/m), with derivative 1/(2·m·q) (algebra on the law; common practice, no source).
+    /// Below the outlet's head the flow reverses.
+    #[test]
+    fn a_lead_outflow_inverts_the_leads_law() {
+        let m = 2000.0;
+        let e = LeadOutflow {
+            junction: 0,
+            outlet_head_m: 50.0,
+            lead: crate::hydraulics::laws::LinkLaw::MinorLoss { m },
+        };
+        for d in [0.5, 3.0, 12.0] {
+            let (q, slope) = e.outflow(50.0 + d);
+            let exact = (d / m).sqrt();
+            assert!((q - exact).abs() <= 1e-12 * exact, "{d}: {q} vs {exact}");
+            assert!((slope - 1.0 / (2.0 * m * exact)).abs() <= 1e-9 * slope);
+            let (back, _) = e.outflow(50.0 - d);
+            assert!((back + exact).abs() <= 1e-12 * exact);
         }
     }
 }

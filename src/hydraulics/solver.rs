@@ -23,7 +23,7 @@
 use std::sync::Arc;
 
 use super::controls::{self, LinkState, LinkView, MAX_SWITCHES};
-use super::demand::PressureDependence;
+use super::demand::{LeadOutflow, PressureDependence};
 use super::factor::{OrderedPattern, SparseCholesky, SpdFactorization, SymbolicAnalysis};
 use super::laws::{LinkLaw, MIN_SLOPE_S_PER_M2, ZERO_FLOW_M3S};
 use super::SolveError;
@@ -213,6 +213,15 @@ pub struct Workspace {
     outflow_slope: Vec<f64>,
     /// The fixed weights of the continuity residuals in the damped step's merit, 1/(m²/s).
     pdd_weight: Vec<f64>,
+    /// A hydrant held at its outlet head behind a lead (see [`Hydraulics::solve_behind_lead`]).
+    lead_outflow: Option<LeadOutflow>,
+    /// The junction and slope of a lead outflow on the current factorization's diagonal
+    /// (made in a solve behind a lead); a later solve without it corrects for it.
+    factor_outflow: Option<(usize, f64)>,
+    /// Whether this solve's steps take `factor_outflow` back out of the factorization.
+    correct_outflow: bool,
+    /// For that correction: w = F⁻¹e_j (matrix order) and 1 − s·w_j.
+    outflow_w: Option<(Vec<f64>, f64)>,
 }
 
 /// A copy of a workspace's factorization, to start other workspaces from (the fire-flow sweep
@@ -230,8 +239,18 @@ pub struct FactorSnapshot {
 }
 
 impl Workspace {
+    /// Whether some outflow of the current solve depends on its junction's head (a
+    /// pressure-dependent solve, or a hydrant held behind its lead): such solves take the
+    /// damped step and keep Newton's own matrix.
+    fn head_dependent(&self) -> bool {
+        self.pdd.is_some() || self.lead_outflow.is_some()
+    }
+
     /// A copy of the current factorization, if there is one.
     pub fn snapshot(&self) -> Option<FactorSnapshot> {
+        if self.factor_outflow.is_some() {
+            return None;
+        }
         self.factor_key.as_ref().map(|key| FactorSnapshot {
             l_values: self.factor.values().to_vec(),
             g_factored: self.g_factored.clone(),
@@ -249,6 +268,8 @@ impl Workspace {
         self.memo.copy_from_slice(&snapshot.memo);
         self.factor_key = Some(snapshot.key.clone());
         self.border_z = None;
+        self.factor_outflow = None;
+        self.outflow_w = None;
     }
 
     /// Forgets everything earlier solves left that could shape later ones: the factorization
@@ -270,6 +291,8 @@ impl Workspace {
     pub fn forget_factor(&mut self) {
         self.factor_key = None;
         self.border_z = None;
+        self.factor_outflow = None;
+        self.outflow_w = None;
     }
 }
 
@@ -627,6 +650,10 @@ impl<'n> Hydraulics<'n> {
             asked: Vec::new(),
             outflow_slope: Vec::new(),
             pdd_weight: Vec::new(),
+            lead_outflow: None,
+            factor_outflow: None,
+            correct_outflow: false,
+            outflow_w: None,
         }
     }
 
@@ -640,7 +667,11 @@ impl<'n> Hydraulics<'n> {
     /// solve); `None` when there is none. This is the sensitivity of the last state to a
     /// demand: one solve with the factorization already made.
     pub fn demand_response(&self, ws: &mut Workspace, node: usize) -> Option<(Vec<f64>, Vec<f64>)> {
-        if ws.factor_key.is_none() || node >= self.n_junctions || ws.pinned[node].is_some() {
+        if ws.factor_key.is_none()
+            || ws.factor_outflow.is_some()
+            || node >= self.n_junctions
+            || ws.pinned[node].is_some()
+        {
             return None;
         }
         ws.response.iter_mut().for_each(|v| *v = 0.0);
@@ -762,6 +793,49 @@ impl<'n> Hydraulics<'n> {
         result
     }
 
+    /// Solves `request` with the hydrant of `outflow` drawing, beyond its junction's demand,
+    /// whatever flow puts its outlet at `outflow.outlet_head_m` after its lead (see
+    /// [`LeadOutflow`]): in one solve, the flow a hydrant behind a lead draws with its outlet
+    /// at a pressure floor. Steps are taken as in [`Hydraulics::solve_pressure_dependent`]
+    /// (the outflow's slope on the diagonal, Newton's own matrix, the damped step), and the
+    /// flow drawn is the solution's `fixed_head_outflow_m3s`, converged to the flow
+    /// tolerance or 0.1 % of itself as a held junction's is. The factorization is fresh at
+    /// the start; the last one is kept with the outflow's slope noted, which later solves
+    /// without the outflow take back out of it (see `solve_factored`).
+    pub fn solve_behind_lead(
+        &self,
+        ws: &mut Workspace,
+        request: &SolveRequest<'_>,
+        outflow: &LeadOutflow,
+        start: &Solution,
+    ) -> Result<Solution, SolveError> {
+        ws.forget_factor();
+        ws.lead_outflow = Some(*outflow);
+        let result = self.solve(ws, request, start);
+        ws.lead_outflow = None;
+        if result.is_err() {
+            ws.forget_factor();
+        }
+        result
+    }
+
+    /// Each junction's outflow at head `head_m` in a head-dependent solve, and its derivative
+    /// d/dH: the customer and extra demands asked (delivered in part in a pressure-dependent
+    /// solve), plus a lead outflow's flow at its junction; m³/s and m²/s.
+    fn outflow_at(&self, ws: &Workspace, j: usize, head_m: f64) -> (f64, f64) {
+        let asked = ws.asked[j];
+        let (mut q, mut slope) = match &ws.pdd {
+            Some(pdd) => self.delivered_at(pdd, asked, j, head_m),
+            None => (asked.0 + asked.1, 0.0),
+        };
+        if let Some(e) = ws.lead_outflow.filter(|e| e.junction == j) {
+            let (qe, se) = e.outflow(head_m);
+            q += qe;
+            slope += se;
+        }
+        (q, slope)
+    }
+
     /// Each junction's customer demand and extra demand asked by `request`, m³/s.
     fn asked_demands(&self, request: &SolveRequest<'_>) -> Vec<(f64, f64)> {
         let mut asked: Vec<(f64, f64)> = (0..self.n_junctions)
@@ -842,6 +916,10 @@ impl<'n> Hydraulics<'n> {
                 let now = self.imbalance(j, &it.flows, &ws.demand);
                 step_q = step_q.max((now - *q).abs());
                 *q = now;
+            } else if let (Some(e), Some(q)) = (ws.lead_outflow, it.drawn.as_mut()) {
+                let now = e.outflow(it.heads[e.junction]).0;
+                step_q = step_q.max((now - *q).abs());
+                *q = now;
             }
             if self.converged(ws, &mut it, iteration, step_h, step_q, factored_now) {
                 if !self.switch_controls(request, &mut it) {
@@ -874,7 +952,7 @@ impl<'n> Hydraulics<'n> {
         for &(j, q) in request.extra_demand {
             ws.demand[j] += q;
         }
-        if ws.pdd.is_some() {
+        if ws.head_dependent() {
             ws.asked = self.asked_demands(request);
             ws.outflow_slope = vec![0.0; nj];
             ws.pdd_weight.clear();
@@ -882,7 +960,10 @@ impl<'n> Hydraulics<'n> {
         // A junction held at a head is pinned there like the junction a PRV regulates; the
         // flow it draws beyond its demand follows from continuity after every step.
         let held = request.fixed_head.map(|(j, _)| j);
-        let drawn = held.map(|j| self.imbalance(j, &start.flows_m3s, &ws.demand));
+        let drawn = match ws.lead_outflow {
+            Some(e) => Some(e.outflow(start.heads_m[e.junction]).0),
+            None => held.map(|j| self.imbalance(j, &start.flows_m3s, &ws.demand)),
+        };
         // No step yet: the first matrix floors slopes at the full floor flow.
         ws.flow_step
             .iter_mut()
@@ -952,8 +1033,17 @@ impl<'n> Hydraulics<'n> {
             },
             _ => (false, None),
         };
+        // A factorization with a lead outflow's slope on its diagonal serves the solves behind
+        // that lead, and the others with the slope taken back out (see `solve_factored`).
+        let reusable = reusable
+            && match (ws.factor_outflow, ws.lead_outflow) {
+                (Some((j, _)), Some(e)) => j == e.junction,
+                (None, Some(_)) => false,
+                (_, None) => true,
+            };
         it.need_factor = !reusable;
         ws.border_at = if reusable { border } else { None };
+        ws.correct_outflow = reusable && ws.lead_outflow.is_none() && ws.factor_outflow.is_some();
         Ok(())
     }
 
@@ -979,7 +1069,7 @@ impl<'n> Hydraulics<'n> {
     #[inline]
     fn junction_terms(&self, ws: &mut Workspace, it: &Iterate) -> bool {
         let heads = &it.heads;
-        let pdd = ws.pdd;
+        let head_dependent = ws.head_dependent();
         let mut any_pinned = false;
         for j in 0..self.n_junctions {
             ws.node_step[j] = match ws.pinned[j] {
@@ -989,10 +1079,10 @@ impl<'n> Hydraulics<'n> {
                 }
                 None => 0.0,
             };
-            if let Some(pdd) = &pdd {
-                // Pressure-dependent outflow at the current head (see
-                // `solve_pressure_dependent`); its slope joins the diagonal in `fixed_rows`.
-                let (q, slope) = self.delivered_at(pdd, ws.asked[j], j, heads[j]);
+            if head_dependent {
+                // Head-dependent outflow at the current head (see `solve_pressure_dependent`
+                // and `solve_behind_lead`); its slope joins the diagonal in `fixed_rows`.
+                let (q, slope) = self.outflow_at(ws, j, heads[j]);
                 ws.demand[j] = q;
                 ws.outflow_slope[j] = slope;
             }
@@ -1010,7 +1100,7 @@ impl<'n> Hydraulics<'n> {
         // Slopes are floored in the solves of a fire-flow search only: a steady state reported
         // as such (tolerance STEADY) and a pressure-dependent one, whose damped step needs
         // Newton's own direction, keep Newton's matrix.
-        let floor_slopes = ws.pdd.is_none() && ws.tolerance.head_m > Tolerance::STEADY.head_m;
+        let floor_slopes = !ws.head_dependent() && ws.tolerance.head_m > Tolerance::STEADY.head_m;
         for i in 0..self.ends.len() {
             let (a, b) = self.ends[i];
             let q = it.flows[i];
@@ -1095,7 +1185,7 @@ impl<'n> Hydraulics<'n> {
     /// its diagonal, and each pinned junction's identity row with its step as right-hand side.
     #[inline]
     fn fixed_rows(&self, ws: &mut Workspace, need_factor: bool, any_pinned: bool) {
-        if need_factor && ws.pdd.is_some() {
+        if need_factor && ws.head_dependent() {
             for j in 0..self.n_junctions {
                 ws.values[self.diag_slot[j]] += ws.outflow_slope[j];
             }
@@ -1138,12 +1228,14 @@ impl<'n> Hydraulics<'n> {
             ws.factor_key = Some((it.held, it.states.clone()));
             ws.border_at = None;
             ws.border_z = None;
+            ws.factor_outflow = ws
+                .lead_outflow
+                .map(|e| (e.junction, ws.outflow_slope[e.junction]));
+            ws.outflow_w = None;
+            ws.correct_outflow = false;
             it.factorizations += 1;
         }
-        match ws.border_at {
-            Some(h) => self.solve_bordered(ws, h),
-            None => ws.factor.solve_in_place(&mut ws.rhs),
-        }
+        self.solve_factored(ws);
         self.couple_regulating_valves(ws, it);
         let mut full_step_h = 0.0_f64;
         for j in 0..nj {
@@ -1166,11 +1258,40 @@ impl<'n> Hydraulics<'n> {
     /// Solves `v` in place with the factorization of this step (bordered when it has one).
     fn solve_current(&self, ws: &mut Workspace, v: &mut Vec<f64>) {
         std::mem::swap(&mut ws.rhs, v);
+        self.solve_factored(ws);
+        std::mem::swap(&mut ws.rhs, v);
+    }
+
+    /// Solves `ws.rhs` in place with the current factorization: bordered when it has a
+    /// border, and with a lead outflow's slope s at junction j taken back out of it when this
+    /// solve has none. The matrix is then A = F − s·e_j·e_jᵀ, F the factorized one, and by
+    /// the Sherman-Morrison formula A⁻¹r = F⁻¹r + w·s·(F⁻¹r)_j/(1 − s·w_j) with w = F⁻¹e_j,
+    /// once per factorization (Golub & Van Loan, *Matrix Computations*, 4th ed., 2013,
+    /// §2.1.4 — from memory). A solve that verifies a flow placed behind a lead thus starts
+    /// with chord steps on the held solve's last factorization, as one after a pinned
+    /// junction does.
+    fn solve_factored(&self, ws: &mut Workspace) {
         match ws.border_at {
             Some(h) => self.solve_bordered(ws, h),
             None => ws.factor.solve_in_place(&mut ws.rhs),
         }
-        std::mem::swap(&mut ws.rhs, v);
+        let Some((j, slope)) = ws.factor_outflow.filter(|_| ws.correct_outflow) else {
+            return;
+        };
+        let row = self.row_of[j];
+        if ws.outflow_w.is_none() {
+            let mut w = vec![0.0; self.n_junctions];
+            w[row] = 1.0;
+            ws.factor.solve_in_place(&mut w);
+            let denominator = 1.0 - slope * w[row];
+            ws.outflow_w = Some((w, denominator));
+        }
+        if let Some((w, denominator)) = &ws.outflow_w {
+            let scale = slope * ws.rhs[row] / denominator;
+            for (x, wi) in ws.rhs.iter_mut().zip(w) {
+                *x += wi * scale;
+            }
+        }
     }
 
     /// Couples the flows of regulating PRVs and PSVs into the head step just solved (in
@@ -1353,14 +1474,16 @@ impl<'n> Hydraulics<'n> {
         let nl = self.ends.len();
         // Steps that shrink at least twofold need no line search: the iteration contracts.
         let contracting = full_step_h < 0.5 * it.previous_step;
-        let search = ws.pdd.is_none()
+        let search = !ws.head_dependent()
             && !it.continuity_pending
             && full_step_h > LINE_SEARCH_MIN_STEP_M
             && !contracting;
         if search {
             self.compute_flow_step(ws);
         }
-        if ws.pdd.is_some() {
+        // A lead outflow alone is a smooth, rising outflow (a pipe to a fixed outlet head):
+        // a contracting step needs no damping there, as in a demand-driven solve.
+        if ws.head_dependent() && !(ws.pdd.is_none() && contracting) {
             return self.take_pdd_step(ws, it, factored_now);
         }
         let alpha = if search {
@@ -1468,9 +1591,9 @@ impl<'n> Hydraulics<'n> {
     /// ½‖F‖² of [`Hydraulics::take_pdd_step`] at step length `alpha` along the current step.
     fn pdd_merit(&self, ws: &Workspace, it: &Iterate, alpha: f64) -> f64 {
         let nj = self.n_junctions;
-        let Some(pdd) = &ws.pdd else {
+        if !ws.head_dependent() {
             return 0.0;
-        };
+        }
         let head = |n: usize| -> f64 {
             if n >= nj {
                 self.source_grade[n]
@@ -1481,7 +1604,7 @@ impl<'n> Hydraulics<'n> {
             }
         };
         let mut residual: Vec<f64> = (0..nj)
-            .map(|j| -self.delivered_at(pdd, ws.asked[j], j, head(j)).0)
+            .map(|j| -self.outflow_at(ws, j, head(j)).0)
             .collect();
         let mut total = 0.0;
         for (i, &(a, b)) in self.ends.iter().enumerate() {
