@@ -498,3 +498,78 @@ fn colebrook_matches_the_fluids_fixture() {
         );
     }
 }
+
+#[test]
+fn a_hydrant_behind_a_lead_draws_what_puts_its_outlet_at_the_held_head() {
+    // Closed form: reservoir R (grade G) → pipe P (r_P) → junction J, a lead of resistance r_L
+    // to a hydrant whose outlet is held at head H_o. The flow q through both satisfies
+    // G − r_P·q^1.852 − r_L·q^1.852 = H_o (continuity and the Hazen-Williams law, Williams &
+    // Hazen 1920), so q = ((G − H_o)/(r_P + r_L))^(1/1.852). With a loop J–K–R beside it (a
+    // junction system of more than one row) the outlet relation H_J − r_L·q^1.852 = H_o is
+    // checked instead. Then an ordinary solve with q as J's demand, started from the held state on the held
+    // solve's last factorization (the lead's slope taken back out of it), must reach the
+    // heads of a solve started cold, to the steady tolerance.
+    use firemain::hydraulics::demand::LeadOutflow;
+    use firemain::hydraulics::laws::LinkLaw;
+    use firemain::hydraulics::{Hydraulics, SolveRequest};
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 100.0)
+        .junction("J", 40.0, 0.0)
+        .pipe("P", "R", "J", 1000.0, 200.0, 130.0);
+    let net = f.load();
+    let h = Hydraulics::new(&net).expect("hydraulics");
+    let mut ws = h.workspace();
+    let r_p = hw_resistance(1000.0, 0.2, 130.0);
+    let r_l = hw_resistance(15.0, 0.15, 100.0);
+    let outlet = 70.0;
+    let outflow = LeadOutflow {
+        junction: 0,
+        outlet_head_m: outlet,
+        lead: LinkLaw::HazenWilliams { r: r_l, m: 0.0 },
+    };
+    let request = SolveRequest {
+        demand_factor: 1.0,
+        extra_demand: &[],
+        fixed_head: None,
+    };
+    let held = h
+        .solve_behind_lead(&mut ws, &request, &outflow, &h.cold_start())
+        .expect("held behind the lead");
+    let q = held.fixed_head_outflow_m3s.expect("flow drawn");
+    let exact = ((100.0 - outlet) / (r_p + r_l)).powf(1.0 / 1.852);
+    assert!((q - exact).abs() <= 1e-6 * exact, "{q} vs {exact}");
+    let expected_head = 100.0 - r_p * exact.powf(1.852);
+    assert!((held.heads_m[0] - expected_head).abs() < 1e-4);
+
+    let mut f = NetFiles::si_hw();
+    f.reservoir("R", 100.0)
+        .junction("J", 40.0, 0.0)
+        .junction("K", 45.0, 5.0)
+        .pipe("P", "R", "J", 1000.0, 200.0, 130.0)
+        .pipe("Q", "J", "K", 600.0, 150.0, 110.0)
+        .pipe("S", "R", "K", 800.0, 150.0, 120.0);
+    let net = f.load();
+    let h = Hydraulics::new(&net).expect("hydraulics");
+    let mut ws = h.workspace();
+    let held = h
+        .solve_behind_lead(&mut ws, &request, &outflow, &h.cold_start())
+        .expect("held behind the lead");
+    let q = held.fixed_head_outflow_m3s.expect("flow drawn");
+    // The hydrant's outlet sits at the held head: H_J − r_L·q^1.852 = H_o.
+    assert!((held.heads_m[0] - hw_loss(r_l, q) - outlet).abs() < 1e-4);
+    let demand = [(0, q)];
+    let ordinary = SolveRequest {
+        demand_factor: 1.0,
+        extra_demand: &demand,
+        fixed_head: None,
+    };
+    let reused = h.solve(&mut ws, &ordinary, &held).expect("reused");
+    assert_eq!(
+        reused.factorizations, 0,
+        "the held solve's factorization serves"
+    );
+    let cold = solve(&net, 1.0, &demand);
+    for (a, b) in reused.heads_m.iter().zip(&cold.heads_m) {
+        assert!((a - b).abs() < 1e-5, "{a} vs {b}");
+    }
+}
