@@ -151,13 +151,13 @@ impl PressureDependence {
 }
 
 /// A hydrant behind a lead drawing whatever flow puts its outlet at a head: the outflow q at
-/// junction `junction` with head H solves L(q) = H − `outlet_head_m`, L the lead's loss. Held
-/// that way, the hydrant sits at its pressure floor after its lead in one solve, as a junction
-/// held at the floor without a lead does. Like an emitter's, the outflow's derivative
-/// dq/dH = 1/L′(q) joins the junction's diagonal (Giustolisi, Savic & Kapelan, 2008, as for
-/// [`PressureDependence`]). L is odd and rising, so q has the sign of H − `outlet_head_m`: a
-/// head below the outlet's would push water back into the main, which the fire-flow search
-/// reads as no flow.
+/// junction `junction` with head H satisfies L(q) = H − `outlet_head_m`, L the lead's loss.
+/// Held that way, the hydrant sits at its pressure floor after its lead in one solve, as a
+/// junction held at the floor without a lead does. The solver treats it as a pipe from the
+/// junction to the fixed outlet head (`Hydraulics::solve_behind_lead`); [`LeadOutflow::outflow`]
+/// gives the flow at a head, for a solve's first iterate. L is odd and rising, so q has the
+/// sign of H − `outlet_head_m`: a head below the outlet's would push water back into the main,
+/// which the fire-flow search reads as no flow.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct LeadOutflow {
     pub junction: usize,

@@ -222,6 +222,9 @@ pub struct Workspace {
     correct_outflow: bool,
     /// For that correction: w = F⁻¹e_j (matrix order) and 1 − s·w_j.
     outflow_w: Option<(Vec<f64>, f64)>,
+    /// The lead outflow's linearization of this step, as a link's: its conductance g = 1/L′
+    /// and the known part k of its flow change (see `lead_terms`).
+    lead_gk: (f64, f64),
 }
 
 /// A copy of a workspace's factorization, to start other workspaces from (the fire-flow sweep
@@ -244,6 +247,11 @@ impl Workspace {
     /// damped step and keep Newton's own matrix.
     fn head_dependent(&self) -> bool {
         self.pdd.is_some() || self.lead_outflow.is_some()
+    }
+
+    /// The lead outflow of the current solve and its present flow (`drawn`), if any.
+    fn lead_flow(&self, it: &Iterate) -> Option<(LeadOutflow, f64)> {
+        self.lead_outflow.zip(it.drawn)
     }
 
     /// A copy of the current factorization, if there is one.
@@ -654,6 +662,7 @@ impl<'n> Hydraulics<'n> {
             factor_outflow: None,
             correct_outflow: false,
             outflow_w: None,
+            lead_gk: (0.0, 0.0),
         }
     }
 
@@ -796,12 +805,13 @@ impl<'n> Hydraulics<'n> {
     /// Solves `request` with the hydrant of `outflow` drawing, beyond its junction's demand,
     /// whatever flow puts its outlet at `outflow.outlet_head_m` after its lead (see
     /// [`LeadOutflow`]): in one solve, the flow a hydrant behind a lead draws with its outlet
-    /// at a pressure floor. Steps are taken as in [`Hydraulics::solve_pressure_dependent`]
-    /// (the outflow's slope on the diagonal, Newton's own matrix, the damped step), and the
-    /// flow drawn is the solution's `fixed_head_outflow_m3s`, converged to the flow
-    /// tolerance or 0.1 % of itself as a held junction's is. The factorization is fresh at
-    /// the start; the last one is kept with the outflow's slope noted, which later solves
-    /// without the outflow take back out of it (see `solve_factored`).
+    /// at a pressure floor. The outflow is a pipe from the junction to the fixed outlet head,
+    /// linearised in its flow as the gradient algorithm linearises pipes (see `lead_terms`),
+    /// with its content in the line search; the flow drawn is the solution's
+    /// `fixed_head_outflow_m3s`, converged to the flow tolerance or 0.1 % of itself as a held
+    /// junction's is. The factorization is fresh at the start; the last one is kept with the
+    /// outflow's slope noted, which later solves without the outflow take back out of it (see
+    /// `solve_factored`).
     pub fn solve_behind_lead(
         &self,
         ws: &mut Workspace,
@@ -817,23 +827,6 @@ impl<'n> Hydraulics<'n> {
             ws.forget_factor();
         }
         result
-    }
-
-    /// Each junction's outflow at head `head_m` in a head-dependent solve, and its derivative
-    /// d/dH: the customer and extra demands asked (delivered in part in a pressure-dependent
-    /// solve), plus a lead outflow's flow at its junction; m³/s and m²/s.
-    fn outflow_at(&self, ws: &Workspace, j: usize, head_m: f64) -> (f64, f64) {
-        let asked = ws.asked[j];
-        let (mut q, mut slope) = match &ws.pdd {
-            Some(pdd) => self.delivered_at(pdd, asked, j, head_m),
-            None => (asked.0 + asked.1, 0.0),
-        };
-        if let Some(e) = ws.lead_outflow.filter(|e| e.junction == j) {
-            let (qe, se) = e.outflow(head_m);
-            q += qe;
-            slope += se;
-        }
-        (q, slope)
     }
 
     /// Each junction's customer demand and extra demand asked by `request`, m³/s.
@@ -914,10 +907,6 @@ impl<'n> Hydraulics<'n> {
             self.regulating_valve_flows(ws, &mut it, &mut step_q);
             if let (Some(j), Some(q)) = (it.held, it.drawn.as_mut()) {
                 let now = self.imbalance(j, &it.flows, &ws.demand);
-                step_q = step_q.max((now - *q).abs());
-                *q = now;
-            } else if let (Some(e), Some(q)) = (ws.lead_outflow, it.drawn.as_mut()) {
-                let now = e.outflow(it.heads[e.junction]).0;
                 step_q = step_q.max((now - *q).abs());
                 *q = now;
             }
@@ -1069,7 +1058,6 @@ impl<'n> Hydraulics<'n> {
     #[inline]
     fn junction_terms(&self, ws: &mut Workspace, it: &Iterate) -> bool {
         let heads = &it.heads;
-        let head_dependent = ws.head_dependent();
         let mut any_pinned = false;
         for j in 0..self.n_junctions {
             ws.node_step[j] = match ws.pinned[j] {
@@ -1079,16 +1067,36 @@ impl<'n> Hydraulics<'n> {
                 }
                 None => 0.0,
             };
-            if head_dependent {
-                // Head-dependent outflow at the current head (see `solve_pressure_dependent`
-                // and `solve_behind_lead`); its slope joins the diagonal in `fixed_rows`.
-                let (q, slope) = self.outflow_at(ws, j, heads[j]);
+            if let Some(pdd) = &ws.pdd {
+                // Pressure-dependent outflow at the current head (see
+                // `solve_pressure_dependent`); its slope joins the diagonal in `fixed_rows`.
+                let (q, slope) = self.delivered_at(pdd, ws.asked[j], j, heads[j]);
                 ws.demand[j] = q;
                 ws.outflow_slope[j] = slope;
             }
             ws.rhs[self.row_of[j]] = -ws.demand[j];
         }
+        self.lead_terms(ws, it);
         any_pinned
+    }
+
+    /// A lead outflow's terms, linearised in its flow q as the gradient algorithm linearises a
+    /// pipe's (the outflow is a pipe from its junction to the fixed outlet head H_o): with
+    /// g = 1/L′(q) and k = −(L(q) − (H_j − H_o))·g, the step's flow is q + k + g·ΔH_j, so
+    /// −(q + k) joins the junction's right-hand side and g its diagonal (in `fixed_rows`).
+    /// Linearising q(H_j) instead, Newton's steps swung the junction's head by tens of metres
+    /// where a short lead draws much for a little head.
+    fn lead_terms(&self, ws: &mut Workspace, it: &Iterate) {
+        let Some((e, q)) = ws.lead_flow(it) else {
+            return;
+        };
+        let j = e.junction;
+        let (loss, slope) = e.lead.evaluate(q);
+        let g = 1.0 / slope.max(f64::MIN_POSITIVE);
+        let k = -(loss - (it.heads[j] - e.outlet_head_m)) * g;
+        ws.lead_gk = (g, k);
+        ws.outflow_slope[j] = g;
+        ws.rhs[self.row_of[j]] -= q + k;
     }
 
     /// One pass over the links: conductance g, the known part k of the flow change, the
@@ -1100,7 +1108,7 @@ impl<'n> Hydraulics<'n> {
         // Slopes are floored in the solves of a fire-flow search only: a steady state reported
         // as such (tolerance STEADY) and a pressure-dependent one, whose damped step needs
         // Newton's own direction, keep Newton's matrix.
-        let floor_slopes = !ws.head_dependent() && ws.tolerance.head_m > Tolerance::STEADY.head_m;
+        let floor_slopes = ws.pdd.is_none() && ws.tolerance.head_m > Tolerance::STEADY.head_m;
         for i in 0..self.ends.len() {
             let (a, b) = self.ends[i];
             let q = it.flows[i];
@@ -1474,20 +1482,18 @@ impl<'n> Hydraulics<'n> {
         let nl = self.ends.len();
         // Steps that shrink at least twofold need no line search: the iteration contracts.
         let contracting = full_step_h < 0.5 * it.previous_step;
-        let search = !ws.head_dependent()
+        let search = ws.pdd.is_none()
             && !it.continuity_pending
             && full_step_h > LINE_SEARCH_MIN_STEP_M
             && !contracting;
         if search {
             self.compute_flow_step(ws);
         }
-        // A lead outflow alone is a smooth, rising outflow (a pipe to a fixed outlet head):
-        // a contracting step needs no damping there, as in a demand-driven solve.
-        if ws.head_dependent() && !(ws.pdd.is_none() && contracting) {
+        if ws.pdd.is_some() {
             return self.take_pdd_step(ws, it, factored_now);
         }
         let alpha = if search {
-            match self.line_search(ws, &it.flows, &it.states, factored_now) {
+            match self.line_search(ws, it, factored_now) {
                 Some(alpha) => alpha,
                 None => {
                     // A chord step on a stale factorization that does not descend:
@@ -1503,7 +1509,7 @@ impl<'n> Hydraulics<'n> {
         };
         it.continuity_pending = false;
         let step_h = apply_head_step(ws, it, nj, alpha);
-        let mut step_q = 0.0_f64;
+        let mut step_q = self.step_lead_flow(ws, it, alpha);
         if search {
             for i in 0..nl {
                 let dq = alpha * ws.flow_step[i];
@@ -1521,6 +1527,25 @@ impl<'n> Hydraulics<'n> {
             }
         }
         Some((step_h, step_q))
+    }
+
+    /// The full step of a lead outflow's flow, k + g·ΔH_j (see `lead_terms`), m³/s.
+    fn lead_flow_step(&self, ws: &Workspace, e: LeadOutflow) -> f64 {
+        let (g, k) = ws.lead_gk;
+        k + g * ws.node_step[e.junction]
+    }
+
+    /// Moves a lead outflow's flow by `alpha` of its step; returns the change, m³/s (0 without
+    /// a lead outflow).
+    fn step_lead_flow(&self, ws: &Workspace, it: &mut Iterate, alpha: f64) -> f64 {
+        let Some((e, _)) = ws.lead_flow(it) else {
+            return 0.0;
+        };
+        let dq = alpha * self.lead_flow_step(ws, e);
+        if let Some(q) = it.drawn.as_mut() {
+            *q += dq;
+        }
+        dq.abs()
     }
 
     /// The step of a pressure-dependent solve (see `solve_pressure_dependent`), damped by
@@ -1591,9 +1616,9 @@ impl<'n> Hydraulics<'n> {
     /// ½‖F‖² of [`Hydraulics::take_pdd_step`] at step length `alpha` along the current step.
     fn pdd_merit(&self, ws: &Workspace, it: &Iterate, alpha: f64) -> f64 {
         let nj = self.n_junctions;
-        if !ws.head_dependent() {
+        let Some(pdd) = &ws.pdd else {
             return 0.0;
-        }
+        };
         let head = |n: usize| -> f64 {
             if n >= nj {
                 self.source_grade[n]
@@ -1604,7 +1629,7 @@ impl<'n> Hydraulics<'n> {
             }
         };
         let mut residual: Vec<f64> = (0..nj)
-            .map(|j| -self.outflow_at(ws, j, head(j)).0)
+            .map(|j| -self.delivered_at(pdd, ws.asked[j], j, head(j)).0)
             .collect();
         let mut total = 0.0;
         for (i, &(a, b)) in self.ends.iter().enumerate() {
@@ -1897,16 +1922,19 @@ impl<'n> Hydraulics<'n> {
     /// Step length in (0, 1] along `ws.flow_step` that does not increase the content merit
     /// function (Σ link contents − Σ fixed grade × outflow), by halving after a Newton step;
     /// `None` after a chord step whose full length increases it.
-    fn line_search(
-        &self,
-        ws: &Workspace,
-        flows: &[f64],
-        states: &[LinkState],
-        newton: bool,
-    ) -> Option<f64> {
+    fn line_search(&self, ws: &Workspace, it: &Iterate, newton: bool) -> Option<f64> {
+        let (flows, states) = (&it.flows, &it.states);
         let fixed_head = |node: usize| self.fixed_head(node, ws);
+        // A lead outflow is a link from its junction to the fixed outlet head.
+        let lead = ws
+            .lead_flow(it)
+            .map(|(e, q)| (e, q, self.lead_flow_step(ws, e)));
         let merit = |alpha: f64| -> f64 {
             let mut total = 0.0;
+            if let Some((e, q, dq)) = lead {
+                let q = q + alpha * dq;
+                total += e.lead.content(q) + e.outlet_head_m * q;
+            }
             for (i, l) in self.net.links.iter().enumerate() {
                 if !states[i].conducts() || l.from == l.to {
                     continue;
