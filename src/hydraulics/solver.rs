@@ -1096,7 +1096,11 @@ impl<'n> Hydraulics<'n> {
         let k = -(loss - (it.heads[j] - e.outlet_head_m)) * g;
         ws.lead_gk = (g, k);
         ws.outflow_slope[j] = g;
-        ws.rhs[self.row_of[j]] -= q + k;
+        let asked = ws.asked[j].0 + ws.asked[j].1;
+        ws.rhs[self.row_of[j]] = -(asked + q + k);
+        // Continuity at the junction counts the flow drawn (a valve holding this junction
+        // takes its flow from it).
+        ws.demand[j] = asked + q;
     }
 
     /// One pass over the links: conductance g, the known part k of the flow change, the
@@ -1537,13 +1541,15 @@ impl<'n> Hydraulics<'n> {
 
     /// Moves a lead outflow's flow by `alpha` of its step; returns the change, m³/s (0 without
     /// a lead outflow).
-    fn step_lead_flow(&self, ws: &Workspace, it: &mut Iterate, alpha: f64) -> f64 {
+    fn step_lead_flow(&self, ws: &mut Workspace, it: &mut Iterate, alpha: f64) -> f64 {
         let Some((e, _)) = ws.lead_flow(it) else {
             return 0.0;
         };
         let dq = alpha * self.lead_flow_step(ws, e);
         if let Some(q) = it.drawn.as_mut() {
             *q += dq;
+            let asked = ws.asked[e.junction].0 + ws.asked[e.junction].1;
+            ws.demand[e.junction] = asked + *q;
         }
         dq.abs()
     }
