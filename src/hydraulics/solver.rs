@@ -1092,7 +1092,13 @@ impl<'n> Hydraulics<'n> {
         };
         let j = e.junction;
         let (loss, slope) = e.lead.evaluate(q);
-        let g = 1.0 / slope.max(f64::MIN_POSITIVE);
+        // A chord step moves the flow by the conductance the factorization holds, as a pipe's
+        // does (`conductance_and_known`): with a fresh one the step broke continuity at the
+        // junction, and two steps' ratio gave a false rate (an answer came out 0.5 % short).
+        let g = match ws.factor_outflow {
+            Some((at, g)) if !it.need_factor && at == j => g,
+            _ => 1.0 / slope.max(f64::MIN_POSITIVE),
+        };
         let k = -(loss - (it.heads[j] - e.outlet_head_m)) * g;
         ws.lead_gk = (g, k);
         ws.outflow_slope[j] = g;
