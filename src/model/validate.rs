@@ -144,30 +144,63 @@ fn check_pipes(net: &Network, diags: &mut Diagnostics) {
 /// A diameter outside the plausible range of its unit is most often one given in the other
 /// unit system (common practice).
 fn check_diameter_unit(units: UnitSystem, link: &Link, loc: &Location, diags: &mut Diagnostics) {
+    let Some(off) = link.diameter_m().and_then(|d| off_unit_diameter(units, d)) else {
+        return;
+    };
+    diags.warning(
+        loc.clone(),
+        format!("{} `{}`: diameter {off}", link.kind_name(), link.id),
+        diameter_unit_fix(units),
+    );
+}
+
+/// `d_m` as the file gives it, when it lies outside the plausible range of the file's diameter
+/// unit: "8000 in looks like the wrong unit (plausible 1-120; common practice)".
+fn off_unit_diameter(units: UnitSystem, d_m: f64) -> Option<String> {
     let (lo, hi) = match units {
         UnitSystem::Us => PLAUSIBLE_DIAMETER_IN,
         UnitSystem::Si => PLAUSIBLE_DIAMETER_MM,
     };
-    let Some(d) = link.diameter_m() else {
-        return;
-    };
-    let shown = units.from_si(Quantity::Diameter, d);
-    if shown < lo || shown > hi {
-        diags.warning(
-            loc.clone(),
-            format!(
-                "{} `{}`: diameter {} {} looks like the wrong unit (plausible {lo}-{hi}; common practice)",
-                link.kind_name(),
-                link.id,
-                display_value(shown),
-                units.symbol(Quantity::Diameter)
-            ),
-            format!(
-                "diameters are in {} for units = \"{}\"",
-                units.symbol(Quantity::Diameter),
-                units.name()
-            ),
-        );
+    let shown = units.from_si(Quantity::Diameter, d_m);
+    (shown < lo || shown > hi).then(|| {
+        format!(
+            "{} {} looks like the wrong unit (plausible {lo}-{hi}; common practice)",
+            display_value(shown),
+            units.symbol(Quantity::Diameter)
+        )
+    })
+}
+
+fn diameter_unit_fix(units: UnitSystem) -> String {
+    format!(
+        "diameters are in {} for units = \"{}\"",
+        units.symbol(Quantity::Diameter),
+        units.name()
+    )
+}
+
+/// What is implausible about a pipe's or a lead's roughness under the network's head-loss
+/// formula, if anything: a C outside [`PLAUSIBLE_HW_C`], or a Darcy-Weisbach roughness above
+/// [`PLAUSIBLE_RELATIVE_ROUGHNESS`] of the diameter.
+fn implausible_roughness(net: &Network, roughness: f64, diameter_m: f64) -> Option<String> {
+    match net.headloss {
+        HeadlossFormula::HazenWilliams => {
+            let (clo, chi) = PLAUSIBLE_HW_C;
+            (roughness < clo || roughness > chi).then(|| {
+                format!(
+                    "Hazen-Williams C = {} is outside the plausible {clo}-{chi}",
+                    display_value(roughness)
+                )
+            })
+        }
+        HeadlossFormula::DarcyWeisbach => (roughness > PLAUSIBLE_RELATIVE_ROUGHNESS * diameter_m)
+            .then(|| {
+                format!(
+                    "roughness {} {} is more than 5 % of the diameter",
+                    display_value(net.units.from_si(Quantity::Diameter, roughness)),
+                    net.units.symbol(Quantity::Diameter)
+                )
+            }),
     }
 }
 
@@ -179,40 +212,23 @@ fn check_roughness(
     loc: &Location,
     diags: &mut Diagnostics,
 ) {
-    let units = net.units;
-    match net.headloss {
+    let Some(what) = implausible_roughness(net, pipe.roughness, pipe.diameter_m) else {
+        return;
+    };
+    let fix = match net.headloss {
         HeadlossFormula::HazenWilliams => {
-            let (clo, chi) = PLAUSIBLE_HW_C;
-            if pipe.roughness < clo || pipe.roughness > chi {
-                diags.warning(
-                    loc.clone(),
-                    format!(
-                        "pipe `{}`: Hazen-Williams C = {} is outside the plausible {clo}-{chi} (common practice)",
-                        link.id,
-                        display_value(pipe.roughness)
-                    ),
-                    "check the C factor; new PVC is about 150, old unlined cast iron 60-100",
-                );
-            }
+            "check the C factor; new PVC is about 150, old unlined cast iron 60-100".to_string()
         }
-        HeadlossFormula::DarcyWeisbach => {
-            if pipe.roughness > PLAUSIBLE_RELATIVE_ROUGHNESS * pipe.diameter_m {
-                diags.warning(
-                    loc.clone(),
-                    format!(
-                        "pipe `{}`: roughness {} {} is more than 5 % of the diameter (common practice)",
-                        link.id,
-                        display_value(units.from_si(Quantity::Diameter, pipe.roughness)),
-                        units.symbol(Quantity::Diameter)
-                    ),
-                    format!(
-                        "Darcy-Weisbach roughness is in {}, the diameter unit",
-                        units.symbol(Quantity::Diameter)
-                    ),
-                );
-            }
-        }
-    }
+        HeadlossFormula::DarcyWeisbach => format!(
+            "Darcy-Weisbach roughness is in {}, the diameter unit",
+            net.units.symbol(Quantity::Diameter)
+        ),
+    };
+    diags.warning(
+        loc.clone(),
+        format!("pipe `{}`: {what} (common practice)", link.id),
+        fix,
+    );
 }
 
 /// Warns about junctions above the highest grade of every source they can reach without a pump.
@@ -293,49 +309,19 @@ fn check_hydrant_mains(net: &Network, diags: &mut Diagnostics) {
 /// Warns about a hydrant lead whose diameter looks like the wrong unit or whose roughness is
 /// implausible, by the pipes' rules (common practice, no source).
 fn check_hydrant_leads(net: &Network, diags: &mut Diagnostics) {
-    let units = net.units;
-    let (lo, hi) = match units {
-        UnitSystem::Us => PLAUSIBLE_DIAMETER_IN,
-        UnitSystem::Si => PLAUSIBLE_DIAMETER_MM,
-    };
-    let dia = units.symbol(Quantity::Diameter);
     for h in &net.hydrants {
         let Some(lead) = &h.lateral else {
             continue;
         };
         let at = Location::line("hydrants.csv", h.line);
-        let shown = units.from_si(Quantity::Diameter, lead.diameter_m);
-        if shown < lo || shown > hi {
+        if let Some(off) = off_unit_diameter(net.units, lead.diameter_m) {
             diags.warning(
                 at.clone(),
-                format!(
-                    "hydrant `{}`: lateral_diameter {} {dia} looks like the wrong unit (plausible {lo}-{hi}; common practice)",
-                    h.id,
-                    display_value(shown)
-                ),
-                format!("diameters are in {dia} for units = \"{}\"", units.name()),
+                format!("hydrant `{}`: lateral_diameter {off}", h.id),
+                diameter_unit_fix(net.units),
             );
         }
-        let (clo, chi) = PLAUSIBLE_HW_C;
-        let implausible = match net.headloss {
-            HeadlossFormula::HazenWilliams => {
-                (lead.roughness < clo || lead.roughness > chi).then(|| {
-                    format!(
-                        "Hazen-Williams C = {} is outside the plausible {clo}-{chi}",
-                        display_value(lead.roughness)
-                    )
-                })
-            }
-            HeadlossFormula::DarcyWeisbach => {
-                (lead.roughness > PLAUSIBLE_RELATIVE_ROUGHNESS * lead.diameter_m).then(|| {
-                    format!(
-                        "roughness {} {dia} is more than 5 % of the diameter",
-                        display_value(units.from_si(Quantity::Diameter, lead.roughness))
-                    )
-                })
-            }
-        };
-        if let Some(what) = implausible {
+        if let Some(what) = implausible_roughness(net, lead.roughness, lead.diameter_m) {
             diags.warning(
                 at,
                 format!("hydrant `{}`: the lead's {what} (common practice)", h.id),
