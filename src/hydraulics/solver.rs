@@ -950,7 +950,7 @@ impl<'n> Hydraulics<'n> {
         // flow it draws beyond its demand follows from continuity after every step.
         let held = request.fixed_head.map(|(j, _)| j);
         let drawn = match ws.lead_outflow {
-            Some(e) => Some(e.outflow(start.heads_m[e.junction]).0),
+            Some(e) => Some(e.outflow(start.heads_m[e.junction])),
             None => held.map(|j| self.imbalance(j, &start.flows_m3s, &ws.demand)),
         };
         // No step yet: the first matrix floors slopes at the full floor flow.
