@@ -7,8 +7,8 @@ use firemain::fireflow::{HydrantResult, LimitedBy, FLOOR_TOLERANCE_KPA};
 use firemain::hydraulics::Tolerance;
 use firemain::model::Network;
 use netkit::{
-    criteria, criteria_with_limits, fire_sweep, hw_resistance, NetFiles, KPA_PER_M, KPA_PER_PSI,
-    M3S_PER_GPM, M_PER_FT, M_PER_IN,
+    bisect, criteria, criteria_with_limits, fire_sweep, hw_resistance, NetFiles, KPA_PER_M,
+    KPA_PER_PSI, M3S_PER_GPM, M_PER_FT, M_PER_IN,
 };
 
 /// The residual floor, psi: hydrants are rated at 20 psi residual (NFPA 291, Recommended
@@ -113,20 +113,6 @@ fn single_pipe_hydrant_flow_matches_closed_form() {
     }
 }
 
-/// The root in [0, hi] of a decreasing `f` with f(0) > 0 > f(hi), by bisection to round-off.
-fn decreasing_root(f: impl Fn(f64) -> f64, hi: f64) -> f64 {
-    let (mut lo, mut hi) = (0.0, hi);
-    for _ in 0..200 {
-        let mid = 0.5 * (lo + hi);
-        if f(mid) > 0.0 {
-            lo = mid;
-        } else {
-            hi = mid;
-        }
-    }
-    lo
-}
-
 #[test]
 fn hydrant_lead_lowers_the_available_flow_to_its_closed_form() {
     // Closed form: as `single_pipe_hydrant_flow_matches_closed_form`, with a lead of resistance
@@ -154,7 +140,7 @@ fn hydrant_lead_lowers_the_available_flow_to_its_closed_form() {
         let room = |q: f64, extra: f64| {
             head + extra - r * (q + background).powf(1.852) - r_lead * q.powf(1.852)
         };
-        let exact_at = |extra: f64| decreasing_root(|q| room(q, extra), 1.0);
+        let exact_at = |extra: f64| bisect(0.0, 1.0, |q| room(q, extra));
         let exact = exact_at(0.0);
         if demand_gpm == 0.0 {
             let closed = flow_for_head(r + r_lead, head);
