@@ -1144,3 +1144,71 @@ fn hydrant_leads_are_imported_in_the_networks_units_and_checked() {
         assert!(!dir.join("bad").exists());
     }
 }
+
+#[test]
+fn values_the_network_reader_refuses_are_reported_before_anything_is_written() {
+    // The bounds are the network reader's own (docs/network-format.md: diameters between 1 mm
+    // and 10 m, lengths at most 100 km, grades within 10 km): common practice, no source.
+    let tmp = tempfile::tempdir().expect("tempdir");
+    let dir = tmp.path();
+    small_layers(dir);
+    let run = |pipes: &str, sources: &str, out: &str| {
+        let o = import(
+            dir,
+            &[
+                ("--pipes", pipes),
+                ("--sources", sources),
+                ("--mapping", "mapping.toml"),
+                ("--out", out),
+            ],
+        );
+        assert!(!dir.join(out).exists(), "{out} was written");
+        o
+    };
+    // A diameter in the wrong unit is refused at its feature, once for the whole line.
+    let text = read(&dir.join("pipes.geojson")).replacen("\"DIAM_IN\":6", "\"DIAM_IN\":2000", 1);
+    std::fs::write(dir.join("big.geojson"), text).expect("written");
+    let o = run("big.geojson", "sources.geojson", "n1");
+    assert_refused(
+        &o,
+        "big.geojson: error: feature 3 (id `D`): the diameter 2000 in is not between",
+    );
+    // A line 400,000 ft long (coordinates in the wrong unit): the pipe the reader would
+    // refuse is named by its row, at the pipes layer.
+    let text = read(&dir.join("pipes.geojson")).replacen("[300.0,0.0]", "[400000.0,0.0]", 1);
+    std::fs::write(dir.join("long.geojson"), text).expect("written");
+    let o = run("long.geojson", "sources.geojson", "n2");
+    assert_refused(
+        &o,
+        "long.geojson: error: the imported pipes.csv would be refused when read (its row `D,",
+    );
+    // As docs/gis.md §1 quotes it.
+    assert!(String::from_utf8_lossy(&o.stderr).contains(
+        "the imported pipes.csv would be refused when read (its row `D,J-0003,J-0004,399800,6,150,0,open,PVC`): `length` 399800 ft is beyond any water main between two junctions (firemain accepts at most 328084 ft); fix: correct the feature in the GIS or the mapping; the reader says: "
+    ));
+    // A grade beyond any water system, at the sources layer.
+    let text = read(&dir.join("sources.geojson")).replacen("\"HGL\":300", "\"HGL\":1e7", 1);
+    std::fs::write(dir.join("grade.geojson"), text).expect("written");
+    let o = run("pipes.geojson", "grade.geojson", "n3");
+    assert_refused(
+        &o,
+        "grade.geojson: error: the imported sources.csv would be refused when read (its row `R1,",
+    );
+    // A point table's value is refused at its cell: 1e9 gpm (3.8e6 m³/s) at a junction.
+    std::fs::write(dir.join("demands.csv"), "x,y,demand\n0,0,5\n100,0,1e9\n").expect("written");
+    let o = import(
+        dir,
+        &[
+            ("--pipes", "pipes.geojson"),
+            ("--sources", "sources.geojson"),
+            ("--demands", "demands.csv"),
+            ("--mapping", "mapping.toml"),
+            ("--out", "n4"),
+        ],
+    );
+    assert_refused(
+        &o,
+        "demands.csv:3:3: error: `demand` 1e9 gpm is beyond any water system",
+    );
+    assert!(!dir.join("n4").exists());
+}

@@ -16,8 +16,8 @@ use super::network::{
     Pipe, PipeStatus, Pump, TankStorage, Valve, ValveKind, ValveStatus, DEFAULT_LATERAL_C,
     DEFAULT_LATERAL_ROUGHNESS_M,
 };
-use super::table::{read_table, Cell, Cells, Row, Table, TableSpec};
-use super::toml_input::{read_toml, span_location};
+use super::table::{parse_table, read_table, Cell, Cells, Row, Table, TableSpec};
+use super::toml_input::{parse_toml, read_toml, span_location};
 use super::{
     HYDRANTS_FILE, JUNCTIONS_FILE, MODEL_FILE, PIPES_FILE, PUMPS_FILE, SOURCES_FILE, VALVES_FILE,
 };
@@ -151,6 +151,40 @@ pub struct Loaded {
     pub diagnostics: Diagnostics,
 }
 
+/// Where a network's files are read from: a folder, or files held in memory (a network about
+/// to be written, checked before any of it is).
+#[derive(Clone, Copy)]
+enum Files<'a> {
+    Folder(&'a Path),
+    Memory(&'a [(String, Vec<u8>)]),
+}
+
+impl Files<'_> {
+    fn has(&self, name: &str) -> bool {
+        match self {
+            Files::Folder(dir) => dir.join(name).exists(),
+            Files::Memory(files) => files.iter().any(|(n, _)| n == name),
+        }
+    }
+
+    fn table(&self, name: &str, spec: &TableSpec<'_>, diags: &mut Diagnostics) -> Option<Table> {
+        match self {
+            Files::Folder(dir) => read_table(&dir.join(name), name, spec, diags),
+            Files::Memory(files) => match files.iter().find(|(n, _)| n == name) {
+                Some((_, bytes)) => parse_table(bytes, name, spec, diags),
+                None => {
+                    diags.error(
+                        Location::file(name),
+                        "the file is missing",
+                        "write the file",
+                    );
+                    None
+                }
+            },
+        }
+    }
+}
+
 /// Reads the network folder `dir`. On error, every finding (errors, warnings, notes) is returned.
 pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
     let mut diags = Diagnostics::new();
@@ -165,12 +199,56 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
     let Some((model, model_text)) = read_model(dir, &mut diags) else {
         return Err(diags);
     };
-    let mut reader = Reader::new(model.units, model.headloss.formula(), diags);
-    let demand_factors = reader.demand_factors(&model.demand, &model_text);
-    let n_junctions = reader.read_nodes(dir);
-    reader.read_links(dir, n_junctions);
-    let hydrants = reader.read_hydrants(dir, n_junctions);
+    let (reader, demand_factors, n_junctions, hydrants) =
+        read_rows(Files::Folder(dir), &model, &model_text, diags);
     reader.into_network(model, demand_factors, n_junctions, hydrants)
+}
+
+/// Reads a network's files from their bytes, as (file name, bytes), row by row exactly as
+/// [`load_network`] reads them from a folder, but without its checks of the network as a whole
+/// (supply, connectivity): for a command about to write a network that its user completes
+/// before analysing it (an import whose layers carry no pumps or valves). Every finding on
+/// error.
+pub fn read_network_rows(files: &[(String, Vec<u8>)]) -> Result<(), Diagnostics> {
+    let mut diags = Diagnostics::new();
+    let fix = "a network needs model.toml with name, units, headloss and a [demand] table (see docs/network-format.md)";
+    let Some(text) = files
+        .iter()
+        .find(|(n, _)| n == MODEL_FILE)
+        .and_then(|(_, bytes)| String::from_utf8(bytes.clone()).ok())
+    else {
+        diags.error(
+            Location::file(MODEL_FILE),
+            "the file is missing or not UTF-8",
+            fix,
+        );
+        return Err(diags);
+    };
+    let Some(model) = parse_toml::<ModelFile>(&text, MODEL_FILE, fix, &mut diags) else {
+        return Err(diags);
+    };
+    let (reader, ..) = read_rows(Files::Memory(files), &model, &text, diags);
+    if reader.diags.has_errors() {
+        Err(reader.diags)
+    } else {
+        Ok(())
+    }
+}
+
+/// The reader after every row of every file, with the demand factors, the number of junctions
+/// and the hydrants read.
+fn read_rows(
+    files: Files<'_>,
+    model: &ModelFile,
+    model_text: &str,
+    diags: Diagnostics,
+) -> (Reader, DemandFactors, usize, Vec<Hydrant>) {
+    let mut reader = Reader::new(model.units, model.headloss.formula(), diags);
+    let demand_factors = reader.demand_factors(&model.demand, model_text);
+    let n_junctions = reader.read_nodes(files);
+    reader.read_links(files, n_junctions);
+    let hydrants = reader.read_hydrants(files, n_junctions);
+    (reader, demand_factors, n_junctions, hydrants)
 }
 
 /// Reads model.toml, with its text for the locations of its values; `None` when it cannot be
@@ -227,15 +305,20 @@ impl Reader {
         }
     }
 
-    /// Reads the table `name` of the folder `dir`; `None` when it cannot be read (reported).
-    fn table(&mut self, dir: &Path, name: &str, spec: &TableSpec<'_>) -> Option<Table> {
-        read_table(&dir.join(name), name, spec, &mut self.diags)
+    /// Reads the table `name`; `None` when it cannot be read (reported).
+    fn table(&mut self, files: Files<'_>, name: &str, spec: &TableSpec<'_>) -> Option<Table> {
+        files.table(name, spec, &mut self.diags)
     }
 
-    /// Reads the table `name` when the folder has it: the file is optional.
-    fn optional_table(&mut self, dir: &Path, name: &str, spec: &TableSpec<'_>) -> Option<Table> {
-        if dir.join(name).exists() {
-            self.table(dir, name, spec)
+    /// Reads the table `name` when the network has it: the file is optional.
+    fn optional_table(
+        &mut self,
+        files: Files<'_>,
+        name: &str,
+        spec: &TableSpec<'_>,
+    ) -> Option<Table> {
+        if files.has(name) {
+            self.table(files, name, spec)
         } else {
             None
         }
@@ -244,9 +327,9 @@ impl Reader {
     /// Reads junctions.csv and sources.csv into the nodes, junctions first; returns the number
     /// of junctions (the nodes after them are sources). Both files are read before their rows,
     /// so that whether references to nodes are checked is known before any row is.
-    fn read_nodes(&mut self, dir: &Path) -> usize {
-        let junctions = self.table(dir, JUNCTIONS_FILE, &JUNCTIONS);
-        let sources = self.table(dir, SOURCES_FILE, &SOURCES);
+    fn read_nodes(&mut self, files: Files<'_>) -> usize {
+        let junctions = self.table(files, JUNCTIONS_FILE, &JUNCTIONS);
+        let sources = self.table(files, SOURCES_FILE, &SOURCES);
         self.nodes_unreadable = [&junctions, &sources]
             .iter()
             .any(|t| t.as_ref().is_none_or(|t| t.rows().is_empty()));
@@ -261,21 +344,21 @@ impl Reader {
     }
 
     /// Reads pipes.csv, and pumps.csv and valves.csv where the folder has them, into the links.
-    fn read_links(&mut self, dir: &Path, n_junctions: usize) {
-        if let Some(t) = self.table(dir, PIPES_FILE, &PIPES) {
+    fn read_links(&mut self, files: Files<'_>, n_junctions: usize) {
+        if let Some(t) = self.table(files, PIPES_FILE, &PIPES) {
             self.pipes(&t);
         }
-        if let Some(t) = self.optional_table(dir, PUMPS_FILE, &PUMPS) {
+        if let Some(t) = self.optional_table(files, PUMPS_FILE, &PUMPS) {
             self.pumps(&t);
         }
-        if let Some(t) = self.optional_table(dir, VALVES_FILE, &VALVES) {
+        if let Some(t) = self.optional_table(files, VALVES_FILE, &VALVES) {
             self.valves(&t, n_junctions);
         }
     }
 
     /// Reads hydrants.csv where the folder has it; no hydrants otherwise.
-    fn read_hydrants(&mut self, dir: &Path, n_junctions: usize) -> Vec<Hydrant> {
-        match self.optional_table(dir, HYDRANTS_FILE, &HYDRANTS) {
+    fn read_hydrants(&mut self, files: Files<'_>, n_junctions: usize) -> Vec<Hydrant> {
+        match self.optional_table(files, HYDRANTS_FILE, &HYDRANTS) {
             Some(t) => self.hydrants(&t, n_junctions),
             None => Vec::new(),
         }

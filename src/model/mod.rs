@@ -14,7 +14,7 @@ pub mod toml_input;
 pub mod validate;
 
 pub use diagnostic::{Diagnostic, Diagnostics, Location, Severity};
-pub use load::{load_network, Loaded};
+pub use load::{load_network, read_network_rows, Loaded};
 pub use network::{
     DemandFactors, HeadlossFormula, Hydrant, Lateral, Link, LinkKind, Network, Node, NodeKind,
     Pipe, PipeStatus, Pump, TankStorage, Valve, ValveKind, ValveStatus, DEFAULT_LATERAL_C,

@@ -521,6 +521,21 @@ fn pipe_values(
         roughness * units.roughness_m
     };
     let diameter_m = diameter * units.diameter_m;
+    if !limits::DIAMETER.holds(diameter_m) {
+        // At the feature, once, rather than by the network reader at each piece of the line.
+        let unit = m.diameter_unit;
+        err(
+            format!(
+                "the diameter {} {u} is not between {} and {} {u}",
+                display_value(diameter),
+                display_value(limits::MIN_DIAMETER_M / unit.metres()),
+                display_value(limits::MAX_DIAMETER_M / unit.metres()),
+                u = unit.symbol()
+            ),
+            "check the value and [pipes] diameter_unit in the mapping",
+        );
+        return None;
+    }
     if let Some(problem) =
         implausible_roughness("the roughness", roughness, diameter_m, units.hazen_williams)
     {

@@ -136,6 +136,15 @@ impl FlowUnit {
             FlowUnit::CubicMetresPerSecond => 1.0,
         }
     }
+
+    /// The unit as the mapping spells it.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            FlowUnit::Gpm => "gpm",
+            FlowUnit::LitresPerSecond => "L/s",
+            FlowUnit::CubicMetresPerSecond => "m3/s",
+        }
+    }
 }
 
 /// The pipes layer.

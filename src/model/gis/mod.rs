@@ -136,6 +136,14 @@ pub fn import_geojson(inputs: &ImportInputs<'_>) -> Result<Imported, Diagnostics
     if diags.has_errors() {
         return Err(diags);
     }
+    // The files are read as the network reader will read them, before any is written: a value
+    // it refuses that the layers' own checks let through is reported here, with the row it
+    // would have been, and nothing is written (a folder the tool itself refuses would be a
+    // half-finished output).
+    if let Err(refused) = crate::model::read_network_rows(&network_files) {
+        report_refused_rows(&network_files, &refused, &read, &mut diags);
+        return Err(diags);
+    }
     let summary = Summary {
         name: mapping.network.name.clone(),
         crs,
@@ -154,6 +162,47 @@ pub fn import_geojson(inputs: &ImportInputs<'_>) -> Result<Imported, Diagnostics
         events: b.events,
         summary,
     })
+}
+
+/// The network reader's errors on the rendered files, each at the layer (or mapping) its file
+/// comes from, with the row that was refused: its id names the feature.
+fn report_refused_rows(
+    files: &[(String, Vec<u8>)],
+    refused: &Diagnostics,
+    read: &Inputs,
+    diags: &mut Diagnostics,
+) {
+    use crate::model::diagnostic::Severity;
+    for d in refused.iter().filter(|d| d.severity == Severity::Error) {
+        let file = d.location.file.as_str();
+        let at = match file {
+            crate::model::HYDRANTS_FILE => read.hydrants.as_ref().map(|l| l.at()),
+            crate::model::SOURCES_FILE => read.sources.as_ref().map(|l| l.at()),
+            crate::model::MODEL_FILE => Some(read.mapping_file.whole()),
+            _ => None,
+        }
+        .unwrap_or_else(|| read.pipes.at());
+        let row = d.location.line.and_then(|line| {
+            let (_, bytes) = files.iter().find(|(n, _)| n == file)?;
+            let text = String::from_utf8_lossy(bytes);
+            let row = text
+                .lines()
+                .nth(usize::try_from(line).ok()?.checked_sub(1)?)?;
+            Some(format!(" (its row `{}`)", row.trim()))
+        });
+        diags.error(
+            at,
+            format!(
+                "the imported {file} would be refused when read{}: {}",
+                row.unwrap_or_default(),
+                d.message
+            ),
+            format!(
+                "correct the feature in the GIS or the mapping; the reader says: {}",
+                d.fix.as_deref().unwrap_or("check the value")
+            ),
+        );
+    }
 }
 
 /// The topology, sources, hydrants, elevations and demands; problems go to `diags`.
@@ -937,13 +986,12 @@ fn elevations_from_points(
     diags: &mut Diagnostics,
 ) -> bool {
     let e = &mapping.elevations;
-    let Some(pts) = read_points(path, "elevation", diags) else {
+    let length_unit = e.unit.unwrap_or(default_length(mapping.network.units));
+    let unit = length_unit.metres();
+    let largest = (limits::MAX_ABS_ELEVATION_M / unit, length_unit.symbol());
+    let Some(pts) = read_points(path, "elevation", largest, diags) else {
         return false;
     };
-    let unit = e
-        .unit
-        .unwrap_or(default_length(mapping.network.units))
-        .metres();
     let index = elevation::ElevationPoints::new(&pts);
     let k = e.neighbours.unwrap_or(DEFAULT_IDW_NEIGHBOURS);
     for n in b.nodes.iter_mut().filter(|n| n.source.is_none()) {
@@ -1024,7 +1072,15 @@ fn elevations_from_samples(b: &mut Builder) {
 }
 
 /// Reads a CSV of points with columns x, y and `value`, located diagnostics on error.
-fn read_points(path: &Path, value: &str, diags: &mut Diagnostics) -> Option<Vec<(f64, f64, f64)>> {
+/// The points (x, y, value) of a CSV point table; a value beyond `largest` (its magnitude in
+/// the file's unit, and that unit) is refused at its cell, as the network files would refuse
+/// the junction it goes to.
+fn read_points(
+    path: &Path,
+    value: &str,
+    largest: (f64, &str),
+    diags: &mut Diagnostics,
+) -> Option<Vec<(f64, f64, f64)>> {
     let file = path.display().to_string();
     let known = ["x", "y", value];
     let spec = TableSpec {
@@ -1050,6 +1106,20 @@ fn read_points(path: &Path, value: &str, diags: &mut Diagnostics) -> Option<Vec<
                 }
             }
         }
+        let (bound, unit) = largest;
+        if ok && vals[2].abs() > bound {
+            ok = false;
+            diags.error(
+                table.cell(row, value).location(&file),
+                format!(
+                    "`{value}` {} {unit} is beyond any water system (firemain accepts between {} and {} {unit})",
+                    display_value(vals[2]),
+                    display_value(-bound),
+                    display_value(bound)
+                ),
+                "check the value and the unit the mapping gives the file",
+            );
+        }
         if ok {
             out.push((vals[0], vals[1], vals[2]));
         }
@@ -1059,14 +1129,15 @@ fn read_points(path: &Path, value: &str, diags: &mut Diagnostics) -> Option<Vec<
 
 /// Adds each demand point's demand to the nearest junction.
 fn demands(b: &mut Builder, mapping: &Mapping, path: &Path, diags: &mut Diagnostics) {
-    let Some(pts) = read_points(path, "demand", diags) else {
-        return;
-    };
-    let unit = mapping
+    let flow_unit = mapping
         .demands
         .unit
-        .unwrap_or(default_flow(mapping.network.units))
-        .m3s();
+        .unwrap_or(default_flow(mapping.network.units));
+    let unit = flow_unit.m3s();
+    let largest = (limits::MAX_FLOW_M3S / unit, flow_unit.symbol());
+    let Some(pts) = read_points(path, "demand", largest, diags) else {
+        return;
+    };
     let far = *mapping.coordinates.attach_tolerance.get_ref();
     for (i, &(x, y, q)) in pts.iter().enumerate() {
         let Some((node, d)) = b.nearest_junction([x, y], f64::INFINITY) else {
