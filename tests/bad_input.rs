@@ -1064,15 +1064,16 @@ fn zero_length_pipe_without_minor_loss() {
 
 /// Magnitudes beyond any water system are errors at their cell, in the network's units, and
 /// never printed as hundreds of digits. The limits are firemain's own (docs/network-format.md,
-/// common practice, no source): diameter 1 mm = 0.0393701 in to 10 m = 393.701 in = 10000 mm (1 in = 25.4 mm exactly),
-/// length 100 km = 328084 ft (1 ft = 0.3048 m exactly), demand 100 m³/s = 1585032 gpm =
-/// 100000 L/s (1 US gal = 3.785411784 L exactly), elevation 10 km.
+/// common practice, no source): diameter 1 mm = 0.0393701 in to 10 m = 393.7008 in = 10000 mm (1 in = 25.4 mm exactly),
+/// length 100 km = 328083.99 ft (1 ft = 0.3048 m exactly), demand 100 m³/s = 1585032 gpm =
+/// 100000 L/s (1 US gal = 3.785411784 L exactly), elevation 10 km. A bound is shown rounded
+/// inward to its six digits (393.7 in, 328083 ft), so that the value shown is accepted.
 #[test]
 fn magnitudes_beyond_any_water_system() {
     let us_cases: [(&str, &str, &str, &str, &str); 6] = [
-        ("pipes.csv", "P2,J1,J2,500,8", "P2,J1,J2,500,1e300", "pipes.csv:3:5", "`diameter` 1e300 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.701 in)"),
-        ("pipes.csv", "P2,J1,J2,500,8", "P2,J1,J2,500,0.001", "pipes.csv:3:5", "`diameter` 0.001 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.701 in)"),
-        ("pipes.csv", "P2,J1,J2,500", "P2,J1,J2,400000", "pipes.csv:3:4", "`length` 400000 ft is beyond any water main"),
+        ("pipes.csv", "P2,J1,J2,500,8", "P2,J1,J2,500,1e300", "pipes.csv:3:5", "`diameter` 1e300 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.7 in)"),
+        ("pipes.csv", "P2,J1,J2,500,8", "P2,J1,J2,500,0.001", "pipes.csv:3:5", "`diameter` 0.001 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.7 in)"),
+        ("pipes.csv", "P2,J1,J2,500", "P2,J1,J2,400000", "pipes.csv:3:4", "`length` 400000 ft is beyond any water main between two junctions (firemain accepts at most 328083 ft)"),
         ("junctions.csv", "J2,105,20", "J2,105,1e12", "junctions.csv:3:3", "`demand` 1e12 gpm is beyond any water system (firemain accepts between -1585032 and 1585032 gpm)"),
         ("junctions.csv", "J2,105,20", "J2,-40000,20", "junctions.csv:3:2", "`elevation` -40000 ft is beyond any water system"),
         ("sources.csv", "R1,reservoir,300", "R1,reservoir,1e6", "sources.csv:2:3", "`grade` 1000000 ft is beyond any water system"),
@@ -1088,6 +1089,21 @@ fn magnitudes_beyond_any_water_system() {
         let run = assert_refused(&net, &[(at, says)]);
         assert!(!run.stdout.contains("0000000000"), "{}", run.stdout);
     }
+    // The bounds as shown are accepted.
+    let net = Net::us();
+    net.write(
+        "pipes.csv",
+        PIPES_US.replace("P2,J1,J2,500,8", "P2,J1,J2,328083,393.7"),
+    );
+    let run = validate(&net);
+    assert!(run.stdout.contains("0 error(s)"), "{}", run.stdout);
+    let net = Net::us();
+    net.write(
+        "pipes.csv",
+        PIPES_US.replace("P2,J1,J2,500,8", "P2,J1,J2,500,0.0393701"),
+    );
+    let run = validate(&net);
+    assert!(run.stdout.contains("0 error(s)"), "{}", run.stdout);
     // The same in an SI network: mm, m and L/s.
     let si_cases: [(&str, &str, &str, &str, &str); 2] = [
         ("pipes.csv", "P2,J1,J2,150,200", "P2,J1,J2,150,20000", "pipes.csv:3:5", "`diameter` 20000 mm is beyond any water pipe (firemain accepts between 1 and 10000 mm)"),
@@ -1768,7 +1784,7 @@ fn warning_diameter_in_the_wrong_unit() {
 }
 
 /// A hydrant's lead is read as a pipe is (docs/network-format.md, hydrants.csv): length and
-/// diameter go together, the diameter within 1 mm to 10 m (0.0393701 to 393.701 in: 1 in =
+/// diameter go together, the diameter within 1 mm to 10 m (0.0393701 to 393.7 in shown: 1 in =
 /// 25.4 mm exactly), the C factor within 10 to 200; each error at its cell. A lead diameter in
 /// what looks like the wrong unit, or a C outside 40-160, is a warning, as for pipes (common
 /// practice, no source).
@@ -1784,7 +1800,7 @@ fn hydrant_leads_are_checked_as_pipes_are() {
         (
             "H1,J3,20,0.001,",
             "hydrants.csv:2:4",
-            "`lateral_diameter` 0.001 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.701 in)",
+            "`lateral_diameter` 0.001 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.7 in)",
         ),
         (
             "H1,J3,20,6,300",

@@ -1126,7 +1126,7 @@ fn hydrant_leads_are_imported_in_the_networks_units_and_checked() {
         ),
         (
             vec![("LEAD_LEN", json!(12)), ("LEAD_DIA", json!(0))],
-            "feature 0 (id `H1`): the lateral diameter 0 in is not between 0.0393701 and 393.701 in",
+            "feature 0 (id `H1`): the lateral diameter 0 in is not between 0.0393701 and 393.7 in",
         ),
         (
             vec![
@@ -1184,7 +1184,7 @@ fn values_the_network_reader_refuses_are_reported_before_anything_is_written() {
     );
     // As docs/gis.md §1 quotes it.
     assert!(String::from_utf8_lossy(&o.stderr).contains(
-        "the imported pipes.csv would be refused when read (its row `D,J-0003,J-0004,399800,6,150,0,open,PVC`): `length` 399800 ft is beyond any water main between two junctions (firemain accepts at most 328084 ft); fix: correct the feature in the GIS or the mapping; the reader says: "
+        "the imported pipes.csv would be refused when read (its row `D,J-0003,J-0004,399800,6,150,0,open,PVC`): `length` 399800 ft is beyond any water main between two junctions (firemain accepts at most 328083 ft); fix: correct the feature in the GIS or the mapping; the reader says: "
     ));
     // A grade beyond any water system, at the sources layer.
     let text = read(&dir.join("sources.geojson")).replacen("\"HGL\":300", "\"HGL\":1e7", 1);

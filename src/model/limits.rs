@@ -102,12 +102,36 @@ impl Limit {
         value_si >= self.min_si && value_si <= self.max_si
     }
 
-    fn show(&self, value_si: f64, units: UnitSystem) -> String {
-        let v = match self.quantity {
-            Some(q) => units.from_si(q, value_si),
-            None => value_si,
+    /// One end of the limit as the message shows it, in the file's units.
+    fn show(&self, bound_si: f64, units: UnitSystem) -> String {
+        let si_per_unit = self.quantity.map_or(1.0, |q| units.to_si(q, 1.0));
+        self.show_bound_in(bound_si, si_per_unit)
+    }
+
+    /// One end of the limit (`bound_si`) in a unit of `si_per_unit` SI units, to six digits,
+    /// rounded inward where the digits shown fall outside the limit: 100 km is 328083.99 ft,
+    /// which six digits show as 328084, and a length of 328084 ft is refused; the message says
+    /// 328083, so that the bound it shows is accepted.
+    pub fn show_bound_in(&self, bound_si: f64, si_per_unit: f64) -> String {
+        let in_unit = bound_si / si_per_unit;
+        let shown = display_value(in_unit);
+        let accepted = |text: &str| {
+            text.parse::<f64>()
+                .is_ok_and(|d| self.holds(d * si_per_unit))
         };
-        display_value(v)
+        if accepted(&shown) || !(1.0e-3..1.0e9).contains(&in_unit.abs()) {
+            return shown;
+        }
+        // One unit of the sixth significant digit, toward the inside of the range.
+        let integer_digits = in_unit.abs().log10().floor() as i32 + 1;
+        let step = 10f64.powi(integer_digits - 6);
+        let inward = if bound_si >= self.max_si { -step } else { step };
+        let nudged = display_value(shown.parse::<f64>().unwrap_or(in_unit) + inward);
+        if accepted(&nudged) {
+            nudged
+        } else {
+            shown
+        }
     }
 
     fn unit(&self, units: UnitSystem) -> String {
@@ -217,13 +241,26 @@ mod tests {
 
     #[test]
     fn messages_are_in_the_files_units_and_short() {
-        // 1e300 in: the number is shown with an exponent, the limit in in (10 m = 393.701 in,
-        // from 1 in = 25.4 mm exactly).
+        // 1e300 in: the number is shown with an exponent, the limit in in (10 m = 393.7008 in
+        // from 1 in = 25.4 mm exactly, shown rounded inward so that 393.7 in is accepted).
         let m = DIAMETER.message("diameter", 1e300, UnitSystem::Us);
         assert_eq!(
             m,
-            "diameter 1e300 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.701 in)"
+            "diameter 1e300 in is beyond any water pipe (firemain accepts between 0.0393701 and 393.7 in)"
         );
+        assert!(DIAMETER.holds(393.7 * 0.0254) && !DIAMETER.holds(393.701 * 0.0254));
+        // 100 km = 328083.99 ft and 10 km = 32808.399 ft (1 ft = 0.3048 m exactly): shown
+        // 328083 and ±32808.3, both inside.
+        assert!(PIPE_LENGTH
+            .message("length", 4e5, UnitSystem::Us)
+            .contains("at most 328083 ft"));
+        assert!(ELEVATION
+            .message("elevation", 4e4, UnitSystem::Us)
+            .contains("between -32808.3 and 32808.3 ft"));
+        // docs/criteria-format.md: 100 m/s = 328.08399 ft/s, shown 328.083.
+        assert!(VELOCITY
+            .message("max_velocity", 400.0, UnitSystem::Us)
+            .contains("at most 328.083 ft/s"));
         let m = DEMAND.message("demand", -200_000.0, UnitSystem::Si);
         assert!(
             m.contains("-200000 L/s") && m.contains("between -100000 and 100000 L/s"),

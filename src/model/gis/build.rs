@@ -528,8 +528,8 @@ fn pipe_values(
             format!(
                 "the diameter {} {u} is not between {} and {} {u}",
                 display_value(diameter),
-                display_value(limits::MIN_DIAMETER_M / unit.metres()),
-                display_value(limits::MAX_DIAMETER_M / unit.metres()),
+                limits::DIAMETER.show_bound_in(limits::MIN_DIAMETER_M, unit.metres()),
+                limits::DIAMETER.show_bound_in(limits::MAX_DIAMETER_M, unit.metres()),
                 u = unit.symbol()
             ),
             "check the value and [pipes] diameter_unit in the mapping",

@@ -854,12 +854,12 @@ fn lateral_problem(
     diameter_unit: LengthUnit,
     hazen_williams: bool,
 ) -> Option<String> {
-    let outside = |what: &str, si: f64, unit: LengthUnit, min_si: f64, max_si: f64| {
+    let outside = |what: &str, si: f64, unit: LengthUnit, limit: limits::Limit, min_si: f64| {
         format!(
             "the lateral {what} {} {u} is not between {} and {} {u}",
             display_value(si / unit.metres()),
-            display_value(min_si / unit.metres()),
-            display_value(max_si / unit.metres()),
+            limit.show_bound_in(min_si, unit.metres()),
+            limit.show_bound_in(limit.max_si, unit.metres()),
             u = unit.symbol()
         )
     };
@@ -873,16 +873,16 @@ fn lateral_problem(
             "length",
             length_m,
             length_unit,
+            limits::PIPE_LENGTH,
             0.0,
-            limits::MAX_PIPE_LENGTH_M,
         ))
     } else if !limits::DIAMETER.holds(diameter_m) {
         Some(outside(
             "diameter",
             diameter_m,
             diameter_unit,
+            limits::DIAMETER,
             limits::MIN_DIAMETER_M,
-            limits::MAX_DIAMETER_M,
         ))
     } else {
         roughness.and_then(|r| {
