@@ -1114,6 +1114,59 @@ fn hydrant_leads_are_imported_in_the_networks_units_and_checked() {
         "validate",
         &dir.join("n1").display().to_string(),
     ]));
+    // With `default_lateral_diameter`, a hydrant without lead attributes gets a lead from its
+    // junction on the main to its position: H2 at (200, 2) on the junction at (200, 0), 2 ft
+    // (plane geometry; common practice, no source), reported as guessed. H1 keeps its own.
+    std::fs::write(
+        dir.join("default-lead.toml"),
+        mapping.replace(
+            "lateral_roughness = \"LEAD_C\"",
+            "lateral_roughness = \"LEAD_C\"\ndefault_lateral_diameter = 6",
+        ),
+    )
+    .expect("written");
+    let o = import(
+        dir,
+        &[
+            ("--pipes", "pipes.geojson"),
+            ("--sources", "sources.geojson"),
+            ("--hydrants", "leads.geojson"),
+            ("--mapping", "default-lead.toml"),
+            ("--out", "n2"),
+        ],
+    );
+    ok(&o);
+    assert_eq!(
+        data_lines(&dir.join("n2/hydrants.csv"))[1..],
+        ["H1,J-0001,,,100,2,40,6,120", "H2,J-0003,,,200,2,2,6,"]
+    );
+    let report = read(&dir.join("n2/import.md"));
+    assert!(report.contains(
+        "no lead attributes: a lead of 0.6096 m (the hydrant's distance to the main) and the default diameter 6 in"
+    ), "{report}");
+    // A default the network files would refuse is an error at its line and column.
+    std::fs::write(
+        dir.join("bad-default.toml"),
+        mapping.replace(
+            "lateral_roughness = \"LEAD_C\"",
+            "lateral_roughness = \"LEAD_C\"\ndefault_lateral_diameter = 0",
+        ),
+    )
+    .expect("written");
+    let o = import(
+        dir,
+        &[
+            ("--pipes", "pipes.geojson"),
+            ("--hydrants", "leads.geojson"),
+            ("--mapping", "bad-default.toml"),
+            ("--out", "n3"),
+        ],
+    );
+    assert_refused(
+        &o,
+        "bad-default.toml:36:28: error: [hydrants] default_lateral_diameter is 0 in, not between 0.0393701 and 393.7 in",
+    );
+    assert!(!dir.join("n3").exists());
     // Errors name the layer's file and the feature, and nothing is written.
     for (lead, says) in [
         (

@@ -194,6 +194,9 @@ pub struct HydrantsSection {
     /// Attribute with the lead's C factor (Hazen-Williams) or absolute roughness (Darcy-Weisbach,
     /// in `[pipes] roughness_unit`); where empty, hydrants.csv's default.
     pub lateral_roughness: Option<String>,
+    /// The diameter (in `lateral_diameter_unit`) of a lead that the attributes do not give:
+    /// such a hydrant gets a lead from the main to its position, as long as that distance.
+    pub default_lateral_diameter: Option<Spanned<f64>>,
 }
 
 /// The sources layer.

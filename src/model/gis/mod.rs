@@ -244,8 +244,7 @@ fn build_network(
             &mut b,
             layer,
             mapping,
-            attach_tolerance,
-            split_tolerance,
+            [attach_tolerance, split_tolerance, metres_per_unit],
             diags,
         );
     }
@@ -323,6 +322,26 @@ fn check_mapping(m: &Mapping, file: &MappingFile, diags: &mut Diagnostics) {
         }
     }
     check_mapping_roughness(m, file, diags);
+    if let Some(d) = &m.hydrants.default_lateral_diameter {
+        let unit = m
+            .hydrants
+            .lateral_diameter_unit
+            .unwrap_or(default_diameter(m.network.units));
+        let x = *d.get_ref();
+        if !limits::DIAMETER.holds(x * unit.metres()) {
+            diags.error(
+                file.at(d.span()),
+                format!(
+                    "[hydrants] default_lateral_diameter is {} {u}, not between {} and {} {u}",
+                    display_value(x),
+                    limits::DIAMETER.show_bound_in(limits::MIN_DIAMETER_M, unit.metres()),
+                    limits::DIAMETER.show_bound_in(limits::MAX_DIAMETER_M, unit.metres()),
+                    u = unit.symbol()
+                ),
+                "give the leads' inside diameter in [hydrants] lateral_diameter_unit (e.g. 6 in)",
+            );
+        }
+    }
     if let Some(k) = &m.sources.default_kind {
         let kind = k.get_ref();
         if kind != "reservoir" && kind != "tank" {
@@ -659,12 +678,13 @@ fn place_sources(
     }
 }
 
+/// Hydrants at their junctions (attached or splitting a pipe); `[attach, split, metres per
+/// coordinate unit]`.
 fn place_hydrants(
     b: &mut Builder,
     layer: &Layer,
     mapping: &Mapping,
-    attach: f64,
-    split: f64,
+    [attach, split, metres_per_unit]: [f64; 3],
     diags: &mut Diagnostics,
 ) {
     let m = &mapping.hydrants;
@@ -712,6 +732,25 @@ fn place_hydrants(
                     pos,
                     &format!("hydrant {detail}"),
                 ));
+                let lateral = match lateral {
+                    Some(given) => Some(given),
+                    None => {
+                        let offset_m = build::dist(pos, b.nodes[junction].pos) * metres_per_unit;
+                        let Some(lead) = lead_from_position(b, f, &id, pos, offset_m, mapping)
+                        else {
+                            diags.error(
+                                layer.at(),
+                                format!(
+                                    "{label}: the lead from the main to the hydrant would be {} m long, more than any pipe",
+                                    display_value(offset_m)
+                                ),
+                                "check the hydrant's position and [coordinates] unit",
+                            );
+                            continue;
+                        };
+                        lead
+                    }
+                };
                 b.hydrants.push(BHydrant {
                     id,
                     junction,
@@ -735,6 +774,52 @@ fn place_hydrants(
             )),
         }
     }
+}
+
+/// The lead of a hydrant whose attributes give none, where the mapping gives
+/// `default_lateral_diameter`: from its junction on the main to its position (`offset_m`
+/// long), reported as guessed; `Some(None)` without a default or where the hydrant sits on
+/// its junction; `None` where the lead would be longer than any pipe.
+fn lead_from_position(
+    b: &mut Builder,
+    f: &InFeature,
+    id: &str,
+    pos: [f64; 2],
+    offset_m: f64,
+    mapping: &Mapping,
+) -> Option<Option<BLateral>> {
+    let m = &mapping.hydrants;
+    let Some(diameter) = m.default_lateral_diameter.as_ref().map(|d| *d.get_ref()) else {
+        return Some(None);
+    };
+    if offset_m <= 0.0 {
+        return Some(None);
+    }
+    if !limits::PIPE_LENGTH.holds(offset_m) {
+        return None;
+    }
+    let units = mapping.network.units;
+    let length_unit = m.lateral_length_unit.unwrap_or(default_length(units));
+    let diameter_unit = m.lateral_diameter_unit.unwrap_or(default_diameter(units));
+    b.events.push(event(
+        Action::Guessed,
+        "hydrants",
+        f,
+        id,
+        pos,
+        &format!(
+            "no lead attributes: a lead of {} {} (the hydrant's distance to the main) and the default diameter {} {}",
+            display_value(offset_m / length_unit.metres()),
+            length_unit.symbol(),
+            display_value(diameter),
+            diameter_unit.symbol()
+        ),
+    ));
+    Some(Some(BLateral {
+        length_m: offset_m,
+        diameter_m: diameter * diameter_unit.metres(),
+        roughness: None,
+    }))
 }
 
 /// A hydrant's own required flow, m³/s (`Some(None)`: none given); `None` after an error.
