@@ -211,7 +211,7 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
 /// error.
 pub fn read_network_rows(files: &[(String, Vec<u8>)]) -> Result<(), Diagnostics> {
     let mut diags = Diagnostics::new();
-    let fix = "a network needs model.toml with name, units, headloss and a [demand] table (see docs/network-format.md)";
+    let fix = MODEL_FIX;
     let Some(text) = files
         .iter()
         .find(|(n, _)| n == MODEL_FILE)
@@ -251,15 +251,13 @@ fn read_rows(
     (reader, demand_factors, n_junctions, hydrants)
 }
 
+/// What to do about a model.toml that cannot be read.
+const MODEL_FIX: &str = "a network folder needs model.toml with name, units, headloss and a [demand] table (see docs/network-format.md)";
+
 /// Reads model.toml, with its text for the locations of its values; `None` when it cannot be
 /// read (reported).
 fn read_model(dir: &Path, diags: &mut Diagnostics) -> Option<(ModelFile, String)> {
-    read_toml(
-        &dir.join(MODEL_FILE),
-        MODEL_FILE,
-        "a network folder needs model.toml with name, units, headloss and a [demand] table (see docs/network-format.md)",
-        diags,
-    )
+    read_toml(&dir.join(MODEL_FILE), MODEL_FILE, MODEL_FIX, diags)
 }
 
 /// Nodes are read with their zone name in a side table; here the names become indices.
