@@ -16,6 +16,19 @@ pub fn id_with_kind(kind: &str, id: &str) -> String {
     }
 }
 
+/// The assumption about hydrants for which hydrants.csv gives no lead, where there are any: the
+/// loss between the main and the outlet is then not counted, which overstates what such a
+/// hydrant delivers (docs/fire-flow-method.md, "Laterals").
+pub fn hydrants_without_leads(net: &Network) -> Option<String> {
+    let without = net.hydrants.iter().filter(|h| h.lateral.is_none()).count();
+    (without > 0).then(|| {
+        format!(
+            "Hydrants for which hydrants.csv gives no lead ({without} of {}) are taken at their junction on the main: the head loss in the lead is not counted, which states more flow than such a hydrant delivers through a long or narrow lead.",
+            net.hydrants.len()
+        )
+    })
+}
+
 /// A link as notes name it: valves by their kind (`PRV X`), other links as `pipe X`, `pump X`.
 pub fn link_label(net: &Network, i: usize) -> String {
     let l = &net.links[i];

@@ -97,7 +97,7 @@ impl CheckReport<'_> {
     /// The cautions, and the assumptions of the analysis in plain words.
     fn cautions_section(&self) -> Section {
         let net = self.network;
-        let assumptions = [
+        let mut assumptions = vec![
             "Steady state: the network is solved at one instant; tank levels do not fall over the duration of a fire.".to_string(),
             "Demand-driven: every junction receives its demand whatever its pressure, so a pressure computed below zero means the mains cannot carry that flow, not that less water is drawn.".to_string(),
             format!(
@@ -106,6 +106,7 @@ impl CheckReport<'_> {
             ),
             "Sources (reservoirs and tanks) are held at the fixed grades listed above.".to_string(),
         ];
+        assumptions.extend(crate::report::words::hydrants_without_leads(net));
         Section::titled("Cautions and assumptions")
             .paragraph("Assumptions of the analysis:")
             .list(assumptions.into_iter().map(Text::from))
