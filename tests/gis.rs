@@ -1164,7 +1164,7 @@ fn hydrant_leads_are_imported_in_the_networks_units_and_checked() {
     );
     assert_refused(
         &o,
-        "bad-default.toml:36:28: error: [hydrants] default_lateral_diameter is 0 in, not between 0.0393701 and 393.7 in",
+        "bad-default.toml:36:28: error: [hydrants] default_lateral_diameter 0 in is not between 0.0393701 and 393.7 in",
     );
     assert!(!dir.join("n3").exists());
     // Errors name the layer's file and the feature, and nothing is written.
@@ -1218,35 +1218,44 @@ fn values_the_network_reader_refuses_are_reported_before_anything_is_written() {
         assert!(!dir.join(out).exists(), "{out} was written");
         o
     };
-    // A diameter in the wrong unit is refused at its feature, once for the whole line.
-    let text = read(&dir.join("pipes.geojson")).replacen("\"DIAM_IN\":6", "\"DIAM_IN\":2000", 1);
-    std::fs::write(dir.join("big.geojson"), text).expect("written");
-    let o = run("big.geojson", "sources.geojson", "n1");
-    assert_refused(
-        &o,
-        "big.geojson: error: feature 3 (id `D`): the diameter 2000 in is not between",
-    );
-    // A line 400,000 ft long (coordinates in the wrong unit): the pipe the reader would
-    // refuse is named by its row, at the pipes layer.
-    let text = read(&dir.join("pipes.geojson")).replacen("[300.0,0.0]", "[400000.0,0.0]", 1);
-    std::fs::write(dir.join("long.geojson"), text).expect("written");
-    let o = run("long.geojson", "sources.geojson", "n2");
-    assert_refused(
-        &o,
-        "long.geojson: error: the imported pipes.csv would be refused when read (its row `D,",
-    );
-    // As docs/gis.md §1 quotes it.
-    assert!(String::from_utf8_lossy(&o.stderr).contains(
-        "the imported pipes.csv would be refused when read (its row `D,J-0003,J-0004,399800,6,150,0,open,PVC`): `length` 399800 ft is beyond any water main between two junctions (firemain accepts at most 328083 ft); fix: correct the feature in the GIS or the mapping; the reader says: "
-    ));
-    // A grade beyond any water system, at the sources layer.
-    let text = read(&dir.join("sources.geojson")).replacen("\"HGL\":300", "\"HGL\":1e7", 1);
-    std::fs::write(dir.join("grade.geojson"), text).expect("written");
-    let o = run("pipes.geojson", "grade.geojson", "n3");
-    assert_refused(
-        &o,
-        "grade.geojson: error: the imported sources.csv would be refused when read (its row `R1,",
-    );
+    // (layer changed, text replaced, by, file of the changed layer, what the error says):
+    // - a diameter in the wrong unit, refused at its feature, once for the whole line;
+    // - a line 400,000 ft long (coordinates in the wrong unit): the pipe the reader would
+    //   refuse, named by its row at the pipes layer (as docs/gis.md §1 quotes it);
+    // - a grade beyond any water system, at the sources layer.
+    let cases = [
+        (
+            "pipes.geojson",
+            "\"DIAM_IN\":6",
+            "\"DIAM_IN\":2000",
+            "big.geojson",
+            "big.geojson: error: feature 3 (id `D`): the diameter 2000 in is not between",
+        ),
+        (
+            "pipes.geojson",
+            "[300.0,0.0]",
+            "[400000.0,0.0]",
+            "long.geojson",
+            "long.geojson: error: the imported pipes.csv would be refused when read (its row `D,J-0003,J-0004,399800,6,150,0,open,PVC`): `length` 399800 ft is beyond any water main between two junctions (firemain accepts at most 328083 ft); fix: correct the feature in the GIS or the mapping; the reader says: ",
+        ),
+        (
+            "sources.geojson",
+            "\"HGL\":300",
+            "\"HGL\":1e7",
+            "grade.geojson",
+            "grade.geojson: error: the imported sources.csv would be refused when read (its row `R1,",
+        ),
+    ];
+    for (k, (layer, from, to, changed, says)) in cases.into_iter().enumerate() {
+        let text = read(&dir.join(layer)).replacen(from, to, 1);
+        std::fs::write(dir.join(changed), text).expect("written");
+        let (pipes, sources) = if layer == "pipes.geojson" {
+            (changed, "sources.geojson")
+        } else {
+            ("pipes.geojson", changed)
+        };
+        assert_refused(&run(pipes, sources, &format!("n{k}")), says);
+    }
     // A point table's value is refused at its cell: 1e9 gpm (3.8e6 m³/s) at a junction.
     std::fs::write(dir.join("demands.csv"), "x,y,demand\n0,0,5\n100,0,1e9\n").expect("written");
     let o = import(

@@ -523,14 +523,13 @@ fn pipe_values(
     let diameter_m = diameter * units.diameter_m;
     if !limits::DIAMETER.holds(diameter_m) {
         // At the feature, once, rather than by the network reader at each piece of the line.
-        let unit = m.diameter_unit;
         err(
-            format!(
-                "the diameter {} {u} is not between {} and {} {u}",
-                display_value(diameter),
-                limits::DIAMETER.show_bound_in(limits::MIN_DIAMETER_M, unit.metres()),
-                limits::DIAMETER.show_bound_in(limits::MAX_DIAMETER_M, unit.metres()),
-                u = unit.symbol()
+            super::not_between(
+                "the diameter",
+                diameter_m,
+                m.diameter_unit,
+                limits::DIAMETER,
+                limits::MIN_DIAMETER_M,
             ),
             "check the value and [pipes] diameter_unit in the mapping",
         );

@@ -331,12 +331,12 @@ fn check_mapping(m: &Mapping, file: &MappingFile, diags: &mut Diagnostics) {
         if !limits::DIAMETER.holds(x * unit.metres()) {
             diags.error(
                 file.at(d.span()),
-                format!(
-                    "[hydrants] default_lateral_diameter is {} {u}, not between {} and {} {u}",
-                    display_value(x),
-                    limits::DIAMETER.show_bound_in(limits::MIN_DIAMETER_M, unit.metres()),
-                    limits::DIAMETER.show_bound_in(limits::MAX_DIAMETER_M, unit.metres()),
-                    u = unit.symbol()
+                not_between(
+                    "[hydrants] default_lateral_diameter",
+                    x * unit.metres(),
+                    unit,
+                    limits::DIAMETER,
+                    limits::MIN_DIAMETER_M,
                 ),
                 "give the leads' inside diameter in [hydrants] lateral_diameter_unit (e.g. 6 in)",
             );
@@ -931,6 +931,24 @@ fn lateral_of(
     Some(Some(lateral))
 }
 
+/// "`what` V u is not between A and B u": a length or diameter of `si` metres outside `limit`
+/// (from `min_si` up), in a unit of the mapping's, the bounds as the limit shows them.
+pub(super) fn not_between(
+    what: &str,
+    si: f64,
+    unit: LengthUnit,
+    limit: limits::Limit,
+    min_si: f64,
+) -> String {
+    format!(
+        "{what} {} {u} is not between {} and {} {u}",
+        display_value(si / unit.metres()),
+        limit.show_bound_in(min_si, unit.metres()),
+        limit.show_bound_in(limit.max_si, unit.metres()),
+        u = unit.symbol()
+    )
+}
+
 /// Why hydrants.csv would refuse `lateral`, if it would; lengths and diameters in the
 /// attributes' own units, as the GIS shows them.
 fn lateral_problem(
@@ -939,31 +957,22 @@ fn lateral_problem(
     diameter_unit: LengthUnit,
     hazen_williams: bool,
 ) -> Option<String> {
-    let outside = |what: &str, si: f64, unit: LengthUnit, limit: limits::Limit, min_si: f64| {
-        format!(
-            "the lateral {what} {} {u} is not between {} and {} {u}",
-            display_value(si / unit.metres()),
-            limit.show_bound_in(min_si, unit.metres()),
-            limit.show_bound_in(limit.max_si, unit.metres()),
-            u = unit.symbol()
-        )
-    };
     let BLateral {
         length_m,
         diameter_m,
         roughness,
     } = *lateral;
     if !(length_m >= 0.0 && limits::PIPE_LENGTH.holds(length_m)) {
-        Some(outside(
-            "length",
+        Some(not_between(
+            "the lateral length",
             length_m,
             length_unit,
             limits::PIPE_LENGTH,
             0.0,
         ))
     } else if !limits::DIAMETER.holds(diameter_m) {
-        Some(outside(
-            "diameter",
+        Some(not_between(
+            "the lateral diameter",
             diameter_m,
             diameter_unit,
             limits::DIAMETER,
