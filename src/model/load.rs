@@ -211,23 +211,22 @@ pub fn load_network(dir: &Path) -> Result<Loaded, Diagnostics> {
 /// error.
 pub fn read_network_rows(files: &[(String, Vec<u8>)]) -> Result<(), Diagnostics> {
     let mut diags = Diagnostics::new();
-    let fix = MODEL_FIX;
     let Some(text) = files
         .iter()
         .find(|(n, _)| n == MODEL_FILE)
-        .and_then(|(_, bytes)| String::from_utf8(bytes.clone()).ok())
+        .and_then(|(_, bytes)| std::str::from_utf8(bytes).ok())
     else {
         diags.error(
             Location::file(MODEL_FILE),
             "the file is missing or not UTF-8",
-            fix,
+            MODEL_FIX,
         );
         return Err(diags);
     };
-    let Some(model) = parse_toml::<ModelFile>(&text, MODEL_FILE, fix, &mut diags) else {
+    let Some(model) = parse_toml::<ModelFile>(text, MODEL_FILE, MODEL_FIX, &mut diags) else {
         return Err(diags);
     };
-    let (reader, ..) = read_rows(Files::Memory(files), &model, &text, diags);
+    let (reader, ..) = read_rows(Files::Memory(files), &model, text, diags);
     if reader.diags.has_errors() {
         Err(reader.diags)
     } else {
